@@ -1,0 +1,121 @@
+package record
+
+import "math"
+
+// Accuracy compares a digitized lead with the signal that was drawn.
+type Accuracy struct {
+	Lead     string  `json:"lead"`
+	SNRdB    float64 `json:"snr_db"`   // 10·log10(Σref²/Σ(ref−est)²), means removed
+	R        float64 `json:"r"`        // Pearson correlation
+	RMSEuV   float64 `json:"rmse_uv"`  // root-mean-square error in µV
+	ShiftS   float64 `json:"shift_s"`  // best time shift applied to est
+	Coverage float64 `json:"coverage"` // fraction of the window where est has a value
+	N        int     `json:"n"`        // samples compared
+}
+
+// MaxShiftS is the largest time shift searched when aligning an estimate
+// to its reference (±40 ms).
+const MaxShiftS = 0.040
+
+// Compare scores est against ref over the window [t0, t1) on the common
+// clock. Both are sampled onto ref's grid; est gaps are skipped (and
+// lower Coverage). Each signal's mean over the compared samples is removed
+// before the SNR, so a constant baseline offset does not count as error.
+// The shift of est within ±MaxShiftS that maximises the SNR is used.
+func Compare(ref, est *Signal, t0, t1 float64) Accuracy {
+	a := Accuracy{Lead: ref.Lead, SNRdB: math.Inf(-1)}
+	if ref == nil || est == nil || ref.RateHz <= 0 || est.RateHz <= 0 {
+		return a
+	}
+	dt := 1 / ref.RateHz
+	i0 := int(math.Ceil((t0 - ref.StartS) * ref.RateHz))
+	i1 := int(math.Floor((t1 - ref.StartS) * ref.RateHz))
+	if i0 < 0 {
+		i0 = 0
+	}
+	if i1 > len(ref.MV) {
+		i1 = len(ref.MV)
+	}
+	if i1-i0 < 2 {
+		return a
+	}
+	step := 1 / math.Max(ref.RateHz, est.RateHz)
+	nShift := int(math.Round(MaxShiftS / step))
+	best := a
+	r := make([]float64, 0, i1-i0)
+	e := make([]float64, 0, i1-i0)
+	for k := -nShift; k <= nShift; k++ {
+		shift := float64(k) * step
+		r, e = r[:0], e[:0]
+		for i := i0; i < i1; i++ {
+			t := ref.StartS + float64(i)*dt
+			rv := ref.MV[i]
+			ev := interp(est, t+shift)
+			if math.IsNaN(rv) || math.IsNaN(ev) {
+				continue
+			}
+			r = append(r, rv)
+			e = append(e, ev)
+		}
+		if len(r) < 2 {
+			continue
+		}
+		cur := score(r, e)
+		cur.Lead = ref.Lead
+		cur.ShiftS = shift
+		cur.Coverage = float64(len(r)) / float64(i1-i0)
+		// Prefer coverage first (a shift must not win by dropping samples),
+		// then SNR.
+		if cur.SNRdB > best.SNRdB && cur.Coverage >= best.Coverage-0.02 {
+			best = cur
+		}
+	}
+	return best
+}
+
+func interp(s *Signal, t float64) float64 {
+	x := (t - s.StartS) * s.RateHz
+	if x < 0 || x > float64(len(s.MV)-1) {
+		return math.NaN()
+	}
+	j := int(x)
+	if j >= len(s.MV)-1 {
+		return s.MV[len(s.MV)-1]
+	}
+	f := x - float64(j)
+	return s.MV[j]*(1-f) + s.MV[j+1]*f
+}
+
+func score(r, e []float64) Accuracy {
+	n := float64(len(r))
+	var mr, me float64
+	for i := range r {
+		mr += r[i]
+		me += e[i]
+	}
+	mr /= n
+	me /= n
+	var srr, see, sre, sd float64
+	for i := range r {
+		dr, de := r[i]-mr, e[i]-me
+		srr += dr * dr
+		see += de * de
+		sre += dr * de
+		d := dr - de
+		sd += d * d
+	}
+	a := Accuracy{N: len(r)}
+	switch {
+	case sd == 0:
+		a.SNRdB = math.Inf(1)
+	case srr == 0:
+		a.SNRdB = math.Inf(-1)
+	default:
+		a.SNRdB = 10 * math.Log10(srr/sd)
+	}
+	if srr > 0 && see > 0 {
+		a.R = sre / math.Sqrt(srr*see)
+	}
+	a.RMSEuV = 1000 * math.Sqrt(sd/n)
+	return a
+}

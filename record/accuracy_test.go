@@ -1,0 +1,47 @@
+package record
+
+import (
+	"math"
+	"testing"
+)
+
+// The SNR definition is the one used across the project:
+// 10·log10(Σref²/Σ(ref−est)²) with means removed. A known additive error
+// gives a known value: for a unit-amplitude sine (power 1/2) and an error
+// sine of amplitude 0.1 (power 0.005) the SNR is 10·log10(100) = 20 dB.
+func TestCompareKnownSNR(t *testing.T) {
+	ref := Signal{Lead: II, RateHz: 500}
+	est := Signal{Lead: II, RateHz: 500, StartS: 0}
+	for i := 0; i < 5000; i++ {
+		x := float64(i) / 500
+		ref.MV = append(ref.MV, math.Sin(2*math.Pi*1.3*x))
+		est.MV = append(est.MV, math.Sin(2*math.Pi*1.3*x)+0.1*math.Sin(2*math.Pi*7*x)+0.25)
+	}
+	a := Compare(&ref, &est, 0, 10)
+	if math.Abs(a.SNRdB-20) > 0.2 {
+		t.Fatalf("SNR = %.3f dB, want 20", a.SNRdB)
+	}
+	if a.Coverage < 0.99 {
+		t.Fatalf("coverage %.3f", a.Coverage)
+	}
+}
+
+func TestCompareFindsShift(t *testing.T) {
+	ref := Signal{Lead: I, RateHz: 500}
+	est := Signal{Lead: I, RateHz: 250, StartS: 0.02} // 20 ms late, half rate
+	for i := 0; i < 2500; i++ {
+		x := float64(i) / 500
+		ref.MV = append(ref.MV, math.Sin(2*math.Pi*2*x)+0.3*math.Sin(2*math.Pi*9*x))
+	}
+	for i := 0; i < 1250; i++ {
+		x := float64(i)/250 + 0.02 - 0.012 // est(t) = ref(t-0.012)
+		est.MV = append(est.MV, math.Sin(2*math.Pi*2*x)+0.3*math.Sin(2*math.Pi*9*x))
+	}
+	a := Compare(&ref, &est, 0.5, 4.5)
+	if math.Abs(a.ShiftS-0.012) > 0.0021 {
+		t.Fatalf("shift %.4f, want 0.012", a.ShiftS)
+	}
+	if a.SNRdB < 30 {
+		t.Fatalf("SNR %.1f after alignment", a.SNRdB)
+	}
+}
