@@ -1,0 +1,134 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"strings"
+
+	"tracelift/pipeline"
+)
+
+func init() {
+	register("digitize", "trace an ECG image into signals, measure them, write exports", cmdDigitize)
+}
+
+// commonFlags are the options shared by digitize and batch.
+type commonFlags struct {
+	out      string
+	formats  string
+	rate     float64
+	layout   string
+	order    string
+	dpi      float64
+	pxPerMM  float64
+	gain     float64
+	speed    float64
+	page     int
+	maxMP    float64
+	maxMB    float64
+	paper    string
+	noRecon  bool
+}
+
+func (c *commonFlags) register(fs *flag.FlagSet) {
+	fs.StringVar(&c.out, "o", "", "output directory (required)")
+	fs.StringVar(&c.formats, "format", "csv,json", "comma-separated exports: csv, wfdb, edf, json, pdf")
+	fs.Float64Var(&c.rate, "rate", 500, "output sample rate in Hz")
+	fs.StringVar(&c.layout, "layout", "", "force the layout: 3x4+1, 3x4+3, 6x2, 12x1, 1x1 (default: find it)")
+	fs.StringVar(&c.order, "order", "", "force the lead order: standard or cabrera (default: find it)")
+	fs.Float64Var(&c.dpi, "dpi", 0, "scale by hand, in dots per inch (used when no grid or pulse gives one)")
+	fs.Float64Var(&c.pxPerMM, "px-per-mm", 0, "scale by hand, in pixels per mm (used when no grid or pulse gives one)")
+	fs.Float64Var(&c.gain, "gain", 0, "gain stated on the printout in mm/mV (checked against the pulse)")
+	fs.Float64Var(&c.speed, "speed", 0, "paper speed stated on the printout in mm/s (checked against the pulse)")
+	fs.IntVar(&c.page, "page", 1, "page of a multi-page TIFF or PDF (1-based)")
+	fs.Float64Var(&c.maxMP, "max-megapixels", 200, "refuse images larger than this many megapixels")
+	fs.Float64Var(&c.maxMB, "max-megabytes", 200, "refuse files larger than this many megabytes")
+	fs.StringVar(&c.paper, "paper", "a4", "paper size of the PDF summary: a4 or letter")
+}
+
+func (c *commonFlags) options() pipeline.Options {
+	var o pipeline.Options
+	o.Load.Page = c.page - 1
+	o.Load.MaxPixels = int64(c.maxMP * 1e6)
+	o.Load.MaxBytes = int64(c.maxMB * 1e6)
+	o.Calib.UserDPI = c.dpi
+	o.Calib.UserPxPerMM = c.pxPerMM
+	o.Calib.StatedGainMMPerMV = c.gain
+	o.Calib.StatedSpeedMMPerS = c.speed
+	o.Digitize.RateHz = c.rate
+	o.Digitize.Layout = c.layout
+	o.Digitize.LeadOrder = c.order
+	return o
+}
+
+func (c *commonFlags) check() error {
+	if c.out == "" {
+		return errors.New("-o DIR is required")
+	}
+	if _, err := pipeline.ParseFormats(c.formats); err != nil {
+		return err
+	}
+	if !(c.rate >= 50 && c.rate <= 10000) {
+		return fmt.Errorf("--rate %v: give a rate between 50 and 10000 Hz", c.rate)
+	}
+	if c.page < 1 {
+		return fmt.Errorf("--page %d: pages count from 1", c.page)
+	}
+	switch strings.ToLower(c.paper) {
+	case "a4", "letter":
+	default:
+		return fmt.Errorf("--paper %q: a4 or letter", c.paper)
+	}
+	return nil
+}
+
+func cmdDigitize(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("digitize", flag.ContinueOnError)
+	var c commonFlags
+	c.register(fs)
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: tracelift-cli digitize IMAGE -o DIR [options]")
+		fmt.Fprintln(stderr, "Reads a PNG, JPEG, TIFF (fax too) or PDF page of an ECG printout and writes DIR/<stem>.csv,")
+		fmt.Fprintln(stderr, "DIR/<stem>.json and the other chosen exports.")
+		fs.PrintDefaults()
+	}
+	pos, err := parseArgs(fs, args, stderr)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return 0
+		}
+		return 2
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "tracelift-cli digitize: give exactly one image file")
+		fs.Usage()
+		return 2
+	}
+	if err := c.check(); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		return 2
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	formats, _ := pipeline.ParseFormats(c.formats)
+	o, err := pipeline.Process(ctx, pos[0], c.options())
+	if err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		return 1
+	}
+	files, err := pipeline.Export(o, c.out, pipeline.Stem(pos[0]), formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
+	if err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		return 1
+	}
+	fmt.Fprint(stdout, o.Brief())
+	for _, f := range files {
+		fmt.Fprintln(stdout, "wrote", f)
+	}
+	return 0
+}

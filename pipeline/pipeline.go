@@ -1,0 +1,116 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"tracelift/axis"
+	"tracelift/calib"
+	"tracelift/digitize"
+	"tracelift/record"
+)
+
+// Software names this build in provenance records.
+const Software = "tracelift 0.1"
+
+// Caution is shown wherever measurements are shown.
+const Caution = "Not a diagnostic device. Every measurement is to be reviewed by a qualified clinician; local protocols and licensed practice come first."
+
+// Options for one run. The zero value uses every default.
+type Options struct {
+	Load     calib.LoadOptions
+	Calib    calib.Options
+	Digitize digitize.Options
+	Measure  axis.Options
+}
+
+// Outcome holds every stage's result.
+type Outcome struct {
+	Page      *calib.Page
+	Calib     *calib.Result
+	Digitized *digitize.Result
+	Findings  *axis.Findings
+	// MeasureErr says why measuring failed when the tracing itself worked
+	// (a strip too short for beats, say); the signals are still exported.
+	MeasureErr error
+	Timings    Timings
+}
+
+// Timings of each stage.
+type Timings struct {
+	Load, Calib, Digitize, Measure time.Duration
+}
+
+// Total returns the sum of the stages.
+func (t Timings) Total() time.Duration { return t.Load + t.Calib + t.Digitize + t.Measure }
+
+// Process runs every stage on the image file at path.
+func Process(ctx context.Context, path string, opt Options) (*Outcome, error) {
+	t0 := time.Now()
+	pg, err := calib.Load(path, opt.Load)
+	if err != nil {
+		return nil, err
+	}
+	o, err := ProcessPage(ctx, pg, opt)
+	if o != nil {
+		o.Timings.Load = time.Since(t0) - o.Timings.Total()
+	}
+	return o, err
+}
+
+// ProcessPage runs calibration, tracing and measurement on a loaded page.
+func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, error) {
+	o := &Outcome{Page: pg}
+	t := time.Now()
+	cal, err := calib.Detect(ctx, pg, opt.Calib)
+	o.Timings.Calib = time.Since(t)
+	if err != nil {
+		return o, fmt.Errorf("%s: %w", pg.Path, err)
+	}
+	o.Calib = cal
+	if err := ctx.Err(); err != nil {
+		return o, err
+	}
+	t = time.Now()
+	dr, err := digitize.Run(ctx, cal, opt.Digitize)
+	o.Timings.Digitize = time.Since(t)
+	if err != nil {
+		return o, fmt.Errorf("%s: %w", pg.Path, err)
+	}
+	o.Digitized = dr
+	fillProvenance(dr.Record, pg, cal, dr)
+	o.Remeasure(opt.Measure)
+	return o, nil
+}
+
+// Remeasure runs the measurement engine again on the current record (after
+// a hand correction, say).
+func (o *Outcome) Remeasure(opt axis.Options) {
+	if o.Digitized == nil || o.Digitized.Record == nil {
+		return
+	}
+	t := time.Now()
+	if opt.LeadQuality == nil {
+		opt.LeadQuality = map[string]float64{}
+		for l, q := range o.Digitized.Quality {
+			opt.LeadQuality[l] = q.Confidence
+		}
+	}
+	f, err := axis.Measure(o.Digitized.Record, opt)
+	o.Timings.Measure = time.Since(t)
+	o.Findings, o.MeasureErr = f, err
+}
+
+func fillProvenance(rec *record.Record, pg *calib.Page, cal *calib.Result, dr *digitize.Result) {
+	p := &rec.Provenance
+	p.SourceFile = pg.Path
+	p.ImageSHA256 = pg.SHA256
+	p.PxPerMMX = cal.PxPerMMX
+	p.PxPerMMY = cal.PxPerMMY
+	p.GainMMPerMV = cal.GainMMPerMV
+	p.SpeedMMPerS = cal.SpeedMMPerS
+	p.Layout = dr.Layout
+	p.ScaleSource = cal.Source
+	p.Software = Software
+}
