@@ -1,0 +1,605 @@
+package samples
+
+import (
+	"errors"
+	"fmt"
+	"image"
+	"image/color"
+	"math"
+
+	"golang.org/x/image/vector"
+
+	"tracelift/record"
+)
+
+// Panel is one drawn lead window.
+type Panel struct {
+	Lead        string     // as labelled: a standard name, or "-aVR" for inverted aVR
+	Row, Col    int        // grid position; rhythm strips continue the row count
+	Rhythm      bool       // a rhythm strip across the page
+	Box         [4]float64 // x0, y0, x1, y1 in clean-render px: the time span across, the row's band down
+	T0S, T1S    float64    // time window on the tracing clock
+	BaselineYPx float64    // y of 0 mV in clean-render px
+}
+
+// Truth is what a printout holds, for scoring a digitization.
+type Truth struct {
+	Layout      Layout
+	Cabrera     bool
+	SpeedMMPerS float64
+	GainMMPerMV float64
+	// PxPerMMX and PxPerMMY are the scales of the FINAL image along the
+	// paper's time and amplitude axes (at the page centre when the
+	// page is seen in perspective).
+	PxPerMMX, PxPerMMY float64
+	RotationDeg        float64      // page rotation in the final image, counter-clockwise positive
+	Panels             []Panel      // clean-render px
+	Pulses             [][4]float64 // pulse boxes x0 (rise), y0 (top), x1 (fall), y1 (baseline), clean-render px
+	// Signals holds what was drawn per lead on the tracing clock: each
+	// signal's StartS and length are the lead's visible window (for a
+	// lead drawn both as a panel and as a rhythm strip, the strip's
+	// window). Leads keep their true polarity and standard names: a
+	// panel labelled "-aVR" drew −1 × the "aVR" signal here.
+	Signals *record.Record
+	// PageToImage maps clean-render px (x, y, 1) to final-image px,
+	// row-major 3×3 homography; identity for a clean render.
+	PageToImage [9]float64
+	Condition   string
+}
+
+// Printout is an image with its truth.
+type Printout struct {
+	Image *image.NRGBA
+	Truth Truth
+}
+
+// Identity is the identity homography.
+var Identity = [9]float64{1, 0, 0, 0, 1, 0, 0, 0, 1}
+
+// Errors.
+var (
+	ErrNoSignal = errors.New("samples: record has none of the leads the layout draws")
+	ErrTooShort = errors.New("samples: record is too short to draw from the start time")
+)
+
+type panelPlan struct {
+	lead   string // label
+	source string // record lead
+	invert bool
+	row    int
+	col    int
+	rhythm bool
+	t0, t1 float64
+}
+
+// plan lays the leads out in rows and columns with their time windows.
+// colDur is one column's duration; strips span all columns.
+func plan(st Style, ncolsOut *int) (rows int, panels []panelPlan) {
+	limb := []string{"I", "II", "III", "aVR", "aVL", "aVF"}
+	if st.Cabrera {
+		limb = []string{"aVL", "I", "-aVR", "II", "aVF", "III"}
+	}
+	prec := []string{"V1", "V2", "V3", "V4", "V5", "V6"}
+	all := append(append([]string{}, limb...), prec...)
+	add := func(label string, row, col int, rhythm bool) {
+		src, inv := label, false
+		if label == "-aVR" {
+			src, inv = "aVR", true
+		}
+		panels = append(panels, panelPlan{lead: label, source: src, invert: inv, row: row, col: col, rhythm: rhythm})
+	}
+	var ncols int
+	switch st.Layout {
+	case Layout3x4R1, Layout3x4R3:
+		ncols = 4
+		for c := 0; c < 4; c++ {
+			for r := 0; r < 3; r++ {
+				add(all[3*c+r], r, c, false)
+			}
+		}
+		rows = 3
+		n := 1
+		if st.Layout == Layout3x4R3 {
+			n = 3
+		}
+		for i := 0; i < n && i < len(st.RhythmLeads); i++ {
+			add(record.CanonicalLead(st.RhythmLeads[i]), 3+i, 0, true)
+			rows++
+		}
+	case Layout6x2:
+		ncols = 2
+		for c := 0; c < 2; c++ {
+			for r := 0; r < 6; r++ {
+				add(all[6*c+r], r, c, false)
+			}
+		}
+		rows = 6
+	case Layout12x1:
+		ncols = 1
+		for r, l := range all {
+			add(l, r, 0, false)
+		}
+		rows = 12
+	case Layout1x1:
+		ncols = 1
+		add(record.CanonicalLead(st.RhythmLeads[0]), 0, 0, false)
+		rows = 1
+	}
+	*ncolsOut = ncols
+	return rows, panels
+}
+
+// geometry in mm.
+type geom struct {
+	pxmm            float64
+	traceX0         float64 // mm, left edge of the first panel
+	colW            float64 // mm per column
+	colDur          float64 // s per column
+	rowTop, rowH    float64 // mm
+	pulseX          float64 // mm, rise of the pulses
+	headerY         float64 // mm, baseline of the header text
+	gridX0, gridY0  float64 // mm, grid rectangle
+	gridX1, gridY1  float64
+	gridOX, gridOY  float64 // mm, a 5 mm crossing
+	rows, ncols     int
+	widthPx, heigPx int
+}
+
+func layoutGeom(st Style, dur float64, rows, ncols int) (geom, error) {
+	var g geom
+	g.pxmm = st.DPI / 25.4
+	g.widthPx = int(math.Round(st.PaperWMM * g.pxmm))
+	g.heigPx = int(math.Round(st.PaperHMM * g.pxmm))
+	mL, mT, mR, mB := st.MarginsMM[0], st.MarginsMM[1], st.MarginsMM[2], st.MarginsMM[3]
+	pulseW := 0.0
+	if st.Pulses {
+		pulseW = 0.2*st.SpeedMMPerS + 4 // 1.5 mm lead-in, pulse, 2.5 mm gap
+	}
+	g.pulseX = mL + 1.5
+	g.traceX0 = mL + pulseW
+	avail := st.PaperWMM - mR - g.traceX0
+	total := math.Min(10, dur)
+	if lim := avail / st.SpeedMMPerS; lim < total {
+		total = lim
+	}
+	// Whole hundredths of a second per column.
+	g.colDur = math.Floor(total/float64(ncols)*100) / 100
+	if g.colDur < 0.2 {
+		return g, fmt.Errorf("samples: paper %v mm wide leaves %.2f s per column at %v mm/s; too little to draw", st.PaperWMM, g.colDur, st.SpeedMMPerS)
+	}
+	g.colW = g.colDur * st.SpeedMMPerS
+	head := 0.0
+	if st.Header != "" || st.Labels {
+		head = st.LabelPt*0.3528*1.2 + 2 // a line of text in mm (1 pt = 0.3528 mm) and a gap
+	}
+	g.headerY = mT + st.LabelPt*0.3528
+	g.rowTop = mT + head
+	g.rowH = (st.PaperHMM - mB - g.rowTop) / float64(rows)
+	if g.rowH < 5 {
+		return g, fmt.Errorf("samples: %d rows do not fit on paper %v mm high", rows, st.PaperHMM)
+	}
+	g.rows, g.ncols = rows, ncols
+	g.gridX0, g.gridY0 = mL, g.rowTop
+	g.gridX1, g.gridY1 = st.PaperWMM-mR, st.PaperHMM-mB
+	g.gridOX = g.traceX0 + st.GridOriginMM[0]
+	g.gridOY = g.rowTop + st.GridOriginMM[1]
+	return g, nil
+}
+
+// Render draws rec on paper in style st and returns the image with its
+// truth. Leads missing from rec leave their panels blank.
+func Render(rec *record.Record, st Style) (*Printout, error) {
+	if rec == nil {
+		return nil, errors.New("samples: nil record")
+	}
+	if err := rec.Validate(); err != nil {
+		return nil, fmt.Errorf("samples: %w", err)
+	}
+	st, err := st.withDefaults()
+	if err != nil {
+		return nil, err
+	}
+	var ncols int
+	rows, plans := plan(st, &ncols)
+	dur := recordEnd(rec) - st.StartS
+	if dur < 0.5 {
+		return nil, ErrTooShort
+	}
+	g, err := layoutGeom(st, dur, rows, ncols)
+	if err != nil {
+		return nil, err
+	}
+	img := image.NewNRGBA(image.Rect(0, 0, g.widthPx, g.heigPx))
+	fillNRGBA(img, st.PaperColor)
+	drawGrid(img, st, g)
+
+	tr := Truth{
+		Layout: st.Layout, Cabrera: st.Cabrera, SpeedMMPerS: st.SpeedMMPerS, GainMMPerMV: st.GainMMPerMV,
+		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, PageToImage: Identity, Condition: "clean",
+		Signals: &record.Record{Name: rec.Name},
+	}
+	tr.Signals.Provenance = record.Provenance{
+		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, GainMMPerMV: st.GainMMPerMV, SpeedMMPerS: st.SpeedMMPerS,
+		Layout: string(st.Layout), Software: "tracelift samples (truth)",
+	}
+	ink := newInker(img, st.TraceColor, st.TraceWidthMM*g.pxmm)
+	mmToPx := func(mm float64) float64 { return mm * g.pxmm }
+	pxPerS := st.SpeedMMPerS * g.pxmm
+	pxPerMV := st.GainMMPerMV * g.pxmm
+
+	// Header and labels first, so the traces draw over them.
+	txt := newTexter(st)
+	if st.Header != "" || st.Labels {
+		h := st.Header
+		settings := fmt.Sprintf("%g mm/s   %g mm/mV", st.SpeedMMPerS, st.GainMMPerMV)
+		if h != "" {
+			h += "     "
+		}
+		txt.draw(img, mmToPx(st.MarginsMM[0]), mmToPx(g.headerY), h+settings, st.TraceColor)
+	}
+
+	want := map[string][2]float64{} // source lead -> window (strip wins)
+	wantStrip := map[string]bool{}
+	for i := range plans {
+		p := &plans[i]
+		if p.rhythm {
+			p.t0, p.t1 = 0, g.colDur*float64(ncols)
+		} else {
+			p.t0 = g.colDur * float64(p.col)
+			p.t1 = p.t0 + g.colDur
+		}
+		x0 := mmToPx(g.traceX0 + g.colW*float64(p.col))
+		x1 := x0 + (p.t1-p.t0)*pxPerS
+		y0 := mmToPx(g.rowTop + g.rowH*float64(p.row))
+		base := mmToPx(g.rowTop + g.rowH*(float64(p.row)+0.58))
+		tr.Panels = append(tr.Panels, Panel{
+			Lead: p.lead, Row: p.row, Col: p.col, Rhythm: p.rhythm,
+			Box: [4]float64{x0, y0, x1, y0 + mmToPx(g.rowH)}, T0S: p.t0, T1S: p.t1, BaselineYPx: base,
+		})
+		if p.col == 0 && st.Pulses {
+			// Flat lead-in, 1 mV × 200 ms pulse, flat lead-out.
+			xr := mmToPx(g.pulseX)
+			xf := xr + 0.2*pxPerS
+			top := base - pxPerMV
+			ink.polyline([]float64{xr - mmToPx(1.5), xr, xr, xf, xf, xf + mmToPx(1.5)},
+				[]float64{base, base, top, top, base, base})
+			tr.Pulses = append(tr.Pulses, [4]float64{xr, top, xf, base})
+		}
+		if st.Labels {
+			txt.draw(img, x0+mmToPx(1.2), base-mmToPx(0.75*st.GainMMPerMV+1), p.lead, st.TraceColor)
+		}
+		if st.Separators && p.col > 0 && !p.rhythm {
+			h := mmToPx(2.5)
+			ink.polyline([]float64{x0, x0}, []float64{base - h, base + h})
+		}
+		if p.rhythm {
+			want[p.source] = [2]float64{p.t0, p.t1}
+			wantStrip[p.source] = true
+		} else if _, ok := want[p.source]; !ok {
+			want[p.source] = [2]float64{p.t0, p.t1}
+		}
+	}
+	drawn := 0
+	for i, p := range plans {
+		s := rec.Lead(p.source)
+		if s == nil || len(s.MV) == 0 {
+			continue
+		}
+		pn := tr.Panels[i]
+		sign := 1.0
+		if p.invert {
+			sign = -1
+		}
+		var xs, ys []float64
+		i0, i1 := sampleRange(s, st.StartS+p.t0, st.StartS+p.t1)
+		for k := i0; k < i1; k++ {
+			v := s.MV[k]
+			if math.IsNaN(v) {
+				ink.polyline(xs, ys)
+				xs, ys = xs[:0], ys[:0]
+				continue
+			}
+			tau := s.StartS + float64(k)/s.RateHz - st.StartS
+			xs = append(xs, pn.Box[0]+(tau-p.t0)*pxPerS)
+			ys = append(ys, pn.BaselineYPx-sign*v*pxPerMV)
+		}
+		ink.polyline(xs, ys)
+		if i1 > i0 {
+			drawn++
+		}
+	}
+	if drawn == 0 {
+		return nil, ErrNoSignal
+	}
+	// Truth signals in standard order first, then any other names.
+	var order []string
+	seen := map[string]bool{}
+	for _, l := range record.Standard12 {
+		if _, ok := want[l]; ok {
+			order = append(order, l)
+			seen[l] = true
+		}
+	}
+	for _, p := range plans {
+		if !seen[p.source] {
+			order = append(order, p.source)
+			seen[p.source] = true
+		}
+	}
+	for _, l := range order {
+		s := rec.Lead(l)
+		if s == nil {
+			continue
+		}
+		w := want[l]
+		i0, i1 := sampleRange(s, st.StartS+w[0], st.StartS+w[1])
+		if i1 <= i0 {
+			continue
+		}
+		tr.Signals.Signals = append(tr.Signals.Signals, record.Signal{
+			Lead: s.Lead, RateHz: s.RateHz,
+			StartS: s.StartS + float64(i0)/s.RateHz - st.StartS,
+			MV:     append([]float64(nil), s.MV[i0:i1]...),
+		})
+	}
+	return &Printout{Image: img, Truth: tr}, nil
+}
+
+// sampleRange returns the sample indices of s whose times fall in
+// [t0, t1) on the record's clock.
+func sampleRange(s *record.Signal, t0, t1 float64) (int, int) {
+	i0 := int(math.Ceil((t0-s.StartS)*s.RateHz - 1e-9))
+	i1 := int(math.Ceil((t1-s.StartS)*s.RateHz - 1e-9))
+	i0 = max(0, min(i0, len(s.MV)))
+	i1 = max(i0, min(i1, len(s.MV)))
+	return i0, i1
+}
+
+func recordEnd(rec *record.Record) float64 {
+	e := math.Inf(-1)
+	for i := range rec.Signals {
+		e = math.Max(e, rec.Signals[i].EndS())
+	}
+	return e
+}
+
+func fillNRGBA(img *image.NRGBA, c color.NRGBA) {
+	row := img.Pix[:img.Rect.Dx()*4]
+	for i := 0; i < len(row); i += 4 {
+		row[i], row[i+1], row[i+2], row[i+3] = c.R, c.G, c.B, c.A
+	}
+	for y := 1; y < img.Rect.Dy(); y++ {
+		copy(img.Pix[y*img.Stride:], row)
+	}
+}
+
+// inker strokes anti-aliased polylines of a fixed width in one colour
+// onto an image, one bounded mask per polyline.
+type inker struct {
+	dst  *image.NRGBA
+	col  color.NRGBA
+	hw   float64 // half width, px
+	rast *vector.Rasterizer
+	mask *image.Alpha
+}
+
+func newInker(dst *image.NRGBA, c color.NRGBA, widthPx float64) *inker {
+	return &inker{dst: dst, col: c, hw: math.Max(widthPx, 0.5) / 2, rast: vector.NewRasterizer(1, 1)}
+}
+
+// polyline strokes the points with round caps and joins. Points may lie
+// outside the image; the stroke is clipped at the image edge only.
+func (k *inker) polyline(xs, ys []float64) {
+	if len(xs) == 0 {
+		return
+	}
+	minX, minY, maxX, maxY := math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)
+	for i := range xs {
+		minX, maxX = math.Min(minX, xs[i]), math.Max(maxX, xs[i])
+		minY, maxY = math.Min(minY, ys[i]), math.Max(maxY, ys[i])
+	}
+	b := k.dst.Rect
+	r := image.Rect(int(math.Floor(minX-k.hw-1)), int(math.Floor(minY-k.hw-1)),
+		int(math.Ceil(maxX+k.hw+1)), int(math.Ceil(maxY+k.hw+1))).Intersect(b)
+	if r.Empty() {
+		return
+	}
+	w, h := r.Dx(), r.Dy()
+	k.rast.Reset(w, h)
+	ox, oy := float64(r.Min.X), float64(r.Min.Y)
+	hw := k.hw
+	disk := func(cx, cy float64) {
+		// A 12-gon, wound like the segment quads (negative shoelace area
+		// in y-down coordinates) so overlapping pieces add up.
+		const n = 12
+		for j := 0; j <= n; j++ {
+			a := -2 * math.Pi * float64(j) / n
+			px, py := float32(cx-ox+hw*math.Cos(a)), float32(cy-oy+hw*math.Sin(a))
+			if j == 0 {
+				k.rast.MoveTo(px, py)
+			} else {
+				k.rast.LineTo(px, py)
+			}
+		}
+		k.rast.ClosePath()
+	}
+	disk(xs[0], ys[0])
+	var pdx, pdy float64
+	for i := 1; i < len(xs); i++ {
+		dx, dy := xs[i]-xs[i-1], ys[i]-ys[i-1]
+		l := math.Hypot(dx, dy)
+		if l < 1e-9 {
+			continue
+		}
+		nx, ny := -dy/l*hw, dx/l*hw
+		// Quad p+n, q+n, q−n, p−n (negative shoelace area in y-down).
+		k.rast.MoveTo(float32(xs[i-1]+nx-ox), float32(ys[i-1]+ny-oy))
+		k.rast.LineTo(float32(xs[i]+nx-ox), float32(ys[i]+ny-oy))
+		k.rast.LineTo(float32(xs[i]-nx-ox), float32(ys[i]-ny-oy))
+		k.rast.LineTo(float32(xs[i-1]-nx-ox), float32(ys[i-1]-ny-oy))
+		k.rast.ClosePath()
+		// A round join where the direction turns by more than ~15°.
+		if pdx != 0 || pdy != 0 {
+			if c := (pdx*dx + pdy*dy) / l; c < 0.966 {
+				disk(xs[i-1], ys[i-1])
+			}
+		}
+		pdx, pdy = dx/l, dy/l
+	}
+	disk(xs[len(xs)-1], ys[len(ys)-1])
+	if k.mask == nil || k.mask.Rect.Dx()*k.mask.Rect.Dy() < w*h {
+		k.mask = image.NewAlpha(image.Rect(0, 0, w, h))
+	} else {
+		k.mask.Rect = image.Rect(0, 0, w, h)
+		k.mask.Stride = w
+		clear(k.mask.Pix[:w*h])
+	}
+	k.rast.Draw(k.mask, k.mask.Rect, image.Opaque, image.Point{})
+	c := k.col
+	for y := 0; y < h; y++ {
+		mrow := k.mask.Pix[y*w : y*w+w]
+		drow := k.dst.Pix[(r.Min.Y+y-b.Min.Y)*k.dst.Stride+(r.Min.X-b.Min.X)*4:]
+		for x, a := range mrow {
+			if a == 0 {
+				continue
+			}
+			blendPx(drow[4*x:4*x+4], c, uint32(a)*uint32(c.A)/255)
+		}
+	}
+}
+
+// blendPx lays colour c with coverage a (0..255) over an opaque pixel.
+func blendPx(p []uint8, c color.NRGBA, a uint32) {
+	ia := 255 - a
+	p[0] = uint8((uint32(p[0])*ia + uint32(c.R)*a + 127) / 255)
+	p[1] = uint8((uint32(p[1])*ia + uint32(c.G)*a + 127) / 255)
+	p[2] = uint8((uint32(p[2])*ia + uint32(c.B)*a + 127) / 255)
+	p[3] = 255
+}
+
+// lighten blends c toward white by f (0 = c, 1 = white).
+func lighten(c color.NRGBA, f float64) color.NRGBA {
+	l := func(v uint8) uint8 { return uint8(float64(v) + (255-float64(v))*f + 0.5) }
+	return color.NRGBA{l(c.R), l(c.G), l(c.B), 255}
+}
+
+// drawGrid prints the 1 mm and 5 mm grid inside the grid rectangle.
+func drawGrid(img *image.NRGBA, st Style, g geom) {
+	if st.Grid == GridNone {
+		return
+	}
+	major := st.GridColor
+	minor := lighten(st.GridColor, 0.45)
+	px := g.pxmm
+	x0, x1 := int(math.Floor(g.gridX0*px)), int(math.Ceil(g.gridX1*px))
+	y0, y1 := int(math.Floor(g.gridY0*px)), int(math.Ceil(g.gridY1*px))
+	x0, y0 = max(x0, 0), max(y0, 0)
+	x1, y1 = min(x1, img.Rect.Dx()), min(y1, img.Rect.Dy())
+	// Line positions: every mm from the 5 mm crossing at (gridOX, gridOY).
+	lines := func(o, lo, hi float64) (minorPos, majorPos []float64) {
+		k0 := int(math.Floor(lo - o))
+		k1 := int(math.Ceil(hi - o))
+		for k := k0; k <= k1; k++ {
+			p := o + float64(k)
+			if p < lo || p > hi {
+				continue
+			}
+			if ((k%5)+5)%5 == 0 {
+				majorPos = append(majorPos, p*px)
+			} else {
+				minorPos = append(minorPos, p*px)
+			}
+		}
+		return
+	}
+	mxs, Mxs := lines(g.gridOX, g.gridX0, g.gridX1)
+	mys, Mys := lines(g.gridOY, g.gridY0, g.gridY1)
+	if st.Grid == GridDots {
+		rMinor := math.Max(st.MinorLineMM*px*0.8, 0.6)
+		rMajor := math.Max(st.MajorLineMM*px*0.8, rMinor+0.3)
+		all := func(a, b []float64) []float64 { return append(append([]float64{}, a...), b...) }
+		isMajor := func(v float64, M []float64) bool {
+			for _, m := range M {
+				if math.Abs(m-v) < 1e-6 {
+					return true
+				}
+			}
+			return false
+		}
+		for _, yc := range all(mys, Mys) {
+			my := isMajor(yc, Mys)
+			for _, xc := range all(mxs, Mxs) {
+				if my && isMajor(xc, Mxs) {
+					dot(img, xc, yc, rMajor, major)
+				} else {
+					dot(img, xc, yc, rMinor, minor)
+				}
+			}
+		}
+		return
+	}
+	cover := func(n, off int, pos []float64, wpx float64) []float32 {
+		c := make([]float32, n)
+		hw := math.Max(wpx, 0.3) / 2
+		for _, p := range pos {
+			a, b := p-hw, p+hw
+			for i := int(math.Floor(a)); i <= int(math.Floor(b)); i++ {
+				j := i - off
+				if j < 0 || j >= n {
+					continue
+				}
+				ov := math.Min(b, float64(i+1)) - math.Max(a, float64(i))
+				if ov > 0 {
+					c[j] = float32(math.Min(1, float64(c[j])+ov))
+				}
+			}
+		}
+		return c
+	}
+	w, h := x1-x0, y1-y0
+	if w <= 0 || h <= 0 {
+		return
+	}
+	cmx := cover(w, x0, mxs, st.MinorLineMM*px)
+	cMx := cover(w, x0, Mxs, st.MajorLineMM*px)
+	cmy := cover(h, y0, mys, st.MinorLineMM*px)
+	cMy := cover(h, y0, Mys, st.MajorLineMM*px)
+	for y := 0; y < h; y++ {
+		row := img.Pix[(y0+y)*img.Stride+x0*4:]
+		for x := 0; x < w; x++ {
+			mi := max(cmx[x], cmy[y])
+			ma := max(cMx[x], cMy[y])
+			if mi == 0 && ma == 0 {
+				continue
+			}
+			p := row[4*x : 4*x+4]
+			if mi > 0 {
+				blendPx(p, minor, uint32(mi*255+0.5))
+			}
+			if ma > 0 {
+				blendPx(p, major, uint32(ma*255+0.5))
+			}
+		}
+	}
+}
+
+// dot paints an anti-aliased disk.
+func dot(img *image.NRGBA, cx, cy, r float64, c color.NRGBA) {
+	b := img.Rect
+	for y := int(math.Floor(cy - r - 1)); y <= int(math.Ceil(cy+r+1)); y++ {
+		if y < b.Min.Y || y >= b.Max.Y {
+			continue
+		}
+		for x := int(math.Floor(cx - r - 1)); x <= int(math.Ceil(cx+r+1)); x++ {
+			if x < b.Min.X || x >= b.Max.X {
+				continue
+			}
+			d := math.Hypot(float64(x)+0.5-cx, float64(y)+0.5-cy)
+			a := math.Min(1, math.Max(0, r+0.5-d))
+			if a > 0 {
+				i := img.PixOffset(x, y)
+				blendPx(img.Pix[i:i+4], c, uint32(a*255+0.5))
+			}
+		}
+	}
+}

@@ -1,0 +1,275 @@
+package samples
+
+import (
+	"fmt"
+	"image/color"
+	"math/rand"
+)
+
+// Layout names the arrangement of leads on the page.
+type Layout string
+
+// Layouts.
+const (
+	Layout3x4R1 Layout = "3x4+1" // 3 rows × 4 columns + one rhythm strip (lead II)
+	Layout3x4R3 Layout = "3x4+3" // 3 rows × 4 columns + three rhythm strips (II, V1, V5)
+	Layout6x2   Layout = "6x2"   // limb leads left, precordial leads right
+	Layout12x1  Layout = "12x1"  // every lead across the page
+	Layout1x1   Layout = "1x1"   // one strip (RhythmLeads[0], default II)
+)
+
+// Layouts lists the supported layouts.
+var Layouts = []Layout{Layout3x4R1, Layout3x4R3, Layout6x2, Layout12x1, Layout1x1}
+
+// GridKind is how the millimetre grid is printed.
+type GridKind int
+
+// Grid kinds.
+const (
+	GridLines GridKind = iota // 1 mm and 5 mm lines
+	GridDots                  // dots at 1 mm, larger dots at 5 mm crossings
+	GridNone                  // plain paper
+)
+
+// Font choices for labels and header.
+const (
+	FontSans     = iota // Go regular (proportional)
+	FontMono            // Go mono
+	FontBold            // Go bold
+	FontDotMatrix       // a 7×13 bitmap font scaled up, blocky
+	numFonts
+)
+
+// Style says how a printout looks. DefaultStyle gives the commonest
+// look; zero numeric fields in a Style passed to Render take those
+// defaults too.
+type Style struct {
+	Layout      Layout
+	Cabrera     bool     // limb leads in Cabrera order (aVL, I, −aVR, II, aVF, III)
+	RhythmLeads []string // rhythm strips (3x4+1: [II]; 3x4+3: [II V1 V5]; 1x1: the strip's lead)
+
+	SpeedMMPerS float64 // paper speed, default 25
+	GainMMPerMV float64 // default 10
+	DPI         float64 // 100..600, default 300
+
+	PaperWMM, PaperHMM float64 // default 297 × 210 (A4 landscape)
+
+	Grid                     GridKind
+	GridColor                color.NRGBA // colour of the 5 mm lines; the 1 mm lines are a paler blend
+	MinorLineMM, MajorLineMM float64     // line widths of the 1 mm and 5 mm lines
+	GridOriginMM             [2]float64  // shift of the grid from the first panel's top-left 5 mm crossing
+	PaperColor               color.NRGBA
+
+	TraceWidthMM float64
+	TraceColor   color.NRGBA
+
+	MarginsMM [4]float64 // left, top, right, bottom
+	Pulses    bool       // 1 mV × 200 ms calibration pulse at the left of each row
+	Labels    bool       // lead names near each panel's start
+	LabelPt   float64    // label size in points, default 10
+	Font      int        // FontSans, FontMono, FontBold, FontDotMatrix
+	Header    string     // invented text line at the top
+	// Separators draws a short vertical tick where one column's lead
+	// gives way to the next, as many printers do.
+	Separators bool
+
+	StartS float64 // record time drawn at tracing time 0
+}
+
+// DefaultStyle is the commonest printout: A4 landscape, 3x4+1 with a
+// lead II rhythm strip, red grid, 25 mm/s, 10 mm/mV, 300 dpi.
+func DefaultStyle() Style {
+	return Style{
+		Layout:       Layout3x4R1,
+		RhythmLeads:  []string{"II"},
+		SpeedMMPerS:  25,
+		GainMMPerMV:  10,
+		DPI:          300,
+		PaperWMM:     297,
+		PaperHMM:     210,
+		Grid:         GridLines,
+		GridColor:    color.NRGBA{230, 90, 90, 255},
+		MinorLineMM:  0.08,
+		MajorLineMM:  0.2,
+		PaperColor:   color.NRGBA{255, 255, 255, 255},
+		TraceWidthMM: 0.3,
+		TraceColor:   color.NRGBA{10, 10, 10, 255},
+		MarginsMM:    [4]float64{10, 12, 10, 10},
+		Pulses:       true,
+		Labels:       true,
+		LabelPt:      10,
+		Font:         FontSans,
+		Header:       "Synthetic tracing · not a patient",
+		Separators:   true,
+	}
+}
+
+// withDefaults fills zero fields from DefaultStyle and checks ranges.
+func (st Style) withDefaults() (Style, error) {
+	d := DefaultStyle()
+	if st.Layout == "" {
+		st.Layout = d.Layout
+	}
+	ok := false
+	for _, l := range Layouts {
+		if st.Layout == l {
+			ok = true
+		}
+	}
+	if !ok {
+		return st, fmt.Errorf("samples: unknown layout %q (want one of 3x4+1, 3x4+3, 6x2, 12x1, 1x1)", st.Layout)
+	}
+	def := func(v *float64, dv float64) {
+		if *v == 0 {
+			*v = dv
+		}
+	}
+	def(&st.SpeedMMPerS, d.SpeedMMPerS)
+	def(&st.GainMMPerMV, d.GainMMPerMV)
+	def(&st.DPI, d.DPI)
+	def(&st.PaperWMM, d.PaperWMM)
+	def(&st.PaperHMM, d.PaperHMM)
+	def(&st.MinorLineMM, d.MinorLineMM)
+	def(&st.MajorLineMM, d.MajorLineMM)
+	def(&st.TraceWidthMM, d.TraceWidthMM)
+	def(&st.LabelPt, d.LabelPt)
+	if st.PaperColor.A == 0 {
+		st.PaperColor = d.PaperColor
+	}
+	if st.TraceColor.A == 0 {
+		st.TraceColor = d.TraceColor
+	}
+	if st.GridColor.A == 0 {
+		st.GridColor = d.GridColor
+	}
+	bad := func(v, lo, hi float64) bool { return !(v >= lo && v <= hi) }
+	switch {
+	case bad(st.SpeedMMPerS, 5, 200):
+		return st, fmt.Errorf("samples: paper speed %v mm/s out of range 5..200", st.SpeedMMPerS)
+	case bad(st.GainMMPerMV, 1, 100):
+		return st, fmt.Errorf("samples: gain %v mm/mV out of range 1..100", st.GainMMPerMV)
+	case bad(st.DPI, 50, 1200):
+		return st, fmt.Errorf("samples: %v dpi out of range 50..1200", st.DPI)
+	case bad(st.PaperWMM, 50, 1000) || bad(st.PaperHMM, 30, 1000):
+		return st, fmt.Errorf("samples: paper %v × %v mm out of range", st.PaperWMM, st.PaperHMM)
+	case bad(st.TraceWidthMM, 0.01, 3) || bad(st.MinorLineMM, 0, 2) || bad(st.MajorLineMM, 0, 3):
+		return st, fmt.Errorf("samples: line widths out of range")
+	case bad(st.StartS, 0, 1e6):
+		return st, fmt.Errorf("samples: start time %v s out of range", st.StartS)
+	case bad(st.LabelPt, 2, 72):
+		return st, fmt.Errorf("samples: label size %v pt out of range", st.LabelPt)
+	}
+	for _, m := range st.MarginsMM {
+		if bad(m, 0, 100) {
+			return st, fmt.Errorf("samples: margin %v mm out of range", m)
+		}
+	}
+	if px := st.PaperWMM / 25.4 * st.DPI * st.PaperHMM / 25.4 * st.DPI; px > 60e6 {
+		return st, fmt.Errorf("samples: page of %.0f Mpx is too large (at most 60)", px/1e6)
+	}
+	if len(st.RhythmLeads) == 0 {
+		switch st.Layout {
+		case Layout3x4R3:
+			st.RhythmLeads = []string{"II", "V1", "V5"}
+		default:
+			st.RhythmLeads = []string{"II"}
+		}
+	}
+	if st.Font < 0 || st.Font >= numFonts {
+		st.Font = FontSans
+	}
+	return st, nil
+}
+
+// Grid colours seen on real paper.
+var gridColors = []color.NRGBA{
+	{230, 90, 90, 255},   // red
+	{245, 150, 160, 255}, // pink
+	{240, 150, 60, 255},  // orange
+	{90, 170, 100, 255},  // green
+	{100, 140, 220, 255}, // blue
+	{150, 150, 150, 255}, // grey
+	{200, 60, 60, 255},   // dark red
+}
+
+var traceColors = []color.NRGBA{
+	{10, 10, 10, 255}, {40, 40, 40, 255}, {20, 20, 70, 255}, {0, 0, 0, 255}, {60, 30, 20, 255},
+}
+
+// Invented header lines: no real place, person or product.
+var headers = []string{
+	"Hillcrest Rural Health Post · demo tracing · not a patient",
+	"Lakeview Community Clinic (fictional) · synthetic ECG",
+	"Station 4 · training strip · invented signal",
+	"Riverbend Outreach Van · test print · no patient data",
+	"Northfield Teaching Ward · simulated 12-lead",
+	"Unit B · rest ECG · synthetic · ID 0000",
+	"",
+}
+
+// RandomStyle draws a widely varied style: layouts, paper, colours, grid
+// kinds, line and trace widths, margins, grid offsets, fonts and sizes,
+// header text, speed, gain and resolution (150–600 dpi).
+func RandomStyle(rng *rand.Rand) Style {
+	st := DefaultStyle()
+	pick := func(n int) int { return rng.Intn(n) }
+	u := func(lo, hi float64) float64 { return lo + (hi-lo)*rng.Float64() }
+	// Layout weights: the 3x4+1 is the commonest.
+	switch r := rng.Float64(); {
+	case r < 0.45:
+		st.Layout = Layout3x4R1
+	case r < 0.6:
+		st.Layout = Layout3x4R3
+	case r < 0.78:
+		st.Layout = Layout6x2
+	case r < 0.9:
+		st.Layout = Layout12x1
+	default:
+		st.Layout = Layout1x1
+	}
+	st.RhythmLeads = nil
+	if st.Layout == Layout3x4R1 && rng.Float64() < 0.2 {
+		st.RhythmLeads = []string{[]string{"V1", "V5", "I"}[pick(3)]}
+	}
+	if st.Layout == Layout1x1 {
+		st.RhythmLeads = []string{[]string{"II", "V1", "V5", "I"}[pick(4)]}
+	}
+	st.Cabrera = rng.Float64() < 0.15
+	if rng.Float64() < 0.85 {
+		st.SpeedMMPerS = 25
+	} else {
+		st.SpeedMMPerS = 50
+	}
+	st.GainMMPerMV = []float64{10, 10, 10, 5, 20}[pick(5)]
+	st.DPI = []float64{150, 200, 200, 300, 300, 300, 400, 600}[pick(8)]
+	switch pick(4) {
+	case 0:
+		st.PaperWMM, st.PaperHMM = 279.4, 215.9 // US Letter landscape
+	case 1:
+		if st.Layout == Layout12x1 {
+			st.PaperWMM, st.PaperHMM = 210, 297 // A4 portrait
+		}
+	}
+	st.Grid = []GridKind{GridLines, GridLines, GridLines, GridDots, GridNone}[pick(5)]
+	st.GridColor = gridColors[pick(len(gridColors))]
+	st.MinorLineMM = u(0.03, 0.15)
+	st.MajorLineMM = st.MinorLineMM + u(0.05, 0.25)
+	st.GridOriginMM = [2]float64{u(-2.5, 2.5), u(-2.5, 2.5)}
+	if rng.Float64() < 0.5 {
+		st.GridOriginMM = [2]float64{}
+	}
+	if rng.Float64() < 0.2 {
+		st.PaperColor = color.NRGBA{uint8(245 + pick(11)), uint8(240 + pick(16)), uint8(225 + pick(31)), 255}
+	}
+	st.TraceWidthMM = u(0.15, 0.6)
+	st.TraceColor = traceColors[pick(len(traceColors))]
+	st.MarginsMM = [4]float64{u(4, 18), u(5, 20), u(4, 18), u(4, 15)}
+	st.Pulses = rng.Float64() < 0.9
+	st.Labels = rng.Float64() < 0.95
+	st.LabelPt = u(7, 14)
+	st.Font = pick(numFonts)
+	st.Header = headers[pick(len(headers))]
+	st.Separators = rng.Float64() < 0.6
+	st.StartS = 0
+	return st
+}
