@@ -33,10 +33,10 @@ const (
 
 // Font choices for labels and header.
 const (
-	FontSans     = iota // Go regular (proportional)
-	FontMono            // Go mono
-	FontBold            // Go bold
-	FontDotMatrix       // a 7×13 bitmap font scaled up, blocky
+	FontSans      = iota // Go regular (proportional)
+	FontMono             // Go mono
+	FontBold             // Go bold
+	FontDotMatrix        // a 7×13 bitmap font scaled up, blocky
 	numFonts
 )
 
