@@ -1,0 +1,576 @@
+package batch
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync/atomic"
+	"testing"
+	"time"
+)
+
+// writeTree makes files below dir; content "" gets a default body.
+func writeTree(t *testing.T, dir string, files map[string]string) {
+	t.Helper()
+	for rel, body := range files {
+		p := filepath.Join(dir, filepath.FromSlash(rel))
+		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+			t.Fatal(err)
+		}
+		if body == "" {
+			body = "hr=60\n"
+		}
+		if err := os.WriteFile(p, []byte(body), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// fake is a ProcessFunc that reads "hr=N" from the file and writes a CSV
+// and a JSON document in the shape of the pipeline's; "fail" makes it fail,
+// "panic" panics, "hang" blocks ignoring ctx, "slow" blocks until ctx ends,
+// "partial" writes the CSV and fails.
+type fake struct{ calls atomic.Int64 }
+
+func (f *fake) process(ctx context.Context, in, dir, stem string) (FileResult, error) {
+	f.calls.Add(1)
+	b, err := os.ReadFile(in)
+	if err != nil {
+		return FileResult{}, err
+	}
+	body := string(b)
+	switch {
+	case strings.HasPrefix(body, "fail"):
+		return FileResult{}, fmt.Errorf("calib: %s: no ECG grid found; scan the page again", in)
+	case strings.HasPrefix(body, "panic"):
+		panic("fake trouble")
+	case strings.HasPrefix(body, "hang"):
+		time.Sleep(3 * time.Second)
+		return FileResult{}, nil
+	case strings.HasPrefix(body, "slow"):
+		<-ctx.Done()
+		return FileResult{}, ctx.Err()
+	}
+	if err := os.WriteFile(filepath.Join(dir, stem+".csv"), []byte("time_s,I\n0,0\n"), 0o644); err != nil {
+		return FileResult{}, err
+	}
+	if strings.HasPrefix(body, "partial") {
+		return FileResult{}, errors.New("export pdf: disk full")
+	}
+	hr := 0.0
+	fmt.Sscanf(body, "hr=%g", &hr)
+	sum := sha256.Sum256(b)
+	doc := map[string]any{
+		"image_sha256":   hex.EncodeToString(sum[:]),
+		"heart_rate_bpm": hr,
+		"intervals_ms":   map[string]any{"pr": 160, "qrs": 90, "qt": 400, "qtc_bazett": 400 / math.Sqrt(60/hr)},
+		"axis":           map[string]any{"qrs_deg": 45},
+		"transition":     "V3",
+		"quality":        map[string]any{"I": map[string]any{"confidence": 0.9}, "II": map[string]any{"confidence": 0.7}, "III": map[string]any{"confidence": 0.8}},
+		"calibration":    map[string]any{"confidence": 0.95},
+	}
+	jb, _ := json.Marshal(doc)
+	if err := os.WriteFile(filepath.Join(dir, stem+".json"), jb, 0o644); err != nil {
+		return FileResult{}, err
+	}
+	sha, fd, err := ParseDocument(jb)
+	return FileResult{SHA256: sha, Findings: fd, TimingsMS: map[string]float64{"calib": 1}}, err
+}
+
+func readLog(t *testing.T, p string) []Result {
+	t.Helper()
+	f, err := os.Open(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	var out []Result
+	sc := bufio.NewScanner(f)
+	for sc.Scan() {
+		var r Result
+		if err := json.Unmarshal(sc.Bytes(), &r); err != nil {
+			t.Fatalf("log line %q is not JSON: %v", sc.Text(), err)
+		}
+		out = append(out, r)
+	}
+	return out
+}
+
+func readSummaryFile(t *testing.T, p string) []Row {
+	t.Helper()
+	f, err := os.Open(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := ReadSummary(f)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return rows
+}
+
+func TestCollectWalk(t *testing.T) {
+	t.Parallel()
+	src := t.TempDir()
+	writeTree(t, src, map[string]string{
+		"a.png": "", "a.JPG": "", "b/c.tiff": "", "b/d/e.pdf": "", "notes.txt": "",
+		".hidden/x.png": "", "b/.y.png": "", "out/old.png": "",
+	})
+	other := t.TempDir()
+	writeTree(t, other, map[string]string{"z.png": ""})
+	if err := os.Symlink(other, filepath.Join(src, "linkdir")); err != nil {
+		t.Fatal(err)
+	}
+	ins, err := Collect(src, CollectOptions{Skip: filepath.Join(src, "out")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, in := range ins {
+		got = append(got, in.Rel+"→"+in.Stem)
+		if in.Err != "" {
+			t.Errorf("%s: unexpected refusal %s", in.Rel, in.Err)
+		}
+	}
+	// a.JPG and a.png share a stem, so both carry their extension.
+	want := []string{"a.JPG→a_jpg", "a.png→a_png", "b/c.tiff→c", "b/d/e.pdf→e"}
+	if strings.Join(got, " ") != strings.Join(want, " ") {
+		t.Errorf("walk found %v, want %v", got, want)
+	}
+}
+
+func TestCollectList(t *testing.T) {
+	t.Parallel()
+	base := t.TempDir()
+	writeTree(t, base, map[string]string{"p/1.png": "", "p/2.png": ""})
+	list := filepath.Join(base, "list.txt")
+	body := strings.Join([]string{
+		"# pages of the archive", "", "p/1.png", filepath.Join(base, "p", "2.png"), "p/1.png",
+		"../escape.png", "p/../../x.png", "/etc/passwd", "missing.png",
+	}, "\n")
+	if err := os.WriteFile(list, []byte(body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	ins, err := Collect(list, CollectOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	refused := map[string]string{}
+	var ok []string
+	for _, in := range ins {
+		if in.Err != "" {
+			refused[in.Rel] = in.Err
+		} else {
+			ok = append(ok, in.Rel)
+		}
+	}
+	if strings.Join(ok, ",") != "missing.png,p/1.png,p/2.png" {
+		t.Errorf("accepted %v", ok)
+	}
+	for _, r := range []string{"../escape.png", "p/../../x.png", "/etc/passwd"} {
+		msg, ok := refused[r]
+		if !ok {
+			t.Errorf("%s was not refused", r)
+			continue
+		}
+		if !strings.HasPrefix(msg, "batch: ") || !strings.Contains(msg, r) || !strings.Contains(msg, "line ") {
+			t.Errorf("refusal of %s does not name it, its line and the package: %q", r, msg)
+		}
+	}
+	if _, err := Collect(filepath.Join(base, "nope"), CollectOptions{}); err == nil {
+		t.Error("a missing input gave no error")
+	}
+}
+
+func TestShard(t *testing.T) {
+	t.Parallel()
+	// FNV-1a 64-bit test vectors: offset basis for "" and the value for
+	// "a" (the FNV reference test suite, draft-eastlake-fnv; from memory).
+	// Checking them pins the hash so shards can be computed elsewhere.
+	if got := ShardOf("", 1<<62); uint64(got-1) != 0xcbf29ce484222325%(1<<62) {
+		t.Errorf("FNV-1a of \"\" mod 2^62 = %#x", got-1)
+	}
+	if got := ShardOf("a", 1<<62); uint64(got-1) != 0xaf63dc4c8601ec8c%(1<<62) {
+		t.Errorf("FNV-1a of \"a\" mod 2^62 = %#x", got-1)
+	}
+	var ins []Input
+	for i := 0; i < 3000; i++ {
+		ins = append(ins, Input{Rel: fmt.Sprintf("box%02d/page%04d.png", i%17, i)})
+	}
+	const n = 3
+	seen := map[string]int{}
+	for k := 1; k <= n; k++ {
+		part := Shard(ins, k, n)
+		// Each shard gets a fair part: 1000 expected, binomial sd ≈ 26.
+		if len(part) < 850 || len(part) > 1150 {
+			t.Errorf("shard %d/%d holds %d of 3000", k, n, len(part))
+		}
+		for _, in := range part {
+			seen[in.Rel]++
+		}
+	}
+	for _, in := range ins {
+		if seen[in.Rel] != 1 {
+			t.Fatalf("%s is in %d shards", in.Rel, seen[in.Rel])
+		}
+	}
+	for _, bad := range []string{"", "3", "0/3", "4/3", "a/b", "1/0", "-1/2"} {
+		if _, _, err := ParseShard(bad); err == nil {
+			t.Errorf("ParseShard(%q) accepted", bad)
+		}
+	}
+	if k, n, err := ParseShard(" 2 / 8 "); err != nil || k != 2 || n != 8 {
+		t.Errorf("ParseShard(2/8) = %d, %d, %v", k, n, err)
+	}
+}
+
+func TestRun(t *testing.T) {
+	t.Parallel()
+	src, out := t.TempDir(), t.TempDir()
+	writeTree(t, src, map[string]string{
+		"w1/a.png": "hr=60", "w1/b.png": "hr=75", "w2/c.png": "fail", "w2/d.png": "panic",
+		"e.png": "partial", "f, \"odd\".png": "hr=90",
+	})
+	ins, err := Collect(src, CollectOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var fk fake
+	calls := 0
+	rep, err := Run(context.Background(), ins, fk.process, Options{Out: out, Jobs: 3, Expect: []string{"csv"},
+		OnResult: func(done, total int, r Result) {
+			calls++
+			if done != calls || total != len(ins) {
+				t.Errorf("progress %d/%d after %d calls", done, total, calls)
+			}
+		}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.OK != 3 || rep.Failed != 3 || rep.Skipped != 0 {
+		t.Fatalf("ok %d failed %d skipped %d", rep.OK, rep.Failed, rep.Skipped)
+	}
+	// Characters other systems reject in names are replaced by "_".
+	for _, p := range []string{"w1/a.csv", "w1/a.json", "w1/b.json", `f, _odd_.csv`} {
+		if _, err := os.Stat(filepath.Join(out, p)); err != nil {
+			t.Errorf("output %s missing: %v", p, err)
+		}
+	}
+	// The failed files left nothing behind, not even the partial CSV.
+	for _, p := range []string{"w2/c.csv", "w2/d.csv", "e.csv", "e.json"} {
+		if _, err := os.Stat(filepath.Join(out, p)); err == nil {
+			t.Errorf("failed file left %s", p)
+		}
+	}
+	ents, _ := os.ReadDir(out)
+	for _, e := range ents {
+		if strings.HasPrefix(e.Name(), ".tracelift-work") {
+			t.Errorf("scratch folder %s left behind", e.Name())
+		}
+	}
+	logged := readLog(t, rep.LogPath)
+	if len(logged) != len(ins) {
+		t.Fatalf("log has %d lines for %d files", len(logged), len(ins))
+	}
+	byFile := map[string]Result{}
+	for _, r := range logged {
+		byFile[r.File] = r
+	}
+	if r := byFile["w2/d.png"]; r.Status != StatusFailed || !strings.Contains(r.Error, "internal error") || !strings.Contains(r.Error, "d.png") {
+		t.Errorf("panicking page logged as %+v", r)
+	}
+	if r := byFile["w2/c.png"]; !strings.Contains(r.Error, "no ECG grid") {
+		t.Errorf("failing page logged as %+v", r)
+	}
+	if r := byFile["w1/b.png"]; r.Status != StatusOK || r.Findings == nil || r.Findings.HeartRateBPM != 75 || len(r.Outputs) != 2 {
+		t.Errorf("good page logged as %+v %+v", r, r.Findings)
+	}
+	rows := readSummaryFile(t, rep.SummaryPath)
+	if len(rows) != len(ins) {
+		t.Fatalf("summary has %d rows", len(rows))
+	}
+	for _, r := range rows {
+		if r.File == "w1/b.png" {
+			f := r.Findings
+			// Bazett: QTc = QT/√RR (Bazett 1920); RR = 0.8 s at 75/min,
+			// 400/√0.8 = 447.214 ms.
+			if f.HeartRateBPM != 75 || f.PRMS != 160 || math.Abs(f.QTcBazettMS-447.214) > 0.001 ||
+				f.QRSAxisDeg != 45 || f.Transition != "V3" || f.MedianLeadConfidence != 0.8 {
+				t.Errorf("summary row %+v", r)
+			}
+		}
+		if r.File == `f, "odd".png` && r.Status != StatusOK {
+			t.Errorf("a name with a comma and quotes did not survive the CSV: %+v", r)
+		}
+	}
+	if len(rep.Failures()) != 3 {
+		t.Errorf("Failures lists %d", len(rep.Failures()))
+	}
+}
+
+func TestResume(t *testing.T) {
+	t.Parallel()
+	src, out := t.TempDir(), t.TempDir()
+	writeTree(t, src, map[string]string{"a.png": "hr=60", "b.png": "hr=70", "c.png": "hr=80", "d.png": "hr=90", "e.png": "fail"})
+	ins, err := Collect(src, CollectOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := Options{Out: out, Jobs: 2, Expect: []string{"csv"}}
+	var fk fake
+	if _, err := Run(context.Background(), ins, fk.process, opt); err != nil {
+		t.Fatal(err)
+	}
+	// Change a's image, remove b's CSV, spoil c's JSON; d stays as it was.
+	writeTree(t, src, map[string]string{"a.png": "hr=65"})
+	os.Remove(filepath.Join(out, "b.csv"))
+	os.WriteFile(filepath.Join(out, "c.json"), []byte(`{"image_sha256": `), 0o644)
+	fk.calls.Store(0)
+	rep, err := Run(context.Background(), ins, fk.process, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	status := map[string]Status{}
+	for _, r := range rep.Results {
+		status[r.File] = r.Status
+	}
+	want := map[string]Status{"a.png": StatusOK, "b.png": StatusOK, "c.png": StatusOK, "d.png": StatusSkipped, "e.png": StatusFailed}
+	for f, s := range want {
+		if status[f] != s {
+			t.Errorf("%s: %s, want %s", f, status[f], s)
+		}
+	}
+	if fk.calls.Load() != 4 {
+		t.Errorf("%d pages digitized again, want 4 (all but d)", fk.calls.Load())
+	}
+	// The skipped file's findings come from its JSON document.
+	for _, r := range readSummaryFile(t, rep.SummaryPath) {
+		if r.File == "d.png" && r.Findings.HeartRateBPM != 90 {
+			t.Errorf("skipped row %+v", r)
+		}
+	}
+	// The log grows: two runs, five lines each.
+	if n := len(readLog(t, rep.LogPath)); n != 10 {
+		t.Errorf("log has %d lines after two runs", n)
+	}
+	// NoResume digitizes everything.
+	fk.calls.Store(0)
+	opt.NoResume = true
+	if _, err := Run(context.Background(), ins, fk.process, opt); err != nil {
+		t.Fatal(err)
+	}
+	if fk.calls.Load() != 5 {
+		t.Errorf("NoResume digitized %d of 5", fk.calls.Load())
+	}
+}
+
+func TestPageTimeout(t *testing.T) {
+	t.Parallel()
+	src, out := t.TempDir(), t.TempDir()
+	writeTree(t, src, map[string]string{"hang.png": "hang", "slow.png": "slow", "ok.png": "hr=60"})
+	ins, _ := Collect(src, CollectOptions{})
+	var fk fake
+	t0 := time.Now()
+	rep, err := Run(context.Background(), ins, fk.process, Options{Out: out, Jobs: 1,
+		PageTimeout: 200 * time.Millisecond, Grace: 200 * time.Millisecond})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// One worker, so the pages ran one after another: the hung page must
+	// have been given up at timeout + grace, well before its 3 s sleep.
+	if d := time.Since(t0); d > 2500*time.Millisecond {
+		t.Errorf("batch took %v; the hung page was not abandoned", d)
+	}
+	for _, r := range rep.Results {
+		switch r.File {
+		case "hang.png":
+			if r.Status != StatusFailed || !strings.Contains(r.Error, "abandoned") || !strings.Contains(r.Error, "--page-timeout") {
+				t.Errorf("hung page: %+v", r)
+			}
+		case "slow.png":
+			if r.Status != StatusFailed || !strings.Contains(r.Error, "longer than") || strings.Contains(r.Error, "abandoned") {
+				t.Errorf("slow page: %+v", r)
+			}
+		case "ok.png":
+			if r.Status != StatusOK {
+				t.Errorf("the page after a timeout: %+v", r)
+			}
+		}
+	}
+}
+
+func TestInterrupt(t *testing.T) {
+	t.Parallel()
+	src, out := t.TempDir(), t.TempDir()
+	files := map[string]string{}
+	for i := 0; i < 20; i++ {
+		files[fmt.Sprintf("%02d.png", i)] = "slow"
+	}
+	writeTree(t, src, files)
+	ins, _ := Collect(src, CollectOptions{})
+	ctx, cancel := context.WithCancel(context.Background())
+	time.AfterFunc(100*time.Millisecond, cancel)
+	var fk fake
+	rep, err := Run(ctx, ins, fk.process, Options{Out: out, Jobs: 2})
+	if !errors.Is(err, context.Canceled) || rep == nil || !rep.Interrupted {
+		t.Fatalf("Run after cancel: %v, %+v", err, rep)
+	}
+	if len(rep.Results) >= len(ins) || len(readSummaryFile(t, rep.SummaryPath)) != len(rep.Results) {
+		t.Errorf("%d results, summary should hold the handled files only", len(rep.Results))
+	}
+}
+
+func TestOutputsStayInside(t *testing.T) {
+	t.Parallel()
+	src, out, outside := t.TempDir(), t.TempDir(), t.TempDir()
+	writeTree(t, src, map[string]string{"sub/a.png": "hr=60", "b.png": "hr=60", "c.png": "hr=60"})
+	// A link planted in OUT where a folder of outputs goes, and one where
+	// an output file goes.
+	if err := os.Symlink(outside, filepath.Join(out, "sub")); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Symlink(filepath.Join(outside, "stolen.json"), filepath.Join(out, "b.json")); err != nil {
+		t.Fatal(err)
+	}
+	ins, _ := Collect(src, CollectOptions{})
+	// A list entry smuggled past Collect still cannot climb out.
+	ins = append(ins, Input{Path: filepath.Join(src, "c.png"), Rel: "../../c.png", Stem: "c"})
+	var fk fake
+	rep, err := Run(context.Background(), ins, fk.process, Options{Out: out, Jobs: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]Result{}
+	for _, r := range rep.Results {
+		got[r.File] = r
+	}
+	if r := got["sub/a.png"]; r.Status != StatusFailed || !strings.Contains(r.Error, "symbolic link") {
+		t.Errorf("output through a linked folder: %+v", r)
+	}
+	if r := got["b.png"]; r.Status != StatusFailed || !strings.Contains(r.Error, "symbolic link") {
+		t.Errorf("output over a linked file: %+v", r)
+	}
+	if r := got["../../c.png"]; r.Status != StatusFailed || !strings.Contains(r.Error, "out of the output folder") {
+		t.Errorf("output with ..: %+v", r)
+	}
+	if r := got["c.png"]; r.Status != StatusOK {
+		t.Errorf("plain file: %+v", r)
+	}
+	ents, _ := os.ReadDir(outside)
+	if len(ents) != 0 {
+		t.Errorf("something was written outside OUT: %v", ents)
+	}
+	if _, err := os.Stat(filepath.Join(filepath.Dir(filepath.Dir(out)), "c.csv")); err == nil {
+		t.Error("c.csv escaped two levels up")
+	}
+}
+
+func TestSummaryCSV(t *testing.T) {
+	t.Parallel()
+	f := NoFindings()
+	f.HeartRateBPM, f.Transition = 72.123456, "V3/V4"
+	rows := []Row{
+		{File: "z.png", Status: StatusOK, Findings: f, Seconds: 2.5},
+		{File: "a,b.png", Status: StatusFailed, Error: "calib: \"x\" failed\nsecond line", Findings: NoFindings(), Seconds: 0.1},
+	}
+	var buf bytes.Buffer
+	if err := WriteSummary(&buf, rows); err != nil {
+		t.Fatal(err)
+	}
+	// RFC 4180 §2: fields with commas, quotes or line breaks are quoted and
+	// inner quotes doubled.
+	want := "file,status,error,heart_rate_bpm,pr_ms,qrs_ms,qt_ms,qtc_bazett_ms,qrs_axis_deg,transition,median_lead_confidence,seconds\n" +
+		"\"a,b.png\",failed,\"calib: \"\"x\"\" failed\nsecond line\",,,,,,,,,0.1\n" +
+		"z.png,ok,,72.123,,,,,,V3/V4,,2.5\n"
+	if buf.String() != want {
+		t.Errorf("summary:\n%s\nwant:\n%s", buf.String(), want)
+	}
+	back, err := ReadSummary(&buf)
+	if err != nil || len(back) != 2 || back[0].Error != rows[1].Error || back[1].Findings.HeartRateBPM != 72.123 {
+		t.Errorf("read back %+v, %v", back, err)
+	}
+}
+
+func TestMerge(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	write := func(name string, rows ...Row) string {
+		p := filepath.Join(dir, name)
+		if err := WriteSummaryFile(p, rows); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	ok := func(f string) Row { return Row{File: f, Status: StatusOK, Findings: NoFindings()} }
+	bad := func(f string) Row { return Row{File: f, Status: StatusFailed, Error: "x", Findings: NoFindings()} }
+	write("summary-1-of-4.csv", ok("a"), bad("b"))
+	write("summary-2-of-4.csv", ok("c"), ok("b"))
+	write("summary-4-of-4.csv", bad("d"))
+	paths, err := FindSummaries([]string{dir})
+	if err != nil || len(paths) != 3 {
+		t.Fatalf("FindSummaries: %v, %v", paths, err)
+	}
+	rep, err := Merge(paths, []string{"a", "b", "c", "d", "e"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var files []string
+	for _, r := range rep.Rows {
+		files = append(files, r.File+":"+string(r.Status))
+	}
+	if strings.Join(files, " ") != "a:ok b:ok c:ok d:failed" {
+		t.Errorf("merged %v", files)
+	}
+	if strings.Join(rep.Duplicates, ",") != "b" || strings.Join(rep.MissingShards, ",") != "3/4" ||
+		strings.Join(rep.MissingFiles, ",") != "e" || len(rep.Failed) != 1 {
+		t.Errorf("report %+v", rep)
+	}
+	if _, err := FindSummaries([]string{t.TempDir()}); err == nil {
+		t.Error("an empty folder gave no error")
+	}
+	if _, err := FindSummaries([]string{filepath.Join(dir, "nothing-*.csv")}); err == nil {
+		t.Error("a pattern matching nothing gave no error")
+	}
+}
+
+func TestParseDocument(t *testing.T) {
+	t.Parallel()
+	if _, _, err := ParseDocument([]byte("not json")); err == nil || !strings.HasPrefix(err.Error(), "batch: ") {
+		t.Errorf("bad JSON: %v", err)
+	}
+	if _, _, err := ParseDocument([]byte(`{"heart_rate_bpm": 60}`)); err == nil {
+		t.Error("a document without image_sha256 was accepted")
+	}
+	// Go's default field names (Confidence) and a transition given as an
+	// object are read too; a null rate stays unmeasured.
+	sha, f, err := ParseDocument([]byte(`{"image_sha256":"ab","heart_rate_bpm":null,
+		"quality":{"V1":{"Confidence":0.5},"V2":{"Confidence":0.7}},"transition":{"lead":"V4","early":false}}`))
+	if err != nil || sha != "ab" || !math.IsNaN(f.HeartRateBPM) || f.MedianLeadConfidence != 0.6 || f.Transition != "V4" {
+		t.Errorf("got %q %+v %v", sha, f, err)
+	}
+	b, err := json.Marshal(f)
+	if err != nil || !strings.Contains(string(b), `"heart_rate_bpm":null`) {
+		t.Errorf("NaN marshals as %s, %v", b, err)
+	}
+}
+
+func TestHashMatchesSha256sum(t *testing.T) {
+	t.Parallel()
+	p := filepath.Join(t.TempDir(), "abc")
+	os.WriteFile(p, []byte("abc"), 0o644)
+	got, err := hashFile(p)
+	// SHA-256("abc") from FIPS 180-2, Appendix B.1.
+	if err != nil || got != "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad" {
+		t.Errorf("hash %s, %v", got, err)
+	}
+}

@@ -1,0 +1,217 @@
+package batch
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Findings is the part of a page's JSON document that the summary and the
+// log carry. Unmeasured numbers are NaN.
+type Findings struct {
+	HeartRateBPM float64
+	PRMS         float64
+	QRSMS        float64
+	QTMS         float64
+	QTcBazettMS  float64
+	QRSAxisDeg   float64
+	Transition   string
+	// MedianLeadConfidence is the median of the per-lead tracing
+	// confidences (0..1); NaN when no lead was traced.
+	MedianLeadConfidence float64
+	LeadConfidence       map[string]float64
+	CalibConfidence      float64
+	MeasureError         string
+}
+
+// NoFindings returns Findings with every number unmeasured.
+func NoFindings() Findings {
+	n := math.NaN()
+	return Findings{HeartRateBPM: n, PRMS: n, QRSMS: n, QTMS: n, QTcBazettMS: n, QRSAxisDeg: n,
+		MedianLeadConfidence: n, CalibConfidence: n}
+}
+
+// MarshalJSON writes NaN as null.
+func (f Findings) MarshalJSON() ([]byte, error) {
+	num := func(v float64) any {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil
+		}
+		return v
+	}
+	m := map[string]any{
+		"heart_rate_bpm": num(f.HeartRateBPM),
+		"intervals_ms": map[string]any{
+			"pr": num(f.PRMS), "qrs": num(f.QRSMS), "qt": num(f.QTMS), "qtc_bazett": num(f.QTcBazettMS),
+		},
+		"qrs_axis_deg": num(f.QRSAxisDeg),
+		"transition":   f.Transition,
+		"quality": map[string]any{
+			"median_lead_confidence": num(f.MedianLeadConfidence),
+			"calibration_confidence": num(f.CalibConfidence),
+			"leads":                  f.LeadConfidence,
+		},
+	}
+	if f.MeasureError != "" {
+		m["measure_error"] = f.MeasureError
+	}
+	return json.Marshal(m)
+}
+
+// UnmarshalJSON reads what MarshalJSON writes (a log line's findings).
+func (f *Findings) UnmarshalJSON(b []byte) error {
+	var m struct {
+		HR        *float64            `json:"heart_rate_bpm"`
+		Intervals map[string]*float64 `json:"intervals_ms"`
+		Axis      *float64            `json:"qrs_axis_deg"`
+		Trans     string              `json:"transition"`
+		Quality   struct {
+			Median *float64           `json:"median_lead_confidence"`
+			Calib  *float64           `json:"calibration_confidence"`
+			Leads  map[string]float64 `json:"leads"`
+		} `json:"quality"`
+		MeasureError string `json:"measure_error"`
+	}
+	if err := json.Unmarshal(b, &m); err != nil {
+		return err
+	}
+	*f = Findings{
+		HeartRateBPM: orNaN(m.HR), PRMS: orNaN(m.Intervals["pr"]), QRSMS: orNaN(m.Intervals["qrs"]),
+		QTMS: orNaN(m.Intervals["qt"]), QTcBazettMS: orNaN(m.Intervals["qtc_bazett"]), QRSAxisDeg: orNaN(m.Axis),
+		Transition: m.Trans, MedianLeadConfidence: orNaN(m.Quality.Median), LeadConfidence: m.Quality.Leads,
+		CalibConfidence: orNaN(m.Quality.Calib), MeasureError: m.MeasureError,
+	}
+	return nil
+}
+
+func orNaN(p *float64) float64 {
+	if p == nil {
+		return math.NaN()
+	}
+	return *p
+}
+
+// ParseDocument reads a page's JSON document (the command-line contract in
+// DEVELOPERS.md: image_sha256; heart_rate_bpm; intervals_ms {pr, qrs, qt,
+// qtc_bazett}; axis {qrs_deg}; transition; quality {lead: {confidence}};
+// calibration {confidence}) and returns the image hash and the findings.
+// Missing or null fields are NaN; a document that is not JSON, or has no
+// image_sha256, is an error.
+func ParseDocument(b []byte) (sha string, f Findings, err error) {
+	f = NoFindings()
+	var d struct {
+		SHA          string                                `json:"image_sha256"`
+		HeartRate    *float64                              `json:"heart_rate_bpm"`
+		Intervals    map[string]*float64                   `json:"intervals_ms"`
+		Axis         map[string]json.RawMessage            `json:"axis"`
+		Transition   json.RawMessage                       `json:"transition"`
+		Quality      map[string]map[string]json.RawMessage `json:"quality"`
+		Calibration  map[string]json.RawMessage            `json:"calibration"`
+		MeasureError string                                `json:"measure_error"`
+	}
+	if err := json.Unmarshal(b, &d); err != nil {
+		return "", f, fmt.Errorf("batch: the JSON document does not parse: %w", err)
+	}
+	if d.SHA == "" {
+		return "", f, fmt.Errorf("batch: the JSON document has no image_sha256")
+	}
+	f.HeartRateBPM = orNaN(d.HeartRate)
+	f.PRMS = orNaN(d.Intervals["pr"])
+	f.QRSMS = orNaN(d.Intervals["qrs"])
+	f.QTMS = orNaN(d.Intervals["qt"])
+	f.QTcBazettMS = orNaN(d.Intervals["qtc_bazett"])
+	f.QRSAxisDeg = rawNumber(d.Axis["qrs_deg"])
+	f.Transition = rawText(d.Transition)
+	f.CalibConfidence = rawNumber(fold(d.Calibration, "confidence"))
+	f.MeasureError = d.MeasureError
+	if len(d.Quality) > 0 {
+		f.LeadConfidence = map[string]float64{}
+		var cs []float64
+		for lead, q := range d.Quality {
+			c := rawNumber(fold(q, "confidence"))
+			if !math.IsNaN(c) {
+				f.LeadConfidence[lead] = c
+				cs = append(cs, c)
+			}
+		}
+		f.MedianLeadConfidence = median(cs)
+	}
+	return d.SHA, f, nil
+}
+
+// fold looks a key up ignoring case (Go's default field names are
+// capitalised, the documented ones are not).
+func fold(m map[string]json.RawMessage, key string) json.RawMessage {
+	if v, ok := m[key]; ok {
+		return v
+	}
+	for k, v := range m {
+		if strings.EqualFold(k, key) {
+			return v
+		}
+	}
+	return nil
+}
+
+func rawNumber(r json.RawMessage) float64 {
+	var v *float64
+	if len(r) == 0 || json.Unmarshal(r, &v) != nil || v == nil {
+		return math.NaN()
+	}
+	return *v
+}
+
+// rawText renders a transition given as a string ("V3"), a number, or an
+// object with a lead-like field; anything else as compact JSON.
+func rawText(r json.RawMessage) string {
+	if len(r) == 0 || string(r) == "null" {
+		return ""
+	}
+	var s string
+	if json.Unmarshal(r, &s) == nil {
+		return s
+	}
+	var m map[string]json.RawMessage
+	if json.Unmarshal(r, &m) == nil {
+		for _, k := range []string{"lead", "zone", "name", "label"} {
+			if v := fold(m, k); v != nil && json.Unmarshal(v, &s) == nil {
+				return s
+			}
+		}
+	}
+	return string(r)
+}
+
+func median(v []float64) float64 {
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	if len(s)%2 == 1 {
+		return s[len(s)/2]
+	}
+	return (s[len(s)/2-1] + s[len(s)/2]) / 2
+}
+
+// formatNum writes a summary cell: empty for NaN, else at most 3 decimals.
+func formatNum(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return ""
+	}
+	return strconv.FormatFloat(math.Round(v*1000)/1000, 'f', -1, 64)
+}
+
+func parseNum(s string) float64 {
+	if s == "" {
+		return math.NaN()
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		return math.NaN()
+	}
+	return v
+}

@@ -1,0 +1,290 @@
+package batch
+
+import (
+	"bufio"
+	"errors"
+	"fmt"
+	"hash/fnv"
+	"io/fs"
+	"os"
+	"path"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"unicode"
+)
+
+// Input is one file to digitize.
+type Input struct {
+	Path string // where to read it (as given or found)
+	Rel  string // slash-separated path relative to the input folder or list base
+	Stem string // output file name without extension (unique within Rel's folder)
+	// Err is set when the input was refused while collecting (a ".." path, a
+	// path outside the list's base folder); Run reports it as a failed file.
+	Err string
+}
+
+// Extensions are the image file name extensions a folder walk picks up
+// (lower case, with the dot). List files may name any file.
+var Extensions = []string{".png", ".jpg", ".jpeg", ".tif", ".tiff", ".pdf"}
+
+// CollectOptions steer Collect.
+type CollectOptions struct {
+	// Base is the folder list entries are relative to, and that absolute
+	// entries must lie in. Empty: the list file's folder. Ignored for a
+	// folder walk.
+	Base string
+	// Skip is a folder the walk never enters (the output folder when it
+	// lies inside the input folder).
+	Skip string
+}
+
+// Collect returns the inputs named by src: every image file below a folder
+// (hidden files and folders skipped, symbolic links to folders not
+// followed), or the lines of a list file (one path per line; blank lines
+// and lines starting with # ignored). The result is sorted by Rel and has a
+// unique Stem per output folder. An error means src itself cannot be used.
+func Collect(src string, opt CollectOptions) ([]Input, error) {
+	fi, err := os.Stat(src)
+	if err != nil {
+		return nil, fmt.Errorf("batch: %w", err)
+	}
+	var ins []Input
+	if fi.IsDir() {
+		ins, err = walk(src, opt.Skip)
+	} else {
+		ins, err = readList(src, opt.Base)
+	}
+	if err != nil {
+		return nil, err
+	}
+	sort.Slice(ins, func(a, b int) bool { return ins[a].Rel < ins[b].Rel })
+	assignStems(ins)
+	return ins, nil
+}
+
+func walk(root, skip string) ([]Input, error) {
+	skipReal := ""
+	if skip != "" {
+		if r, err := filepath.EvalSymlinks(skip); err == nil {
+			skipReal = r
+		}
+	}
+	var ins []Input
+	err := filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			// An unreadable folder inside the tree is reported as a failed
+			// input rather than ending the walk.
+			rel, _ := filepath.Rel(root, p)
+			ins = append(ins, Input{Path: p, Rel: filepath.ToSlash(rel), Err: "batch: cannot read " + p + ": " + errText(err) + "; check its permissions"})
+			if d != nil && d.IsDir() {
+				return fs.SkipDir
+			}
+			return nil
+		}
+		name := d.Name()
+		if p != root && strings.HasPrefix(name, ".") {
+			if d.IsDir() {
+				return fs.SkipDir
+			}
+			return nil
+		}
+		if d.IsDir() {
+			if skipReal != "" && p != root {
+				if r, err := filepath.EvalSymlinks(p); err == nil && r == skipReal {
+					return fs.SkipDir
+				}
+			}
+			return nil
+		}
+		if !hasImageExt(name) {
+			return nil
+		}
+		if d.Type()&fs.ModeSymlink != 0 {
+			// A link to a file is followed; a link to a folder is not walked.
+			if fi, err := os.Stat(p); err != nil || !fi.Mode().IsRegular() {
+				return nil
+			}
+		} else if !d.Type().IsRegular() {
+			return nil
+		}
+		rel, err := filepath.Rel(root, p)
+		if err != nil {
+			return nil
+		}
+		ins = append(ins, Input{Path: p, Rel: filepath.ToSlash(rel)})
+		return nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("batch: walking %s: %w", root, err)
+	}
+	return ins, nil
+}
+
+func hasImageExt(name string) bool {
+	ext := strings.ToLower(filepath.Ext(name))
+	for _, e := range Extensions {
+		if e == ext {
+			return true
+		}
+	}
+	return false
+}
+
+func readList(list, base string) ([]Input, error) {
+	f, err := os.Open(list)
+	if err != nil {
+		return nil, fmt.Errorf("batch: %w", err)
+	}
+	defer f.Close()
+	if base == "" {
+		base = filepath.Dir(list)
+	}
+	absBase, err := filepath.Abs(base)
+	if err != nil {
+		return nil, fmt.Errorf("batch: %w", err)
+	}
+	var ins []Input
+	seen := map[string]bool{}
+	sc := bufio.NewScanner(f)
+	sc.Buffer(make([]byte, 64<<10), 1<<20)
+	line := 0
+	for sc.Scan() {
+		line++
+		s := strings.TrimSpace(strings.TrimSuffix(sc.Text(), "\r"))
+		if s == "" || strings.HasPrefix(s, "#") {
+			continue
+		}
+		in := listEntry(s, absBase)
+		if in.Err != "" {
+			in.Err = fmt.Sprintf("%s (line %d of %s)", in.Err, line, list)
+		}
+		if seen[in.Rel] {
+			continue // the same file listed twice is done once
+		}
+		seen[in.Rel] = true
+		ins = append(ins, in)
+	}
+	if err := sc.Err(); err != nil {
+		return nil, fmt.Errorf("batch: reading %s: %w", list, err)
+	}
+	if line > 0 && len(ins) == 0 {
+		return nil, fmt.Errorf("batch: %s names no files", list)
+	}
+	return ins, nil
+}
+
+// listEntry resolves one line of a list file against the base folder.
+func listEntry(s, absBase string) Input {
+	if filepath.IsAbs(s) {
+		rel, err := filepath.Rel(absBase, filepath.Clean(s))
+		if err != nil || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+			return Input{Path: s, Rel: s,
+				Err: "batch: " + s + " lies outside the base folder " + absBase + "; list it relative to the base or give --base"}
+		}
+		return Input{Path: s, Rel: filepath.ToSlash(rel)}
+	}
+	for _, c := range strings.Split(filepath.ToSlash(s), "/") {
+		if c == ".." {
+			return Input{Path: s, Rel: s,
+				Err: "batch: " + s + " contains \"..\"; list paths inside the base folder " + absBase}
+		}
+	}
+	rel := path.Clean(filepath.ToSlash(s))
+	return Input{Path: filepath.Join(absBase, filepath.FromSlash(rel)), Rel: rel}
+}
+
+// cleanComponent makes one path component safe to create: control
+// characters and characters that other systems reject become "_".
+func cleanComponent(c string) string {
+	return strings.Map(func(r rune) rune {
+		if unicode.IsControl(r) || strings.ContainsRune(`\:*?"<>|`, r) {
+			return '_'
+		}
+		return r
+	}, c)
+}
+
+// assignStems gives each input an output stem: its file name without
+// extension, made unique within its folder (case-insensitively, for file
+// systems that fold case) by adding the extension, then a counter. The
+// inputs are sorted, so every shard computes the same stems.
+func assignStems(ins []Input) {
+	key := func(dir, stem string) string { return strings.ToLower(dir + "/" + stem) }
+	count := map[string]int{}
+	for i := range ins {
+		count[key(path.Dir(ins[i].Rel), plainStem(ins[i].Rel))]++
+	}
+	used := map[string]bool{}
+	for i := range ins {
+		dir := path.Dir(ins[i].Rel)
+		stem := plainStem(ins[i].Rel)
+		if count[key(dir, stem)] > 1 {
+			if ext := strings.TrimPrefix(path.Ext(ins[i].Rel), "."); ext != "" {
+				stem += "_" + strings.ToLower(ext)
+			}
+		}
+		s := stem
+		for n := 2; used[key(dir, s)]; n++ {
+			s = stem + "-" + strconv.Itoa(n)
+		}
+		used[key(dir, s)] = true
+		ins[i].Stem = s
+	}
+}
+
+func plainStem(rel string) string {
+	b := path.Base(rel)
+	s := strings.TrimSuffix(b, path.Ext(b))
+	if s == "" {
+		s = b
+	}
+	return cleanComponent(s)
+}
+
+// ShardOf returns the shard (1..n) that rel belongs to: FNV-1a (64 bit) of
+// the slash-separated relative path, modulo n. It depends only on the path,
+// so independent processes agree without talking to each other.
+func ShardOf(rel string, n int) int {
+	h := fnv.New64a()
+	h.Write([]byte(rel))
+	return int(h.Sum64()%uint64(n)) + 1
+}
+
+// Shard keeps the inputs of shard k of n (1-based).
+func Shard(ins []Input, k, n int) []Input {
+	if n <= 1 {
+		return ins
+	}
+	var out []Input
+	for _, in := range ins {
+		if ShardOf(in.Rel, n) == k {
+			out = append(out, in)
+		}
+	}
+	return out
+}
+
+// ParseShard reads "K/N" (1 ≤ K ≤ N).
+func ParseShard(s string) (k, n int, err error) {
+	a, b, ok := strings.Cut(s, "/")
+	if ok {
+		k, err = strconv.Atoi(strings.TrimSpace(a))
+		if err == nil {
+			n, err = strconv.Atoi(strings.TrimSpace(b))
+		}
+	}
+	if !ok || err != nil || n < 1 || k < 1 || k > n {
+		return 0, 0, errors.New("batch: --shard takes K/N with 1 ≤ K ≤ N, e.g. 2/8")
+	}
+	return k, n, nil
+}
+
+func errText(err error) string {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err.Error()
+	}
+	return err.Error()
+}
