@@ -1,0 +1,362 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/csv"
+	"errors"
+	"flag"
+	"fmt"
+	"image/jpeg"
+	"image/png"
+	"io"
+	"math"
+	"math/rand"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"tracelift/axis"
+	"tracelift/calib"
+	"tracelift/pipeline"
+	"tracelift/record"
+	"tracelift/record/wfdb"
+	"tracelift/samples"
+	"tracelift/samples/dipole"
+)
+
+func init() {
+	register("bench", "render a seeded suite of printouts, digitize them, print accuracy and speed", cmdBench)
+}
+
+// benchCase is one rendered printout and what became of it.
+type benchCase struct {
+	N         int
+	Condition string
+	Source    string // "dipole" or "ptb-s0010_re"
+	Layout    string
+	DPI       float64
+	Err       string
+
+	ScaleErrX, ScaleErrY float64 // relative |est − truth| / truth
+	RotErrDeg            float64
+	GainOK, SpeedOK      bool
+	SNR                  []float64 // per standard lead drawn; −Inf when missing
+	Missing              int
+	AxisErr, HRErr       float64
+	QRSErr, QTErr        float64
+	CalibMS, DigitizeMS  float64
+	MeasureMS, DecodeMS  float64
+}
+
+func cmdBench(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("bench", flag.ContinueOnError)
+	n := fs.Int("cases", 25, "number of rendered printouts")
+	seed := fs.Int64("seed", 1, "seed of the suite (the same seed renders the same suite)")
+	conds := fs.String("conditions", "clean,rotated,photocopy,photo,fax", "conditions to cycle through")
+	csvOut := fs.String("csv", "", "also write one row per case to this CSV file")
+	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
+	dpi := fs.Float64("dpi", 0, "render every case at this dpi (default: vary, 150–600)")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: tracelift-cli bench [options]")
+		fs.PrintDefaults()
+	}
+	if _, err := parseArgs(fs, args, stderr); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return 0
+		}
+		return 2
+	}
+	condList := strings.Split(*conds, ",")
+	var real *record.Record
+	if *ptb != "" {
+		r, err := wfdb.ReadRecord(*ptb)
+		if err != nil {
+			fmt.Fprintf(stderr, "bench: %v (continuing with synthetic records only)\n", err)
+		} else {
+			real = r
+		}
+	}
+	var cases []benchCase
+	start := time.Now()
+	for i := 0; i < *n; i++ {
+		rng := rand.New(rand.NewSource(*seed*1000003 + int64(i)))
+		cond := strings.TrimSpace(condList[i%len(condList)])
+		c := runBenchCase(i, cond, rng, real, *dpi)
+		cases = append(cases, c)
+		status := "ok"
+		if c.Err != "" {
+			status = "failed: " + c.Err
+		}
+		fmt.Fprintf(stderr, "case %3d %-9s %-7s %-6s %3.0f dpi  SNR med %5.1f dB  %s\n", i, cond, c.Source, c.Layout, c.DPI, median(finite(c.SNR)), status)
+	}
+	printBenchTable(stdout, cases, condList)
+	fmt.Fprintf(stdout, "\n%d cases in %.1f s; peak resident memory %s\n", len(cases), time.Since(start).Seconds(), peakRSS())
+	if *csvOut != "" {
+		if err := writeBenchCSV(*csvOut, cases); err != nil {
+			fmt.Fprintln(stderr, "bench:", err)
+			return 1
+		}
+	}
+	return 0
+}
+
+func runBenchCase(i int, cond string, rng *rand.Rand, real *record.Record, dpi float64) benchCase {
+	c := benchCase{N: i, Condition: cond, Source: "dipole"}
+	var rec *record.Record
+	var truth *dipole.Truth
+	if real != nil && i%4 == 3 {
+		c.Source = "ptb-s0010_re"
+		rec = window12(real, 500, rng.Float64()*25)
+	} else {
+		p := dipole.Params{
+			HeartRateBPM:   50 + rng.Float64()*60,
+			QRSAxisDeg:     -90 + rng.Float64()*270,
+			PAxisDeg:       20 + rng.Float64()*50,
+			TAxisDeg:       10 + rng.Float64()*60,
+			QRSms:          75 + rng.Float64()*40,
+			PRms:           130 + rng.Float64()*70,
+			TransitionLead: 2 + rng.Float64()*3,
+			QRSAmpMV:       1 + rng.Float64()*1.2,
+			NoiseMV:        0.005,
+			Seed:           rng.Int63(),
+		}
+		rr := 60 / p.HeartRateBPM
+		p.QTms = 410 * math.Sqrt(rr) * (0.9 + rng.Float64()*0.2) // Bazett-shaped QT around QTc 410 ms
+		rec = dipole.Generate(p)
+		t := p.Truth()
+		truth = &t
+	}
+	st := samples.RandomStyle(rng)
+	if dpi > 0 {
+		st.DPI = dpi
+	}
+	c.Layout, c.DPI = string(st.Layout), st.DPI
+	po, err := samples.Render(rec, st)
+	if err != nil {
+		c.Err = err.Error()
+		return c
+	}
+	po, err = samples.Degrade(po, samples.Condition(cond, rng))
+	if err != nil {
+		c.Err = err.Error()
+		return c
+	}
+	// Encode as a file would arrive, then decode it like any input.
+	var buf bytes.Buffer
+	name := "case.png"
+	if cond == "photo" {
+		name = "case.jpg"
+		err = jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
+	} else {
+		err = (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&buf, po.Image)
+	}
+	if err != nil {
+		c.Err = err.Error()
+		return c
+	}
+	t0 := time.Now()
+	pg, err := calib.Decode(buf.Bytes(), name, calib.LoadOptions{})
+	c.DecodeMS = ms(time.Since(t0))
+	if err != nil {
+		c.Err = err.Error()
+		return c
+	}
+	o, err := pipeline.ProcessPage(context.Background(), pg, pipeline.Options{})
+	if o != nil {
+		c.CalibMS, c.DigitizeMS, c.MeasureMS = ms(o.Timings.Calib), ms(o.Timings.Digitize), ms(o.Timings.Measure)
+	}
+	tr := po.Truth
+	if o != nil && o.Calib != nil {
+		c.ScaleErrX = math.Abs(o.Calib.PxPerMMX-tr.PxPerMMX) / tr.PxPerMMX
+		c.ScaleErrY = math.Abs(o.Calib.PxPerMMY-tr.PxPerMMY) / tr.PxPerMMY
+		c.RotErrDeg = math.Abs(angleDiff(o.Calib.RotationDeg+90*float64(o.Calib.Turned), tr.RotationDeg))
+		c.GainOK = math.Abs(o.Calib.GainMMPerMV-tr.GainMMPerMV) < 0.02*tr.GainMMPerMV
+		c.SpeedOK = math.Abs(o.Calib.SpeedMMPerS-tr.SpeedMMPerS) < 0.02*tr.SpeedMMPerS
+	}
+	if err != nil {
+		c.Err = err.Error()
+		return c
+	}
+	est := o.Digitized.Record
+	for _, ref := range tr.Signals.Signals {
+		if !record.IsStandard(ref.Lead) {
+			continue
+		}
+		e := est.Lead(ref.Lead)
+		if e == nil {
+			c.Missing++
+			c.SNR = append(c.SNR, math.Inf(-1))
+			continue
+		}
+		a := record.Compare(&ref, e, ref.StartS, ref.EndS())
+		c.SNR = append(c.SNR, a.SNRdB)
+	}
+	c.AxisErr, c.HRErr, c.QRSErr, c.QTErr = math.NaN(), math.NaN(), math.NaN(), math.NaN()
+	if f := o.Findings; f != nil {
+		var want axisTruth
+		if truth != nil {
+			want = axisTruth{truth.QRSAxisDeg, truth.HeartRateBPM, truth.QRSms, truth.QTms}
+		} else if wf, err := axis.Measure(tr.Signals, axis.Options{}); err == nil {
+			want = axisTruth{float64(wf.Axis.QRSDeg), float64(wf.HeartRateBPM), float64(wf.IntervalsMS.QRS), float64(wf.IntervalsMS.QT)}
+		}
+		c.AxisErr = math.Abs(angleDiff(float64(f.Axis.QRSDeg), want.qrs))
+		c.HRErr = math.Abs(float64(f.HeartRateBPM) - want.hr)
+		c.QRSErr = math.Abs(float64(f.IntervalsMS.QRS) - want.qrsMS)
+		c.QTErr = math.Abs(float64(f.IntervalsMS.QT) - want.qtMS)
+	}
+	return c
+}
+
+type axisTruth struct{ qrs, hr, qrsMS, qtMS float64 }
+
+// window12 cuts 10 s of the twelve standard leads out of a real record,
+// resampled to hz, starting at offS.
+func window12(rec *record.Record, hz, offS float64) *record.Record {
+	out := &record.Record{Name: rec.Name}
+	for _, l := range record.Standard12 {
+		s := rec.Lead(l)
+		if s == nil {
+			continue
+		}
+		r := s.Resample(hz)
+		i0 := int(offS * hz)
+		i1 := i0 + int(10*hz)
+		if i1 > len(r.MV) {
+			i0, i1 = len(r.MV)-int(10*hz), len(r.MV)
+		}
+		out.Signals = append(out.Signals, record.Signal{Lead: l, RateHz: hz, MV: append([]float64(nil), r.MV[i0:i1]...)})
+	}
+	return out
+}
+
+func printBenchTable(w io.Writer, cases []benchCase, conds []string) {
+	fmt.Fprintln(w, "condition   cases fail  scale err %  (med/p95)  rot err° (med/max)  gain ok  speed ok  SNR dB (med/p10)  missing  axis err° (med/p95)  HR err  QRS err  QT err  ms/page (calib+trace, med)")
+	groups := append(append([]string(nil), conds...), "all")
+	for _, g := range groups {
+		var sel []benchCase
+		for _, c := range cases {
+			if g == "all" || c.Condition == strings.TrimSpace(g) {
+				sel = append(sel, c)
+			}
+		}
+		if len(sel) == 0 {
+			continue
+		}
+		var scale, rot, snr, ax, hr, qrs, qt, tms []float64
+		fail, gain, speed, missing := 0, 0, 0, 0
+		for _, c := range sel {
+			if c.Err != "" {
+				fail++
+			}
+			if c.ScaleErrX > 0 || c.ScaleErrY > 0 || c.Err == "" {
+				scale = append(scale, 100*c.ScaleErrX, 100*c.ScaleErrY)
+				rot = append(rot, c.RotErrDeg)
+			}
+			if c.GainOK {
+				gain++
+			}
+			if c.SpeedOK {
+				speed++
+			}
+			missing += c.Missing
+			for _, s := range c.SNR {
+				if math.IsInf(s, -1) {
+					s = -10 // a missing lead counts as a very poor one
+				}
+				snr = append(snr, s)
+			}
+			ax = appendFinite(ax, c.AxisErr)
+			hr = appendFinite(hr, c.HRErr)
+			qrs = appendFinite(qrs, c.QRSErr)
+			qt = appendFinite(qt, c.QTErr)
+			if c.Err == "" {
+				tms = append(tms, c.CalibMS+c.DigitizeMS+c.DecodeMS)
+			}
+		}
+		fmt.Fprintf(w, "%-10s %6d %4d  %6.3f / %6.3f       %5.2f / %5.2f     %5.0f%%   %5.0f%%    %5.1f / %5.1f      %5d    %5.1f / %5.1f        %5.1f   %5.1f    %5.1f   %6.0f\n",
+			g, len(sel), fail, median(scale), pct(scale, 95), median(rot), pct(rot, 100),
+			100*float64(gain)/float64(len(sel)), 100*float64(speed)/float64(len(sel)),
+			median(snr), pct(snr, 10), missing, median(ax), pct(ax, 95), median(hr), median(qrs), median(qt), median(tms))
+	}
+}
+
+func writeBenchCSV(path string, cases []benchCase) error {
+	if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+		return err
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		return err
+	}
+	w := csv.NewWriter(f)
+	w.Write([]string{"case", "condition", "source", "layout", "dpi", "error", "scale_err_x", "scale_err_y", "rot_err_deg", "gain_ok", "speed_ok", "snr_median_db", "missing", "axis_err_deg", "hr_err_bpm", "qrs_err_ms", "qt_err_ms", "decode_ms", "calib_ms", "digitize_ms", "measure_ms"})
+	g := func(v float64) string { return strconv.FormatFloat(v, 'f', 4, 64) }
+	for _, c := range cases {
+		w.Write([]string{strconv.Itoa(c.N), c.Condition, c.Source, c.Layout, g(c.DPI), c.Err, g(c.ScaleErrX), g(c.ScaleErrY), g(c.RotErrDeg),
+			strconv.FormatBool(c.GainOK), strconv.FormatBool(c.SpeedOK), g(median(finite(c.SNR))), strconv.Itoa(c.Missing),
+			g(c.AxisErr), g(c.HRErr), g(c.QRSErr), g(c.QTErr), g(c.DecodeMS), g(c.CalibMS), g(c.DigitizeMS), g(c.MeasureMS)})
+	}
+	w.Flush()
+	if err := w.Error(); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
+}
+
+func ms(d time.Duration) float64 { return d.Seconds() * 1000 }
+
+func angleDiff(a, b float64) float64 {
+	d := math.Mod(a-b+540, 360) - 180
+	return d
+}
+
+func finite(v []float64) []float64 {
+	var out []float64
+	for _, x := range v {
+		out = appendFinite(out, x)
+	}
+	return out
+}
+
+func appendFinite(v []float64, x float64) []float64 {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return v
+	}
+	return append(v, x)
+}
+
+func median(v []float64) float64 { return pct(v, 50) }
+
+// pct is the p-th percentile by linear interpolation; NaN when empty.
+func pct(v []float64, p float64) float64 {
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	x := p / 100 * float64(len(s)-1)
+	i := int(x)
+	if i >= len(s)-1 {
+		return s[len(s)-1]
+	}
+	return s[i] + (x-float64(i))*(s[i+1]-s[i])
+}
+
+// peakRSS reads the process's peak resident set size (Linux).
+func peakRSS() string {
+	b, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return "unknown"
+	}
+	for _, line := range strings.Split(string(b), "\n") {
+		if strings.HasPrefix(line, "VmHWM:") {
+			return strings.TrimSpace(strings.TrimPrefix(line, "VmHWM:"))
+		}
+	}
+	return "unknown"
+}

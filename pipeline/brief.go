@@ -1,0 +1,104 @@
+package pipeline
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"tracelift/record"
+)
+
+// beatAnnotations turns the detected beats into record annotations
+// ("N" for a dominant beat, "V" for one of another shape, "A" for a
+// premature beat of dominant shape), for the WFDB and EDF+ exports.
+func beatAnnotations(o *Outcome) []record.Annotation {
+	if o.Findings == nil {
+		return nil
+	}
+	var out []record.Annotation
+	for _, b := range o.Findings.Beats {
+		code := "N"
+		switch b.Class {
+		case "different", "premature-different":
+			code = "V"
+		case "premature":
+			code = "A"
+		}
+		out = append(out, record.Annotation{TS: b.TS, Code: code})
+	}
+	return out
+}
+
+// Brief is a few lines for a terminal: the scale found, the layout, the
+// leads and their confidence, the headline findings and the caution.
+func (o *Outcome) Brief() string {
+	var b strings.Builder
+	if c := o.Calib; c != nil {
+		fmt.Fprintf(&b, "scale      %.3f × %.3f px/mm (from %s, confidence %.2f), rotation %.2f°\n",
+			c.PxPerMMX, c.PxPerMMY, c.Source, c.Confidence, c.RotationDeg)
+		fmt.Fprintf(&b, "settings   %g mm/mV, %g mm/s\n", c.GainMMPerMV, c.SpeedMMPerS)
+		for _, w := range c.Warnings {
+			fmt.Fprintf(&b, "warning    %s\n", w)
+		}
+	}
+	if d := o.Digitized; d != nil {
+		order := "standard"
+		if d.Cabrera {
+			order = "Cabrera"
+		}
+		fmt.Fprintf(&b, "layout     %s, %s order, %d panels\n", d.Layout, order, len(d.Panels))
+		leads := make([]string, 0, len(d.Quality))
+		for l := range d.Quality {
+			leads = append(leads, l)
+		}
+		sort.Slice(leads, func(i, j int) bool { return leadRank(leads[i]) < leadRank(leads[j]) })
+		var parts []string
+		for _, l := range leads {
+			parts = append(parts, fmt.Sprintf("%s %.2f", l, d.Quality[l].Confidence))
+		}
+		fmt.Fprintf(&b, "confidence %s\n", strings.Join(parts, ", "))
+		for _, lc := range d.Laws {
+			fmt.Fprintf(&b, "lead laws  column %d: Einthoven residual %.0f µV", lc.Column, lc.EinthovenRMSuV)
+			if lc.Worst != "" {
+				fmt.Fprintf(&b, " (worst fit: %s)", lc.Worst)
+			}
+			b.WriteByte('\n')
+		}
+		if n := len(d.Check); n > 0 {
+			fmt.Fprintf(&b, "check      %d place(s) worth checking by hand (see the JSON)\n", n)
+		}
+	}
+	if f := o.Findings; f != nil {
+		iv := f.IntervalsMS
+		fmt.Fprintf(&b, "rate       %s bpm (%s)\n", num(float64(f.HeartRateBPM), 0), f.Rhythm)
+		fmt.Fprintf(&b, "intervals  PR %s, QRS %s, QT %s, QTc %s ms (Bazett)\n",
+			num(float64(iv.PR), 0), num(float64(iv.QRS), 0), num(float64(iv.QT), 0), num(float64(iv.QTcBazett), 0))
+		fmt.Fprintf(&b, "axes       QRS %s°, P %s°, T %s° (%s)\n",
+			num(float64(f.Axis.QRSDeg), 0), num(float64(f.Axis.PDeg), 0), num(float64(f.Axis.TDeg), 0), f.Axis.QRSCategory)
+		fmt.Fprintf(&b, "transition %s\n", f.Transition)
+		for _, fl := range f.Flags {
+			fmt.Fprintf(&b, "flag       %s\n", fl.Message)
+		}
+	} else if o.MeasureErr != nil {
+		fmt.Fprintf(&b, "measure    not possible: %v\n", o.MeasureErr)
+	}
+	fmt.Fprintf(&b, "%s\n", Caution)
+	return b.String()
+}
+
+func num(v float64, digits int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "—"
+	}
+	return fmt.Sprintf("%.*f", digits, v)
+}
+
+func leadRank(l string) int {
+	for i, s := range record.Standard12 {
+		if s == l {
+			return i
+		}
+	}
+	return 100
+}
