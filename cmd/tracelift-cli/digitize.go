@@ -19,20 +19,19 @@ func init() {
 
 // commonFlags are the options shared by digitize and batch.
 type commonFlags struct {
-	out      string
-	formats  string
-	rate     float64
-	layout   string
-	order    string
-	dpi      float64
-	pxPerMM  float64
-	gain     float64
-	speed    float64
-	page     int
-	maxMP    float64
-	maxMB    float64
-	paper    string
-	noRecon  bool
+	out     string
+	formats string
+	rate    float64
+	layout  string
+	order   string
+	dpi     float64
+	pxPerMM float64
+	gain    float64
+	speed   float64
+	page    int
+	maxMP   float64
+	maxMB   float64
+	paper   string
 }
 
 func (c *commonFlags) register(fs *flag.FlagSet) {
