@@ -45,6 +45,9 @@ type Truth struct {
 	// row-major 3×3 homography; identity for a clean render.
 	PageToImage [9]float64
 	Condition   string
+	// CleanPxPerMM is the clean render's scale (both axes), the unit of
+	// Panels, Pulses and the input side of PageToImage.
+	CleanPxPerMM float64
 }
 
 // Printout is an image with its truth.
@@ -215,7 +218,7 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 
 	tr := Truth{
 		Layout: st.Layout, Cabrera: st.Cabrera, SpeedMMPerS: st.SpeedMMPerS, GainMMPerMV: st.GainMMPerMV,
-		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, PageToImage: Identity, Condition: "clean",
+		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, CleanPxPerMM: g.pxmm, PageToImage: Identity, Condition: "clean",
 		Signals: &record.Record{Name: rec.Name},
 	}
 	tr.Signals.Provenance = record.Provenance{
