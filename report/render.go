@@ -251,12 +251,14 @@ func (c *canvas) leads(s *Summary) {
 	c.text(gx+gridWMM, y, "each stretch drawn about its median; gaps left blank", 'R')
 }
 
-// pulse draws the 1 mV, 0.2 s calibration step at the head of a row.
+// pulse draws the 1 mV, 0.2 s calibration step at the head of a row: it
+// fills the 5 mm before the traces, rising on the block's left edge.
 func (c *canvas) pulse(x, base float64) {
 	c.draw(colTrace)
 	c.pdf.SetLineWidth(lwTrace)
 	top := mvToY(base, 1)
-	c.polyline([][2]float64{{x + 0.5, base}, {x + 1, base}, {x + 1, top}, {x + 1 + 0.2*SpeedMMPerS, top}, {x + 1 + 0.2*SpeedMMPerS, base}, {x + 4.5, base}})
+	w := 0.2 * SpeedMMPerS
+	c.polyline([][2]float64{{x, base}, {x, top}, {x + w, top}, {x + w, base}})
 }
 
 // stretch draws one lead's stretch starting at page x, with its label.
