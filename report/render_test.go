@@ -223,4 +223,3 @@ func TestRenderRejects(t *testing.T) {
 		})
 	}
 }
-
