@@ -63,6 +63,14 @@ func (t *texter) draw(dst *image.NRGBA, x, y float64, s string, c color.NRGBA) {
 	}
 	// Bitmap font drawn small, then blown up pixel by pixel.
 	face := basicfont.Face7x13
+	// The bitmap font lacks most non-ASCII signs: print a dash instead.
+	rs := []rune(s)
+	for i, r := range rs {
+		if _, ok := face.GlyphAdvance(r); !ok || r > 126 {
+			rs[i] = '-'
+		}
+	}
+	s = string(rs)
 	w := font.MeasureString(face, s).Ceil()
 	h := face.Height
 	small := image.NewAlpha(image.Rect(0, 0, w, h))
