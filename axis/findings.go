@@ -19,12 +19,12 @@ func NaN() Num { return Num(math.NaN()) }
 func (n Num) OK() bool { return !math.IsNaN(float64(n)) && !math.IsInf(float64(n), 0) }
 
 // MarshalJSON writes null for a value that was not measured, otherwise
-// the number rounded to 0.01.
+// the number rounded to 0.0001 (0.1 ms for times in seconds).
 func (n Num) MarshalJSON() ([]byte, error) {
 	if !n.OK() {
 		return []byte("null"), nil
 	}
-	return json.Marshal(math.Round(float64(n)*100) / 100)
+	return json.Marshal(math.Round(float64(n)*1e4) / 1e4)
 }
 
 // UnmarshalJSON reads null as NaN.

@@ -20,7 +20,9 @@ func isLimb(lead string) bool { _, ok := hexaxial[lead]; return ok }
 // leads. In Einthoven's triangle these read √3/2 of the heart vector's
 // projection on their direction (Goldberger 1942), while I, II and III read
 // the full projection; augScale undoes that.
-func augmented(lead string) bool { return lead == record.AVR || lead == record.AVL || lead == record.AVF }
+func augmented(lead string) bool {
+	return lead == record.AVR || lead == record.AVL || lead == record.AVF
+}
 
 var augScale = 2 / math.Sqrt(3)
 

@@ -1,0 +1,116 @@
+package main
+
+import (
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"tracelift/axis"
+	"tracelift/record"
+	"tracelift/record/atomic"
+	"tracelift/record/csvio"
+	"tracelift/record/wfdb"
+)
+
+func init() {
+	register("measure", "measure a record (WFDB .hea or CSV): rate, intervals, axes, transition", cmdMeasure)
+}
+
+// cmdMeasure reads each RECORD, prints its summary and writes
+// DIR/<stem>.json with the findings.
+func cmdMeasure(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("measure", flag.ContinueOnError)
+	out := fs.String("o", "", "output directory for <stem>.json (required)")
+	beatLead := fs.String("beat-lead", "", "lead to find the beats on (default: the clearest long lead)")
+	quiet := fs.Bool("q", false, "do not print the summary")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: tracelift-cli measure RECORD.hea|RECORD.csv [...] -o DIR [--beat-lead II] [-q]")
+		fs.PrintDefaults()
+	}
+	files, err := parseArgs(fs, args, stderr)
+	if errors.Is(err, flag.ErrHelp) {
+		return 0
+	}
+	if err != nil {
+		return 2
+	}
+	if len(files) == 0 || *out == "" {
+		fs.Usage()
+		return 2
+	}
+	if err := os.MkdirAll(*out, 0o755); err != nil {
+		fmt.Fprintf(stderr, "measure: cannot create the output directory: %v\n", err)
+		return 1
+	}
+	failed := 0
+	for _, path := range files {
+		if err := measureOne(path, *out, *beatLead, *quiet, stdout); err != nil {
+			fmt.Fprintf(stderr, "measure: %s: %v\n", path, err)
+			failed++
+		}
+	}
+	if failed > 0 {
+		return 1
+	}
+	return 0
+}
+
+// readRecord opens a WFDB header (".hea", or a path without extension
+// whose .hea exists) or a CSV file.
+func readRecord(path string) (*record.Record, error) {
+	ext := strings.ToLower(filepath.Ext(path))
+	switch ext {
+	case ".csv", ".txt":
+		f, err := os.Open(path)
+		if err != nil {
+			return nil, err
+		}
+		defer f.Close()
+		rec, err := csvio.Read(f)
+		if err != nil {
+			return nil, err
+		}
+		if rec.Name == "" {
+			rec.Name = strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+		}
+		return rec, nil
+	case ".hea":
+		return wfdb.ReadRecord(path)
+	case "":
+		if _, err := os.Stat(path + ".hea"); err == nil {
+			return wfdb.ReadRecord(path)
+		}
+	}
+	return nil, fmt.Errorf("not a record this command reads (give a WFDB .hea header or a .csv file)")
+}
+
+func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error {
+	rec, err := readRecord(path)
+	if err != nil {
+		return err
+	}
+	f, err := axis.Measure(rec, axis.Options{BeatLead: beatLead})
+	if err != nil {
+		return err
+	}
+	stem := strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+	dst := filepath.Join(dir, stem+".json")
+	err = atomic.WriteFile(dst, func(w io.Writer) error {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(f)
+	}, 0o644)
+	if err != nil {
+		return fmt.Errorf("writing %s: %w", dst, err)
+	}
+	if !quiet {
+		fmt.Fprint(stdout, f.Summary())
+		fmt.Fprintf(stdout, "written: %s\n\n", dst)
+	}
+	return nil
+}
