@@ -8,8 +8,11 @@ import (
 // quality draws the per-lead quality figures as small bars, then the
 // notes and the flags, inside [x, x1] × [y0, y1].
 func (c *canvas) quality(x, y0, x1, y1 float64, s *Summary) {
-	c.heading(x, y0, "Tracing quality")
-	y := y0 + 4.6
+	y := y0 - 5.6 // the lists start at the top when there is no quality table
+	if len(s.Quality) > 0 {
+		c.heading(x, y0, "Tracing quality")
+		y = y0 + 4.6
+	}
 	colW := (x1 - x) / 2
 	const rowH = 3.5
 	rows := (len(s.Quality) + 1) / 2
@@ -39,7 +42,9 @@ func (c *canvas) quality(x, y0, x1, y1 float64, s *Summary) {
 			c.text(cx+colW-4, cy, "n/a", 'R')
 		}
 	}
-	y += float64(rows)*rowH + 1.5
+	if rows > 0 {
+		y += float64(rows)*rowH + 1.5
+	}
 	list := func(title string, items []string) {
 		if len(items) == 0 || y+5.6 > y1 { // no room for the heading and one line
 			return
@@ -59,8 +64,14 @@ func (c *canvas) quality(x, y0, x1, y1 float64, s *Summary) {
 			}
 			c.font("", 7)
 			c.color(colText)
-			c.text(x, y, "- "+c.fit(it, x1-x-3), 'L')
+			// Up to two lines per item; the second shortened to fit.
+			first, rest := c.wrap(it, x1-x-3)
+			c.text(x, y, "- "+first, 'L')
 			y += 3.2
+			if rest != "" && y <= y1 {
+				c.text(x+2, y, c.fit(rest, x1-x-5), 'L')
+				y += 3.2
+			}
 		}
 	}
 	list("Flags", s.Flags)

@@ -77,6 +77,25 @@ func (c *canvas) fit(s string, w float64) string {
 	return string(r) + "…"
 }
 
+// wrap splits s at a space so that the first part fits w mm (in the
+// current font); a first word wider than w is shortened by fit.
+// fpdf's SplitText is not used: it indexes its width table by rune and
+// fails on characters outside the core fonts' code page.
+func (c *canvas) wrap(s string, w float64) (first, rest string) {
+	if c.pdf.GetStringWidth(c.tr(s)) <= w {
+		return s, ""
+	}
+	words := strings.Fields(s)
+	n := 0
+	for n < len(words) && c.pdf.GetStringWidth(c.tr(strings.Join(words[:n+1], " "))) <= w {
+		n++
+	}
+	if n == 0 {
+		return c.fit(s, w), ""
+	}
+	return strings.Join(words[:n], " "), strings.Join(words[n:], " ")
+}
+
 func (c *canvas) polyline(pts [][2]float64) {
 	if len(pts) < 2 {
 		return
@@ -86,6 +105,34 @@ func (c *canvas) polyline(pts [][2]float64) {
 		c.pdf.LineTo(p[0], p[1])
 	}
 	c.pdf.DrawPath("D")
+}
+
+// codePage wraps fpdf's UTF-8 to cp1252 translation (the code page of the
+// core fonts) so that every rune becomes exactly one byte: the minus sign
+// becomes a hyphen, control characters a space, and a rune the code page
+// lacks a question mark, instead of stray UTF-8 bytes on the page.
+func codePage(base func(string) string) func(string) string {
+	return func(s string) string {
+		var b strings.Builder
+		for _, r := range s {
+			switch {
+			case r == '\u2212':
+				b.WriteByte('-')
+			case r < 0x20 || r == 0x7f:
+				b.WriteByte(' ')
+			case r < 0x80:
+				b.WriteRune(r)
+			default:
+				// base turns a rune it lacks into ".".
+				if t := base(string(r)); len(t) == 1 && t != "." {
+					b.WriteString(t)
+				} else {
+					b.WriteByte('?')
+				}
+			}
+		}
+		return b.String()
+	}
 }
 
 // Render draws s as a PDF on paper ("a4" or "letter", landscape): page 1
@@ -107,7 +154,7 @@ func Render(w io.Writer, s *Summary, paper string) error {
 	pdf.SetCreator("tracelift", true)
 	pdf.SetLineCapStyle("round")
 	pdf.SetLineJoinStyle("round")
-	c := &canvas{pdf: pdf, tr: pdf.UnicodeTranslatorFromDescriptor(""), l: newLayout(p)}
+	c := &canvas{pdf: pdf, tr: codePage(pdf.UnicodeTranslatorFromDescriptor("")), l: newLayout(p)}
 	pages := 1
 	if s.Source != nil {
 		pages = 2

@@ -223,3 +223,23 @@ func TestRenderRejects(t *testing.T) {
 		})
 	}
 }
+
+// TestUnusualText puts characters outside the core fonts' code page in the
+// header: the page must still render, keep what cp1252 holds (ë, µ, °, ±)
+// and mark the rest.
+func TestUnusualText(t *testing.T) {
+	bin := needTool(t, "pdftotext")
+	s := summaryOf(readPTB(t))
+	s.Header = []Field{{"Name", "Zoë Ωmega 李"}, {"Note", "tab\there −5 µV"}}
+	s.Flags = []string{"a very long flag that goes on and on so that it has to wrap onto a second line in the narrow column; and then some more words that cannot fit"}
+	out, err := exec.Command(bin, renderTo(t, s, "a4"), "-").Output()
+	if err != nil {
+		t.Fatal(err)
+	}
+	txt := string(out)
+	for _, want := range []string{"Zoë ?mega ?", "tab here -5 µV", "a very long flag"} {
+		if !strings.Contains(txt, want) {
+			t.Errorf("text lacks %q:\n%s", want, txt)
+		}
+	}
+}
