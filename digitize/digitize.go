@@ -1,0 +1,510 @@
+package digitize
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"tracelift/calib"
+	"tracelift/record"
+)
+
+// Options steer the tracing. The zero value detects everything and
+// samples at 500 Hz.
+type Options struct {
+	RateHz    float64  // output rate; 0 means 500
+	Layout    string   // "" to detect, or "3x4", "3x4+1", "3x4+3", "6x2", "12x1", "1x1"
+	LeadOrder string   // "" to detect, "standard" or "cabrera"
+	Leads     []string // optional lead names for the panels in reading order (row by row, left to right, rhythm strips last)
+}
+
+// Panel is one drawn lead window on the rectified page.
+type Panel struct {
+	Lead      string     // as printed: a standard name, or "-aVR" for Cabrera's inverted aVR
+	Row, Col  int        // grid position; rhythm strips continue the row count
+	Rhythm    bool       // a strip across the whole page
+	Box       [4]float64 // x0, y0, x1, y1 in rectified px; x0 is time T0S
+	T0S, T1S  float64    // time window on the tracing clock
+	BaselineY float64    // y of 0 mV in rectified px
+}
+
+// Trace is one panel's traced centre line.
+type Trace struct {
+	Lead  string    // as printed (see Panel.Lead)
+	Panel int       // index into Result.Panels
+	X0    int       // first column
+	Y     []float64 // sub-pixel centre y per column from X0 (pixel centres at +0.5); NaN = gap
+	Conf  []float32 // per column, 0..1
+}
+
+// LeadQuality says how far a lead can be trusted.
+type LeadQuality struct {
+	Confidence    float64  `json:"confidence"`
+	Coverage      float64  `json:"coverage"`
+	LawResidualUV float64  `json:"law_residual_uv,omitempty"`
+	Notes         []string `json:"notes,omitempty"`
+}
+
+// LawCheck is the limb-lead law residual over one column of simultaneous
+// panels. Residuals are RMS in µV after each lead's mean over the column
+// is removed; −1 means the column lacks the leads for that relation.
+// Goldberger's three are for aVR = −(I+II)/2, aVL = I − II/2 and
+// aVF = II − I/2; where I or II is absent the augmented lead is instead
+// predicted by least squares from the other limb leads present.
+type LawCheck struct {
+	Column          int
+	T0S, T1S        float64
+	EinthovenRMSuV  float64
+	GoldbergerRMSuV [3]float64
+	Worst           string // the lead that most breaks the laws here
+}
+
+// Place is a stretch worth checking by hand.
+type Place struct {
+	Lead     string
+	T0S, T1S float64
+	Why      string
+}
+
+// Result is the digitized printout.
+type Result struct {
+	Record     *record.Record // the raw traces in mV
+	Reconciled *record.Record // limb leads projected onto the laws by least squares (a separate output; Record is never altered)
+	Layout     string
+	Cabrera    bool
+	Panels     []Panel
+	Traces     []Trace
+	Quality    map[string]LeadQuality
+	Laws       []LawCheck
+	Check      []Place
+}
+
+// Expected failures.
+var (
+	ErrInput   = errors.New("digitize: calibration result is missing its image, scale, gain or speed")
+	ErrNoTrace = errors.New("digitize: no ECG trace rows found on the page")
+	ErrLayout  = errors.New("digitize: the rows found do not match the layout; give the layout by hand")
+)
+
+// Run finds the layout, traces every panel and assembles the signals.
+func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
+	if cal == nil || (cal.Ink == nil && cal.Rectified == nil) {
+		return nil, ErrInput
+	}
+	for _, v := range []float64{cal.PxPerMM, cal.GainMMPerMV, cal.SpeedMMPerS} {
+		if !(v > 0) || math.IsInf(v, 0) {
+			return nil, ErrInput
+		}
+	}
+	if opt.RateHz < 0 || math.IsNaN(opt.RateHz) || math.IsInf(opt.RateHz, 0) || opt.RateHz > 20000 {
+		return nil, fmt.Errorf("digitize: bad output rate %v Hz", opt.RateHz)
+	}
+	if opt.RateHz == 0 {
+		opt.RateHz = 500
+	}
+	if opt.Layout != "" {
+		if _, ok := layoutRows[opt.Layout]; !ok {
+			return nil, fmt.Errorf("digitize: unknown layout %q (want 3x4, 3x4+1, 3x4+3, 6x2, 12x1 or 1x1)", opt.Layout)
+		}
+	}
+	switch opt.LeadOrder {
+	case "", "standard", "cabrera":
+	default:
+		return nil, fmt.Errorf("digitize: unknown lead order %q (want standard or cabrera)", opt.LeadOrder)
+	}
+	ink := cal.Ink
+	if ink == nil {
+		ink = InkFromRGB(cal.Rectified)
+	}
+	if ink.Bounds().Dx() < 16 || ink.Bounds().Dy() < 16 {
+		return nil, ErrNoTrace
+	}
+	p := cal.PxPerMM
+	g := prepare(ink, p)
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	rows := findRows(g, p)
+	if len(rows) == 0 {
+		return nil, ErrNoTrace
+	}
+	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
+		rows = fitRows(rows, layoutRows[opt.Layout])
+		if rows == nil {
+			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p)), opt.Layout, layoutRows[opt.Layout])
+		}
+	}
+	hyps := candidates(len(rows), opt)
+	if len(hyps) == 0 {
+		return nil, fmt.Errorf("%w (found %d rows)", ErrLayout, len(rows))
+	}
+	pg := newPage(g, rows, cal)
+	// Trace every row in as many equal segments as the finest layout
+	// among the candidates has columns.
+	nseg := 1
+	for _, h := range hyps {
+		nseg = max(nseg, layoutCols[h.layout])
+	}
+	segs, err := pg.traceRows(ctx, nseg)
+	if err != nil {
+		return nil, err
+	}
+	best, bestScore := -1, math.Inf(1)
+	var bestPanels []Panel
+	var bestTraces []Trace
+	for i, h := range hyps {
+		panels, traces := pg.assemble(h, segs, nseg, opt.Leads)
+		s := lawScore(Signals(cal, panels, traces, 250), windowsOf(panels))
+		if s < bestScore-1e-9 || best < 0 {
+			best, bestScore, bestPanels, bestTraces = i, s, panels, traces
+		}
+	}
+	h := hyps[best]
+	if c := layoutCols[h.layout]; c != nseg {
+		segs, err = pg.traceRows(ctx, c)
+		if err != nil {
+			return nil, err
+		}
+		bestPanels, bestTraces = pg.assemble(h, segs, c, opt.Leads)
+	}
+	res := &Result{Layout: h.layout, Cabrera: h.cabrera, Panels: bestPanels, Traces: bestTraces}
+	res.Record = Signals(cal, res.Panels, res.Traces, opt.RateHz)
+	res.Record.Provenance.Layout = h.layout
+	wins := windowsOf(res.Panels)
+	conf := leadConfidence(res.Panels, res.Traces)
+	var perLead map[string]float64
+	res.Laws, perLead = lawChecks(res.Record, wins, conf)
+	res.Reconciled = reconcile(res.Record, wins)
+	res.Quality, res.Check = assess(cal, res, conf, perLead)
+	return res, nil
+}
+
+// fitRows keeps the n strongest-spaced rows when more were found (extra
+// text lines), or fails.
+func fitRows(rows []rowInfo, n int) []rowInfo {
+	if len(rows) < n {
+		return nil
+	}
+	// Keep the n rows whose spans are longest.
+	idx := make([]int, len(rows))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool {
+		return rows[idx[a]].x1-rows[idx[a]].x0 > rows[idx[b]].x1-rows[idx[b]].x0
+	})
+	idx = idx[:n]
+	sort.Ints(idx)
+	out := make([]rowInfo, n)
+	for i, j := range idx {
+		out[i] = rows[j]
+	}
+	return out
+}
+
+// page holds what every hypothesis shares.
+type page struct {
+	g       *gray
+	rows    []rowInfo
+	pitch   float64
+	x0, x1  int // the common trace span of the rows
+	pxPerS  float64
+	halfLn  float64
+	pxPerMM float64
+}
+
+func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
+	pg := &page{g: g, rows: rows, pxPerMM: cal.PxPerMM, pxPerS: cal.PxPerMM * cal.SpeedMMPerS}
+	if len(rows) > 1 {
+		var gaps []float64
+		for i := 1; i < len(rows); i++ {
+			gaps = append(gaps, rows[i].base-rows[i-1].base)
+		}
+		sort.Float64s(gaps)
+		pg.pitch = gaps[len(gaps)/2]
+	} else {
+		pg.pitch = math.Min(float64(g.h)/2, 60*cal.PxPerMM)
+	}
+	pg.halfLn = strokeHalfWidth(g, rows)
+	var starts, ends []int
+	for i := range rows {
+		r := &rows[i]
+		r.x0 = pulseEnd(g, r.x0, r.x1, r.base, pg.pitch, cal.PxPerMM, cal.SpeedMMPerS, cal.GainMMPerMV)
+		starts = append(starts, r.x0)
+		ends = append(ends, r.x1)
+	}
+	sort.Ints(starts)
+	sort.Ints(ends)
+	// The trace's first sample sits half a line width inside its ink.
+	pg.x0 = starts[len(starts)/2] + int(math.Round(pg.halfLn))
+	pg.x1 = ends[len(ends)/2] + 1 - int(math.Round(pg.halfLn))
+	if pg.x1 <= pg.x0+8 {
+		pg.x1 = min(g.w, pg.x0+8)
+	}
+	return pg
+}
+
+// strokeHalfWidth estimates half the trace's line width from the
+// vertical ink runs at each row's baseline.
+func strokeHalfWidth(g *gray, rows []rowInfo) float64 {
+	var runs []int
+	for _, r := range rows {
+		y := int(r.base)
+		for x := r.x0; x < r.x1; x += 7 {
+			if y < 0 || y >= g.h || g.pix[y*g.w+x] < 96 {
+				continue
+			}
+			a, b := y, y
+			for a > 0 && g.pix[(a-1)*g.w+x] >= 96 && y-a < 40 {
+				a--
+			}
+			for b < g.h-1 && g.pix[(b+1)*g.w+x] >= 96 && b-y < 40 {
+				b++
+			}
+			runs = append(runs, b-a+1)
+		}
+	}
+	if len(runs) == 0 {
+		return 1
+	}
+	sort.Ints(runs)
+	return math.Max(0.5, float64(runs[len(runs)/4])/2)
+}
+
+// segTrace is one row segment's trace.
+type segTrace struct {
+	x0   int
+	y    []float64
+	conf []float32
+}
+
+// segBounds returns the column edges of n equal segments of the span.
+func (pg *page) segBounds(n int) []int {
+	out := make([]int, n+1)
+	w := float64(pg.x1 - pg.x0)
+	colPx := w / float64(n)
+	// Snap to 2.5 s per column of a 10 s page when close (common practice).
+	if n > 1 {
+		if d := 10.0 / float64(n) * pg.pxPerS; math.Abs(colPx-d) < 0.03*d {
+			colPx = d
+		}
+	}
+	for i := range out {
+		out[i] = pg.x0 + int(math.Round(float64(i)*colPx))
+	}
+	out[n] = max(out[n], pg.x1)
+	return out
+}
+
+func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
+	xs := pg.segBounds(n)
+	margin := int(math.Ceil(pg.halfLn + 0.3*pg.pxPerMM)) // clear of separator ticks at a boundary
+	out := make([][]segTrace, len(pg.rows))
+	for r, row := range pg.rows {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		out[r] = make([]segTrace, n)
+		for s := 0; s < n; s++ {
+			a, b := xs[s], xs[s+1]
+			ta, tb := a, b
+			if s > 0 {
+				ta += margin
+			}
+			if s < n-1 {
+				tb -= margin
+			}
+			bd := band{x0: ta, x1: min(tb, pg.g.w), home: row.base, pitch: pg.pitch, halfLine: math.Max(pg.halfLn, 1)}
+			bd.y0 = max(0, int(row.base-0.95*pg.pitch))
+			bd.y1 = min(pg.g.h, int(row.base+0.95*pg.pitch))
+			ys, cf := tracePath(pg.g, bd)
+			st := segTrace{x0: a, y: make([]float64, b-a), conf: make([]float32, b-a)}
+			for i := range st.y {
+				st.y[i] = math.NaN()
+			}
+			for i := range ys {
+				j := ta - a + i
+				if j >= 0 && j < len(st.y) {
+					st.y[j] = ys[i] + 0.5 // pixel index to continuous coordinates
+					st.conf[j] = cf[i]
+				}
+			}
+			out[r][s] = st
+		}
+	}
+	return out, nil
+}
+
+// assemble builds the panels and traces of hypothesis h from row
+// segments traced in nseg equal parts.
+func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []string) ([]Panel, []Trace) {
+	names, prow, pcol, rhythm := leadGrid(h)
+	ncols := layoutCols[h.layout]
+	per := nseg / ncols
+	xs := pg.segBounds(nseg)
+	colDur := float64(xs[per]-xs[0]) / pg.pxPerS
+	var panels []Panel
+	var traces []Trace
+	for i, name := range names {
+		r := prow[i]
+		if r >= len(segs) {
+			continue
+		}
+		s0, s1 := pcol[i]*per, (pcol[i]+1)*per
+		if rhythm[i] {
+			s0, s1 = 0, nseg
+		}
+		bx0, bx1 := xs[s0], xs[s1]
+		base := pg.rows[r].base
+		tr := Trace{Lead: name, Panel: len(panels), X0: bx0}
+		for s := s0; s < s1; s++ {
+			tr.Y = append(tr.Y, segs[r][s].y...)
+			tr.Conf = append(tr.Conf, segs[r][s].conf...)
+		}
+		if b := modeY(tr.Y); !math.IsNaN(b) {
+			base = b
+		}
+		t0 := float64(pcol[i]) * colDur
+		t1 := t0 + float64(bx1-bx0)/pg.pxPerS
+		if rhythm[i] {
+			t0, t1 = 0, float64(bx1-bx0)/pg.pxPerS
+		}
+		panels = append(panels, Panel{
+			Lead: name, Row: r, Col: pcol[i], Rhythm: rhythm[i],
+			Box: [4]float64{float64(bx0), base - 0.58*pg.pitch, float64(bx1), base + 0.42*pg.pitch},
+			T0S: t0, T1S: t1, BaselineY: base,
+		})
+		traces = append(traces, tr)
+	}
+	nameRhythms(panels, traces)
+	if len(override) > 0 {
+		for i := range panels {
+			if i < len(override) && strings.TrimSpace(override[i]) != "" {
+				n := strings.TrimSpace(override[i])
+				if !strings.HasPrefix(n, "-") {
+					n = record.CanonicalLead(n)
+				}
+				panels[i].Lead, traces[i].Lead = n, n
+			}
+		}
+	}
+	return panels, traces
+}
+
+// nameRhythms names each rhythm strip after the panel it matches over
+// that panel's window (the same lead drawn twice correlates almost
+// perfectly); strips that match nothing keep their default name.
+func nameRhythms(panels []Panel, traces []Trace) {
+	for i := range panels {
+		if !panels[i].Rhythm {
+			continue
+		}
+		bestR, bestJ := 0.0, -1
+		for j := range panels {
+			if panels[j].Rhythm {
+				continue
+			}
+			r := corrOver(traces[i], traces[j])
+			if math.Abs(r) > math.Abs(bestR) {
+				bestR, bestJ = r, j
+			}
+		}
+		if bestJ < 0 || math.Abs(bestR) < 0.9 {
+			continue
+		}
+		name := panels[bestJ].Lead
+		if bestR < 0 {
+			if strings.HasPrefix(name, "-") {
+				name = strings.TrimPrefix(name, "-")
+			} else {
+				continue
+			}
+		}
+		panels[i].Lead, traces[i].Lead = name, name
+	}
+}
+
+// corrOver is the Pearson correlation of two traces over their common
+// columns (the same columns are the same instants on the tracing clock).
+func corrOver(a, b Trace) float64 {
+	lo, hi := max(a.X0, b.X0), min(a.X0+len(a.Y), b.X0+len(b.Y))
+	var sa, sb, saa, sbb, sab, n float64
+	for x := lo; x < hi; x++ {
+		u, v := a.Y[x-a.X0], b.Y[x-b.X0]
+		if math.IsNaN(u) || math.IsNaN(v) {
+			continue
+		}
+		sa += u
+		sb += v
+		saa += u * u
+		sbb += v * v
+		sab += u * v
+		n++
+	}
+	if n < 10 {
+		return 0
+	}
+	va, vb := saa-sa*sa/n, sbb-sb*sb/n
+	if va <= 0 || vb <= 0 {
+		return 0
+	}
+	return (sab - sa*sb/n) / math.Sqrt(va*vb)
+}
+
+// windowsOf returns the column windows of simultaneous panels.
+func windowsOf(panels []Panel) []window {
+	seen := map[int]window{}
+	for _, p := range panels {
+		if p.Rhythm {
+			continue
+		}
+		if _, ok := seen[p.Col]; !ok {
+			seen[p.Col] = window{col: p.Col, t0: p.T0S, t1: p.T1S}
+		}
+	}
+	var out []window
+	for _, w := range seen {
+		out = append(out, w)
+	}
+	if len(out) == 0 { // strips only: one window over the first strip
+		for _, p := range panels {
+			out = append(out, window{col: 0, t0: p.T0S, t1: p.T1S})
+			break
+		}
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].col < out[j].col })
+	return out
+}
+
+// lawScore is the limb leads' relative disagreement with the laws:
+// residual energy over signal energy, summed over the windows.
+func lawScore(rec *record.Record, wins []window) float64 {
+	var er, es float64
+	for _, w := range wins {
+		ls := gatherLimbs(rec, w)
+		if len(ls.names) < 3 || ls.samples() < 10 {
+			continue
+		}
+		all := make([]int, len(ls.names))
+		for k := range all {
+			all[k] = k
+		}
+		e := ls.residualEnergy(all)
+		if math.IsNaN(e) {
+			continue
+		}
+		er += e
+		for _, y := range ls.y {
+			for _, v := range y {
+				es += v * v
+			}
+		}
+	}
+	if es == 0 {
+		return 0
+	}
+	return er / es
+}

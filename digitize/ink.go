@@ -1,0 +1,273 @@
+package digitize
+
+import (
+	"image"
+	"math"
+)
+
+// InkFromRGB returns an ink map of a rectified page: 255 where the pixel
+// is dark and not coloured like ECG grid paper, 0 on paper. A pixel's
+// darkness is 255 − max(R,G,B); it is scaled down by its saturation so
+// that red, pink, orange or green grid lines count for little, while
+// black, grey, navy or brown trace ink keeps its weight (the discount
+// fades with darkness). Grey grid lines
+// (photocopies, faxes) are not told apart here; the tracer removes long
+// straight lines itself. The map is stretched so that the page's own
+// paper level (its median darkness) becomes 0.
+func InkFromRGB(img *image.NRGBA) *image.Gray {
+	if img == nil {
+		return nil
+	}
+	b := img.Bounds()
+	w, h := b.Dx(), b.Dy()
+	out := image.NewGray(image.Rect(0, 0, w, h))
+	var hist [256]int
+	for y := 0; y < h; y++ {
+		row := img.Pix[y*img.Stride : y*img.Stride+4*w]
+		orow := out.Pix[y*out.Stride : y*out.Stride+w]
+		for x := 0; x < w; x++ {
+			r, g, bl, a := int(row[4*x]), int(row[4*x+1]), int(row[4*x+2]), int(row[4*x+3])
+			if a < 255 { // composite over white paper
+				r = (r*a + 255*(255-a)) / 255
+				g = (g*a + 255*(255-a)) / 255
+				bl = (bl*a + 255*(255-a)) / 255
+			}
+			mx, mn := r, r
+			if g > mx {
+				mx = g
+			}
+			if bl > mx {
+				mx = bl
+			}
+			if g < mn {
+				mn = g
+			}
+			if bl < mn {
+				mn = bl
+			}
+			dark := 255 - mx
+			// Saturation in [0,1]; a strongly coloured pixel is grid.
+			sat := 0.0
+			if mx > 0 {
+				sat = float64(mx-mn) / float64(mx)
+			}
+			// Only pale coloured pixels are discounted: a navy or brown
+			// trace is saturated too, but dark.
+			pale := 1 - float64(dark)/255
+			wgt := 1 - 1.6*sat*pale*pale
+			if wgt < 0 {
+				wgt = 0
+			}
+			v := int(float64(dark) * wgt)
+			orow[x] = uint8(v)
+			hist[v]++
+		}
+	}
+	// Stretch: paper level (median) to 0.
+	med := percentileHist(hist[:], w*h, 0.5)
+	if med > 0 && med < 200 {
+		k := 255.0 / float64(255-med)
+		var lut [256]uint8
+		for v := range lut {
+			lut[v] = clampU8(float64(v-med) * k)
+		}
+		for i, v := range out.Pix {
+			out.Pix[i] = lut[v]
+		}
+	}
+	return out
+}
+
+func clampU8(v float64) uint8 {
+	switch {
+	case v <= 0 || math.IsNaN(v):
+		return 0
+	case v >= 255:
+		return 255
+	}
+	return uint8(v + 0.5)
+}
+
+// percentileHist returns the smallest value v with at least q·n samples
+// at or below it.
+func percentileHist(hist []int, n int, q float64) int {
+	k := int(q * float64(n))
+	c := 0
+	for v, h := range hist {
+		c += h
+		if c > k {
+			return v
+		}
+	}
+	return len(hist) - 1
+}
+
+// gray is a plain 8-bit map with its own width and height (no offset).
+type gray struct {
+	w, h int
+	pix  []uint8
+}
+
+func (g *gray) at(x, y int) uint8 { return g.pix[y*g.w+x] }
+
+// prepare turns an ink map into the tracer's working map: a small blur
+// (merges fax dithering and JPEG speckle into strokes), then removal of
+// long straight lines: in every stretch of segLen pixels of a row (then
+// of a column) the 20th percentile of the ink is subtracted. A grid line
+// covers nearly all of its row or column and goes; a trace covers far less
+// than 80 % of any such stretch and stays, and so does the paper level.
+func prepare(ink *image.Gray, pxPerMM float64) *gray {
+	b := ink.Bounds()
+	w, h := b.Dx(), b.Dy()
+	src := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for y := 0; y < h; y++ {
+		copy(src.pix[y*w:(y+1)*w], ink.Pix[y*ink.Stride:y*ink.Stride+w])
+	}
+	r := int(math.Round(0.1 * pxPerMM)) // about 0.1 mm: a third of a fine trace
+	if r < 1 {
+		r = 1
+	}
+	if r > 3 {
+		r = 3
+	}
+	bl := boxBlur(src, r)
+	seg := int(math.Round(40 * pxPerMM)) // 40 mm: 1.6 s at 25 mm/s, 4 mV at 10 mm/mV
+	if seg < 64 {
+		seg = 64
+	}
+	suppressRows(bl, seg, 0.2)
+	suppressCols(bl, seg, 0.2)
+	return bl
+}
+
+// boxBlur returns a (2r+1)² box blur of g (edges clamped).
+func boxBlur(g *gray, r int) *gray {
+	w, h := g.w, g.h
+	tmp := make([]uint16, w*h)
+	n := 2*r + 1
+	for y := 0; y < h; y++ {
+		row := g.pix[y*w : (y+1)*w]
+		o := tmp[y*w : (y+1)*w]
+		s := 0
+		for k := -r; k <= r; k++ {
+			s += int(row[clampI(k, 0, w-1)])
+		}
+		for x := 0; x < w; x++ {
+			o[x] = uint16(s)
+			s += int(row[clampI(x+r+1, 0, w-1)]) - int(row[clampI(x-r, 0, w-1)])
+		}
+	}
+	out := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	acc := make([]int, w)
+	for k := -r; k <= r; k++ {
+		yy := clampI(k, 0, h-1)
+		for x := 0; x < w; x++ {
+			acc[x] += int(tmp[yy*w+x])
+		}
+	}
+	d := n * n
+	for y := 0; y < h; y++ {
+		o := out.pix[y*w : (y+1)*w]
+		for x := 0; x < w; x++ {
+			o[x] = uint8((acc[x] + d/2) / d)
+		}
+		ya, yb := clampI(y+r+1, 0, h-1), clampI(y-r, 0, h-1)
+		ra, rb := tmp[ya*w:(ya+1)*w], tmp[yb*w:(yb+1)*w]
+		for x := 0; x < w; x++ {
+			acc[x] += int(ra[x]) - int(rb[x])
+		}
+	}
+	return out
+}
+
+func clampI(v, lo, hi int) int {
+	if v < lo {
+		return lo
+	}
+	if v > hi {
+		return hi
+	}
+	return v
+}
+
+func suppressRows(g *gray, seg int, q float64) {
+	var hist [256]int
+	for y := 0; y < g.h; y++ {
+		row := g.pix[y*g.w : (y+1)*g.w]
+		for x0 := 0; x0 < g.w; x0 += seg {
+			x1 := min(x0+seg, g.w)
+			if g.w-x1 < seg/2 { // fold a short tail into this segment
+				x1 = g.w
+			}
+			hist = [256]int{}
+			for _, v := range row[x0:x1] {
+				hist[v]++
+			}
+			p := uint8(percentileHist(hist[:], x1-x0, q))
+			if p > 0 {
+				for x := x0; x < x1; x++ {
+					if row[x] > p {
+						row[x] -= p
+					} else {
+						row[x] = 0
+					}
+				}
+			}
+			if x1 == g.w {
+				break
+			}
+		}
+	}
+}
+
+func suppressCols(g *gray, seg int, q float64) {
+	w := g.w
+	hist := make([]uint16, w*256)
+	lvl := make([]uint8, w)
+	for y0 := 0; y0 < g.h; y0 += seg {
+		y1 := min(y0+seg, g.h)
+		if g.h-y1 < seg/2 {
+			y1 = g.h
+		}
+		clear(hist)
+		for y := y0; y < y1; y++ {
+			row := g.pix[y*w : (y+1)*w]
+			for x, v := range row {
+				hist[x*256+int(v)]++
+			}
+		}
+		k := int(q * float64(y1-y0))
+		any := false
+		for x := 0; x < w; x++ {
+			h := hist[x*256 : x*256+256]
+			c := 0
+			lvl[x] = 255
+			for v, n := range h {
+				c += int(n)
+				if c > k {
+					lvl[x] = uint8(v)
+					break
+				}
+			}
+			if lvl[x] > 0 {
+				any = true
+			}
+		}
+		if any {
+			for y := y0; y < y1; y++ {
+				row := g.pix[y*w : (y+1)*w]
+				for x, v := range row {
+					p := lvl[x]
+					if v > p {
+						row[x] = v - p
+					} else {
+						row[x] = 0
+					}
+				}
+			}
+		}
+		if y1 == g.h {
+			break
+		}
+	}
+}

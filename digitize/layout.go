@@ -1,0 +1,306 @@
+package digitize
+
+import (
+	"math"
+	"sort"
+)
+
+// rowInfo is one row of traces found on the page.
+type rowInfo struct {
+	base   float64 // baseline (the row's densest ink level), px
+	x0, x1 int     // the trace's first and last inked column, excluding any pulse
+}
+
+// findRows finds the rows of traces from the horizontal ink profile: the
+// isoelectric level of a trace is the densest line of ink in its row.
+// Candidates whose ink does not run a long way across the page (header
+// text, lead labels) are dropped.
+func findRows(g *gray, pxPerMM float64) []rowInfo {
+	prof := make([]float64, g.h)
+	for y := 0; y < g.h; y++ {
+		s := 0
+		for _, v := range g.pix[y*g.w : (y+1)*g.w] {
+			s += int(v)
+		}
+		prof[y] = float64(s)
+	}
+	prof = gaussSmooth(prof, 1.0*pxPerMM)
+	mx := 0.0
+	for _, v := range prof {
+		mx = math.Max(mx, v)
+	}
+	if mx == 0 {
+		return nil
+	}
+	win := int(4 * pxPerMM) // rows are at least ~14 mm apart on any layout we read
+	var cands []int
+	for y := 1; y < g.h-1; y++ {
+		if prof[y] < 0.12*mx {
+			continue
+		}
+		ok := true
+		for d := -win; d <= win && ok; d++ {
+			j := y + d
+			if j < 0 || j >= g.h || d == 0 {
+				continue
+			}
+			if prof[j] > prof[y] || (prof[j] == prof[y] && j < y) {
+				ok = false
+			}
+		}
+		if ok {
+			cands = append(cands, y)
+		}
+	}
+	var rows []rowInfo
+	longest := 0
+	type ext struct{ x0, x1, run int }
+	exts := make([]ext, len(cands))
+	for i, y := range cands {
+		x0, x1, run := inkSpan(g, y-int(6*pxPerMM), y+int(6*pxPerMM), pxPerMM)
+		exts[i] = ext{x0, x1, run}
+		longest = max(longest, run)
+	}
+	for i, y := range cands {
+		if exts[i].run < int(0.55*float64(longest)) || exts[i].run < int(20*pxPerMM) {
+			continue
+		}
+		rows = append(rows, rowInfo{base: float64(y) + 0.5, x0: exts[i].x0, x1: exts[i].x1})
+	}
+	// Two candidates closer than 0.45 of the median spacing are one row.
+	if len(rows) > 2 {
+		var gaps []float64
+		for i := 1; i < len(rows); i++ {
+			gaps = append(gaps, rows[i].base-rows[i-1].base)
+		}
+		sort.Float64s(gaps)
+		med := gaps[len(gaps)/2]
+		var keep []rowInfo
+		for _, r := range rows {
+			if n := len(keep); n > 0 && r.base-keep[n-1].base < 0.45*med {
+				if prof[int(r.base)] > prof[int(keep[n-1].base)] {
+					keep[n-1] = r
+				}
+				continue
+			}
+			keep = append(keep, r)
+		}
+		rows = keep
+	}
+	return rows
+}
+
+// inkSpan looks at the rows [ya, yb) and returns the first and last
+// column of the longest stretch of columns holding ink (gaps up to 3 mm
+// are bridged) that is not a calibration pulse, and the stretch's length.
+func inkSpan(g *gray, ya, yb int, pxPerMM float64) (x0, x1, run int) {
+	ya, yb = max(ya, 0), min(yb, g.h)
+	has := make([]bool, g.w)
+	for y := ya; y < yb; y++ {
+		row := g.pix[y*g.w : (y+1)*g.w]
+		for x, v := range row {
+			if v >= 64 {
+				has[x] = true
+			}
+		}
+	}
+	gap := int(3 * pxPerMM)
+	bestA, bestB := -1, -1
+	a, last := -1, -1
+	flush := func() {
+		if a >= 0 && last-a > bestB-bestA {
+			bestA, bestB = a, last
+		}
+	}
+	for x, h := range has {
+		if !h {
+			continue
+		}
+		if a < 0 || x-last > gap {
+			flush()
+			a = x
+		}
+		last = x
+	}
+	flush()
+	if bestA < 0 {
+		return 0, 0, 0
+	}
+	return bestA, bestB, bestB - bestA + 1
+}
+
+// gaussSmooth convolves v with a Gaussian of standard deviation sigma.
+func gaussSmooth(v []float64, sigma float64) []float64 {
+	r := int(math.Ceil(3 * sigma))
+	if r < 1 {
+		return append([]float64(nil), v...)
+	}
+	k := make([]float64, 2*r+1)
+	s := 0.0
+	for i := range k {
+		d := float64(i - r)
+		k[i] = math.Exp(-d * d / (2 * sigma * sigma))
+		s += k[i]
+	}
+	out := make([]float64, len(v))
+	for i := range v {
+		acc := 0.0
+		for j, kw := range k {
+			acc += kw * v[clampI(i+j-r, 0, len(v)-1)]
+		}
+		out[i] = acc / s
+	}
+	return out
+}
+
+// pulseEnd returns the first column right of any calibration pulse at the
+// left of a row starting at x0 around baseline base: a pair of vertical
+// strokes at least 0.6 mV tall, 100–300 ms apart, within the first
+// stretch of the row (common practice: a 1 mV, 200 ms square pulse). It
+// returns x0 when none is found.
+func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) int {
+	tall := 0.6 * gain * pxPerMM
+	ya, yb := max(0, int(base-0.9*pitch)), min(g.h, int(base+0.4*pitch))
+	// The pulse's flat top may sit outside the band the row's span was
+	// found in, so look from a pulse's width left of x0 too.
+	from := max(0, x0-int((0.3*speed+3)*pxPerMM))
+	lim := min(x1, x0+int((0.35*speed+6)*pxPerMM))
+	var strokes []int
+	for x := from; x < lim; x++ {
+		run, best := 0, 0
+		for y := ya; y < yb; y++ {
+			if g.pix[y*g.w+x] >= 64 {
+				run++
+				best = max(best, run)
+			} else {
+				run = 0
+			}
+		}
+		if float64(best) >= tall {
+			if n := len(strokes); n == 0 || x-strokes[n-1] > 2 {
+				strokes = append(strokes, x)
+			} else {
+				strokes[n-1] = x // keep the stroke's right edge
+			}
+		}
+	}
+	for i := 0; i+1 < len(strokes); i++ {
+		d := float64(strokes[i+1]-strokes[i]) / (pxPerMM * speed)
+		if d >= 0.1 && d <= 0.3 {
+			// Skip the flat lead-out after the fall to the first gap.
+			x := strokes[i+1] + 1
+			for x < x1 && x < strokes[i+1]+int(4*pxPerMM) {
+				inked := false
+				for y := max(0, int(base-0.15*pitch)); y < min(g.h, int(base+0.15*pitch)); y++ {
+					if g.pix[y*g.w+x] >= 64 {
+						inked = true
+						break
+					}
+				}
+				if !inked {
+					break
+				}
+				x++
+			}
+			for x < x1 { // and over the gap to the trace
+				inked := false
+				for y := ya; y < yb; y++ {
+					if g.pix[y*g.w+x] >= 128 {
+						inked = true
+						break
+					}
+				}
+				if inked {
+					break
+				}
+				x++
+			}
+			return max(x, x0)
+		}
+	}
+	return x0
+}
+
+// hypothesis is one reading of the page: a layout and a lead order.
+type hypothesis struct {
+	layout  string
+	cabrera bool
+}
+
+// layoutRows is the number of rows each layout draws.
+var layoutRows = map[string]int{"3x4": 3, "3x4+1": 4, "3x4+3": 6, "6x2": 6, "12x1": 12, "1x1": 1}
+
+// layoutCols is the number of columns of panels.
+var layoutCols = map[string]int{"3x4": 4, "3x4+1": 4, "3x4+3": 4, "6x2": 2, "12x1": 1, "1x1": 1}
+
+// candidates lists the readings to try for n rows.
+func candidates(n int, opt Options) []hypothesis {
+	var lays []string
+	if opt.Layout != "" {
+		lays = []string{opt.Layout}
+	} else {
+		for l, r := range layoutRows {
+			if r == n {
+				lays = append(lays, l)
+			}
+		}
+		sort.Strings(lays)
+	}
+	var out []hypothesis
+	for _, l := range lays {
+		switch opt.LeadOrder {
+		case "standard":
+			out = append(out, hypothesis{l, false})
+		case "cabrera":
+			out = append(out, hypothesis{l, true})
+		default:
+			out = append(out, hypothesis{l, false})
+			if l != "1x1" {
+				out = append(out, hypothesis{l, true})
+			}
+		}
+	}
+	return out
+}
+
+// leadGrid returns the printed lead names of the panels of a layout in
+// reading order (row by row, left to right; rhythm strips last, named by
+// default II, V1, V5).
+func leadGrid(h hypothesis) (names []string, rows, cols []int, rhythm []bool) {
+	limb := []string{"I", "II", "III", "aVR", "aVL", "aVF"}
+	if h.cabrera {
+		limb = []string{"aVL", "I", "-aVR", "II", "aVF", "III"}
+	}
+	all := append(append([]string{}, limb...), "V1", "V2", "V3", "V4", "V5", "V6")
+	add := func(n string, r, c int, rh bool) {
+		names = append(names, n)
+		rows = append(rows, r)
+		cols = append(cols, c)
+		rhythm = append(rhythm, rh)
+	}
+	switch h.layout {
+	case "3x4", "3x4+1", "3x4+3":
+		for r := 0; r < 3; r++ {
+			for c := 0; c < 4; c++ {
+				add(all[3*c+r], r, c, false)
+			}
+		}
+		strips := map[string][]string{"3x4+1": {"II"}, "3x4+3": {"II", "V1", "V5"}}[h.layout]
+		for i, s := range strips {
+			add(s, 3+i, 0, true)
+		}
+	case "6x2":
+		for r := 0; r < 6; r++ {
+			for c := 0; c < 2; c++ {
+				add(all[6*c+r], r, c, false)
+			}
+		}
+	case "12x1":
+		for r, n := range all {
+			add(n, r, 0, false)
+		}
+	case "1x1":
+		add("II", 0, 0, true)
+	}
+	return
+}

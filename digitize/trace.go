@@ -1,0 +1,323 @@
+package digitize
+
+import (
+	"math"
+	"sort"
+)
+
+// Path costs of the tracer. A path pays, per column, for how far its
+// pixel is from being ink ("paperness", 0 on solid ink, 1 on paper), and
+// per pixel of vertical travel within a column moveInk plus movePaper
+// times the paperness of the pixels it crosses. Moving along a vertical
+// run of ink (a steep QRS stroke) is therefore nearly free, and jumping
+// across paper costs as much as a column of paper per pixel.
+const (
+	inkSolid  = 0.5   // normalised ink at or above this is solid (paperness 0)
+	movePaper = 1.0   // cost per pixel of vertical travel across paper
+	moveInk   = 0.001 // cost per pixel of vertical travel along ink: a 300 px R wave up and down costs 0.6 columns of paper
+	homePull  = 2.0   // cost per column at one row pitch from the row's baseline, growing with the square beyond half a pitch
+	runThresh = 0.3   // normalised ink that still belongs to a stroke when finding its centre
+)
+
+// band is the part of the working map one panel is traced in.
+type band struct {
+	x0, x1   int     // columns [x0, x1)
+	y0, y1   int     // rows [y0, y1)
+	home     float64 // expected baseline row
+	pitch    float64 // row pitch in px
+	halfLine float64 // allowance for half a line width, px
+}
+
+// tracePath follows one trace through b by dynamic programming over the
+// columns and returns, per column, the sub-pixel centre y (NaN where the
+// trace is lost) and a confidence in [0,1].
+func tracePath(g *gray, b band) (ys []float64, conf []float32) {
+	W, H := b.x1-b.x0, b.y1-b.y0
+	if W <= 0 || H <= 2 {
+		return nil, nil
+	}
+	// Normalise ink: the median over columns of the column maximum is the
+	// strength of the trace's core (the trace crosses every column).
+	colMax := make([]int, W)
+	for x := 0; x < W; x++ {
+		m := 0
+		for y := b.y0; y < b.y1; y++ {
+			if v := int(g.pix[y*g.w+b.x0+x]); v > m {
+				m = v
+			}
+		}
+		colMax[x] = m
+	}
+	sorted := append([]int(nil), colMax...)
+	sort.Ints(sorted)
+	norm := float64(sorted[len(sorted)/2])
+	if norm < 24 { // nearly empty band: still trace whatever is there
+		norm = math.Max(float64(sorted[len(sorted)-1]), 1)
+	}
+	var paperLUT, inkLUT [256]float32
+	for v := range paperLUT {
+		in := float64(v) / norm
+		inkLUT[v] = float32(math.Min(in, 1))
+		paperLUT[v] = float32(math.Max(0, 1-in/inkSolid))
+	}
+	// Home prior per row.
+	prior := make([]float32, H)
+	for i := range prior {
+		d := math.Abs(float64(b.y0+i)-b.home) / b.pitch
+		if d > 0.5 {
+			prior[i] = float32(homePull * (d - 0.5) * (d - 0.5) * 4)
+		}
+	}
+	back := make([]int16, W*H)
+	D := make([]float32, H)
+	M := make([]float32, H)
+	S := make([]int16, H)
+	pap := make([]float32, H)
+	for x := 0; x < W; x++ {
+		col := b.x0 + x
+		for i := 0; i < H; i++ {
+			pap[i] = paperLUT[g.pix[(b.y0+i)*g.w+col]]
+		}
+		if x == 0 {
+			for i := 0; i < H; i++ {
+				D[i] = pap[i] + prior[i]
+				back[i] = int16(i)
+			}
+			continue
+		}
+		// Distance transform along the column chain: M[i] = min over j of
+		// D[j] + cost of moving from j to i within this column.
+		for i := 0; i < H; i++ {
+			M[i], S[i] = D[i], int16(i)
+		}
+		for i := 1; i < H; i++ {
+			c := M[i-1] + moveInk + movePaper*0.5*(pap[i-1]+pap[i])
+			if c < M[i] {
+				M[i], S[i] = c, S[i-1]
+			}
+		}
+		for i := H - 2; i >= 0; i-- {
+			c := M[i+1] + moveInk + movePaper*0.5*(pap[i+1]+pap[i])
+			if c < M[i] {
+				M[i], S[i] = c, S[i+1]
+			}
+		}
+		row := back[x*H : (x+1)*H]
+		for i := 0; i < H; i++ {
+			D[i] = M[i] + pap[i] + prior[i]
+			row[i] = S[i]
+		}
+	}
+	best := 0
+	for i := 1; i < H; i++ {
+		if D[i] < D[best] {
+			best = i
+		}
+	}
+	path := make([]int, W)
+	path[W-1] = best
+	for x := W - 1; x > 0; x-- {
+		path[x-1] = int(back[x*H+path[x]])
+	}
+	// The path value at x is where it leaves column x; it entered at
+	// path[x-1] (when it moved within x). The stroke in column x is the
+	// run of ink holding both; the centre line spans the run less half a
+	// line width at each end.
+	ys = make([]float64, W)
+	conf = make([]float32, W)
+	runA := make([]int, W)
+	runZ := make([]int, W)
+	upper := make([]float64, W)
+	lower := make([]float64, W)
+	maxExt := int(math.Max(0.4*b.pitch, 6*b.halfLine))
+	hw := b.halfLine
+	for x := 0; x < W; x++ {
+		col := b.x0 + x
+		p := path[x]
+		q := p
+		if x > 0 {
+			q = path[x-1]
+		}
+		lo, hi := min(p, q), max(p, q)
+		at := func(i int) float32 { return inkLUT[g.pix[(b.y0+i)*g.w+col]] }
+		runA[x], runZ[x] = -1, -1
+		if at(p) < runThresh {
+			found := -1
+			for d := 1; d <= 2 && found < 0; d++ {
+				if p-d >= 0 && at(p-d) >= runThresh {
+					found = p - d
+				} else if p+d < H && at(p+d) >= runThresh {
+					found = p + d
+				}
+			}
+			if found < 0 {
+				ys[x] = math.NaN()
+				continue
+			}
+			lo, hi = min(lo, found), max(hi, found)
+		}
+		a, z := lo, hi
+		for k := 0; k < maxExt && a > 0 && at(a-1) >= runThresh; k++ {
+			a--
+		}
+		for k := 0; k < maxExt && z < H-1 && at(z+1) >= runThresh; k++ {
+			z++
+		}
+		runA[x], runZ[x] = a, z
+		peak := 0.0
+		var sw, swy float64
+		for i := a; i <= z; i++ {
+			v := float64(at(i))
+			sw += v
+			swy += v * float64(i)
+			peak = math.Max(peak, v)
+		}
+		// The centre line in this column spans the run less half a line
+		// width at each end; a short run (a flat stretch) gives its
+		// ink-weighted centre.
+		if float64(z-a+1) <= 2*hw+3 {
+			ys[x] = float64(b.y0) + swy/sw
+			upper[x], lower[x] = ys[x], ys[x]
+		} else {
+			upper[x], lower[x] = float64(b.y0+a)+hw, float64(b.y0+z)-hw
+		}
+		c := peak
+		if p == 0 || p == H-1 {
+			c *= 0.3 // pinned at the band edge: probably clipped or lost
+		}
+		conf[x] = float32(c)
+	}
+	// A thick line shows in each column the stroke's values over about
+	// ±(half a line width) of columns around it: a running max/min
+	// (dilation). Opening it with a window of that size recovers the
+	// centre line: on a monotone stroke both ends meet at the value at the
+	// column's centre; at a tip one end keeps the extreme, the other is
+	// pulled toward the flanks; the flanks say which one.
+	K := max(1, int(math.Round(hw)))
+	ah := make([]float64, W)
+	zh := make([]float64, W)
+	for x := 0; x < W; x++ {
+		ah[x], zh[x] = math.NaN(), math.NaN()
+		if runA[x] < 0 {
+			continue
+		}
+		mx, mn := math.Inf(-1), math.Inf(1)
+		for d := -K; d <= K; d++ {
+			j := x + d
+			if j < 0 || j >= W || runA[j] < 0 {
+				continue
+			}
+			mx = math.Max(mx, upper[j])
+			mn = math.Min(mn, lower[j])
+		}
+		ah[x], zh[x] = mx, mn
+	}
+	for x := 0; x < W; x++ {
+		if runA[x] < 0 {
+			continue
+		}
+		A, Z := ah[x], zh[x]
+		if Z-A <= 1 {
+			ys[x] = (A + Z) / 2
+			continue
+		}
+		mid := (A + Z) / 2
+		var nb, nn float64
+		for _, j := range []int{x - 2*K - 1, x + 2*K + 1} {
+			if j >= 0 && j < W && runA[j] >= 0 {
+				nb += (ah[j] + zh[j]) / 2
+				nn++
+			}
+		}
+		switch {
+		case nn == 0:
+			ys[x] = mid
+		case nb/nn < mid: // the flanks are higher on the page: a trough
+			ys[x] = Z
+		default: // a peak
+			ys[x] = A
+		}
+	}
+	fillShortGaps(ys, conf, 0)
+	return ys, conf
+}
+
+// fillShortGaps interpolates across runs of NaN no longer than maxGap
+// columns (0: any length strictly inside the trace is kept as NaN when
+// longer than 24 columns). Filled columns get confidence 0.
+func fillShortGaps(ys []float64, conf []float32, maxGap int) {
+	if maxGap <= 0 {
+		maxGap = 24
+	}
+	n := len(ys)
+	for i := 0; i < n; {
+		if !math.IsNaN(ys[i]) {
+			i++
+			continue
+		}
+		j := i
+		for j < n && math.IsNaN(ys[j]) {
+			j++
+		}
+		if j-i <= maxGap {
+			switch {
+			case i > 0 && j < n:
+				a, bb := ys[i-1], ys[j]
+				for k := i; k < j; k++ {
+					f := float64(k-i+1) / float64(j-i+1)
+					ys[k] = a*(1-f) + bb*f
+				}
+			case i > 0:
+				for k := i; k < j; k++ {
+					ys[k] = ys[i-1]
+				}
+			case j < n:
+				for k := i; k < j; k++ {
+					ys[k] = ys[j]
+				}
+			}
+		}
+		i = j
+	}
+}
+
+// modeY returns the most common value of ys (0.5 px bins, lightly
+// smoothed): the isoelectric level of a trace.
+func modeY(ys []float64) float64 {
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, v := range ys {
+		if !math.IsNaN(v) {
+			lo, hi = math.Min(lo, v), math.Max(hi, v)
+		}
+	}
+	if math.IsInf(lo, 1) {
+		return math.NaN()
+	}
+	nb := int((hi-lo)/0.5) + 1
+	h := make([]float64, nb+4)
+	for _, v := range ys {
+		if !math.IsNaN(v) {
+			h[int((v-lo)/0.5)+2]++
+		}
+	}
+	best, bi := -1.0, 0
+	for i := 2; i < nb+2; i++ {
+		s := h[i-2] + 2*h[i-1] + 3*h[i] + 2*h[i+1] + h[i+2]
+		if s > best {
+			best, bi = s, i
+		}
+	}
+	// Refine: mean of the samples within ±1.5 px of the peak bin.
+	c := lo + float64(bi-2)*0.5 + 0.25
+	var s, n float64
+	for _, v := range ys {
+		if !math.IsNaN(v) && math.Abs(v-c) <= 1.5 {
+			s += v
+			n++
+		}
+	}
+	if n > 0 {
+		return s / n
+	}
+	return c
+}
