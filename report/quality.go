@@ -8,7 +8,7 @@ import (
 // quality draws the per-lead quality figures as small bars, then the
 // notes and the flags, inside [x, x1] × [y0, y1].
 func (c *canvas) quality(x, y0, x1, y1 float64, s *Summary) {
-	y := y0 - 5.6 // the lists start at the top when there is no quality table
+	y := y0 - 2 // the lists start at the top when there is no quality table
 	if len(s.Quality) > 0 {
 		c.heading(x, y0, "Tracing quality")
 		y = y0 + 4.6

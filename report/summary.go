@@ -40,8 +40,9 @@ type Summary struct {
 	Caution      string    // required; printed on every page
 
 	// Source is the image the leads were traced from (page 2), and
-	// Overlay the traced leads drawn over it, in Source's pixel space
-	// (x right, y down, origin at Source.Bounds().Min). Page 2 is left out
+	// Overlay the traced leads drawn over it, in Source's own pixel
+	// coordinates (x right, y down; pixel (x, y) covers [x, x+1) ×
+	// [y, y+1), so Bounds().Min is the top-left edge). Page 2 is left out
 	// when Source is nil.
 	Source  image.Image
 	Overlay []Polyline
