@@ -281,9 +281,10 @@ type segTrace struct {
 	conf []float32
 }
 
-// segBounds returns the column edges of n equal segments of the span.
-func (pg *page) segBounds(n int) []int {
-	out := make([]int, n+1)
+// segBounds returns the column edges of n equal segments of the span,
+// in continuous px.
+func (pg *page) segBounds(n int) []float64 {
+	out := make([]float64, n+1)
 	w := float64(pg.x1 - pg.x0)
 	colPx := w / float64(n)
 	// Snap to 2.5 s per column of a 10 s page when close (common practice).
@@ -293,9 +294,9 @@ func (pg *page) segBounds(n int) []int {
 		}
 	}
 	for i := range out {
-		out[i] = pg.x0 + int(math.Round(float64(i)*colPx))
+		out[i] = float64(pg.x0) + float64(i)*colPx
 	}
-	out[n] = max(out[n], pg.x1)
+	out[n] = math.Max(out[n], float64(pg.x1))
 	return out
 }
 
@@ -309,7 +310,7 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 		}
 		out[r] = make([]segTrace, n)
 		for s := 0; s < n; s++ {
-			a, b := xs[s], xs[s+1]
+			a, b := int(math.Round(xs[s])), int(math.Round(xs[s+1]))
 			ta, tb := a, b
 			if s > 0 {
 				ta += margin
@@ -345,7 +346,7 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 	ncols := layoutCols[h.layout]
 	per := nseg / ncols
 	xs := pg.segBounds(nseg)
-	colDur := float64(xs[per]-xs[0]) / pg.pxPerS
+	colDur := (xs[per] - xs[0]) / pg.pxPerS
 	var panels []Panel
 	var traces []Trace
 	for i, name := range names {
@@ -359,7 +360,7 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 		}
 		bx0, bx1 := xs[s0], xs[s1]
 		base := pg.rows[r].base
-		tr := Trace{Lead: name, Panel: len(panels), X0: bx0}
+		tr := Trace{Lead: name, Panel: len(panels), X0: segs[r][s0].x0}
 		for s := s0; s < s1; s++ {
 			tr.Y = append(tr.Y, segs[r][s].y...)
 			tr.Conf = append(tr.Conf, segs[r][s].conf...)
@@ -368,13 +369,13 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 			base = b
 		}
 		t0 := float64(pcol[i]) * colDur
-		t1 := t0 + float64(bx1-bx0)/pg.pxPerS
+		t1 := t0 + (bx1-bx0)/pg.pxPerS
 		if rhythm[i] {
-			t0, t1 = 0, float64(bx1-bx0)/pg.pxPerS
+			t0, t1 = 0, (bx1-bx0)/pg.pxPerS
 		}
 		panels = append(panels, Panel{
 			Lead: name, Row: r, Col: pcol[i], Rhythm: rhythm[i],
-			Box: [4]float64{float64(bx0), base - 0.58*pg.pitch, float64(bx1), base + 0.42*pg.pitch},
+			Box: [4]float64{bx0, base - 0.58*pg.pitch, bx1, base + 0.42*pg.pitch},
 			T0S: t0, T1S: t1, BaselineY: base,
 		})
 		traces = append(traces, tr)
