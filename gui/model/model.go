@@ -255,9 +255,9 @@ func (m *Model) recompute() {
 			return
 		}
 		if i := nearestPanel(panels, cur, c.Lead, c.Box); i >= 0 {
-			dy := c.Box[1] - panels[i].Box[1]
+			// The zero line stays where it was (the Baseline tool moves
+			// it): a box move changes which pixels are read, not their mV.
 			copy(panels[i].Box[:], c.Box)
-			panels[i].BaselineY += dy // the baseline travels with its box
 			moved = true
 			fmt.Fprintf(&boxKey, "%d:%v;", i, c.Box)
 		}

@@ -1,0 +1,383 @@
+package gui
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"path/filepath"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/widget"
+
+	"tracelift/gui/model"
+	"tracelift/record"
+)
+
+// Controller ties the window to the model: it starts the slow work in
+// goroutines, hands results back on the UI goroutine with fyne.Do, and
+// refreshes the screens after each edit.
+type Controller struct {
+	app  fyne.App
+	win  fyne.Window
+	b    model.Backend
+	m    *model.Model
+	demo model.Source
+
+	view     *printView
+	side     *sidePanel
+	findings *findingsView
+	status   *widget.Label
+	progress *widget.ProgressBar
+	toolBar  *widget.RadioGroup
+
+	mu     sync.Mutex
+	cancel context.CancelFunc
+	gen    int // which load is current
+	jobs   sync.WaitGroup
+	busy   atomic.Bool
+
+	// OnLoaded is called (on the UI goroutine) after each printout is
+	// shown; the app's --screenshot flag hooks in here.
+	OnLoaded func(err error)
+	// Ask replaces the yes/no dialog (tests answer without a window).
+	Ask func(title, msg string, answer func(bool))
+}
+
+// NewController builds the window over a backend; demo is what opens
+// first.
+func NewController(a fyne.App, b model.Backend, demo model.Source) *Controller {
+	c := &Controller{app: a, b: b, m: model.New(b), demo: demo}
+	c.win = a.NewWindow("tracelift")
+	c.build()
+	return c
+}
+
+// Window returns the main window.
+func (c *Controller) Window() fyne.Window { return c.win }
+
+// Model returns the model (tests read it).
+func (c *Controller) Model() *model.Model { return c.m }
+
+// Wait blocks until the background work started so far has ended.
+func (c *Controller) Wait() { c.jobs.Wait() }
+
+// Busy reports whether a reading is under way.
+func (c *Controller) Busy() bool { return c.busy.Load() }
+
+func (c *Controller) build() {
+	c.view = newPrintView(c)
+	c.side = newSidePanel(c)
+	c.findings = newFindingsView(c)
+	c.status = widget.NewLabel("")
+	c.status.Truncation = fyne.TextTruncateEllipsis
+	c.progress = widget.NewProgressBar()
+	c.progress.Hide()
+	c.toolBar = widget.NewRadioGroup(toolNames, func(s string) {
+		for i, n := range toolNames {
+			if n == s {
+				c.view.setTool(Tool(i))
+				c.setStatus(toolHelp[i])
+			}
+		}
+	})
+	c.toolBar.Horizontal = true
+	c.toolBar.Required = true
+	c.toolBar.SetSelected(toolNames[0])
+
+	tabs := container.NewAppTabs(
+		container.NewTabItem("Reading", c.side.obj),
+		container.NewTabItem("Findings", c.findings.obj),
+	)
+	split := container.NewHSplit(c.view, tabs)
+	split.Offset = 0.70
+	top := container.NewHBox(widget.NewLabel("Tool:"), c.toolBar, widget.NewSeparator(),
+		widget.NewButton("Undo", c.undo), widget.NewButton("Redo", c.redo), widget.NewSeparator(),
+		widget.NewButton("Whole page", func() { c.view.fit = true; c.view.Refresh() }))
+	caution := widget.NewLabel(model.Caution)
+	caution.Wrapping = fyne.TextWrapWord
+	caution.Importance = widget.WarningImportance
+	bottom := container.NewVBox(caution, container.NewBorder(nil, nil, nil, container.NewGridWrap(fyne.NewSize(220, 20), c.progress), c.status))
+	c.win.SetContent(container.NewBorder(top, bottom, nil, nil, split))
+	c.win.SetMainMenu(c.menu())
+	c.shortcuts()
+	c.win.SetOnDropped(func(_ fyne.Position, uris []fyne.URI) {
+		for _, u := range uris {
+			if u.Scheme() == "file" {
+				c.OpenPath(u.Path())
+				return
+			}
+		}
+	})
+	c.win.Resize(fyne.NewSize(1360, 860))
+}
+
+var toolHelp = []string{
+	"Look: drag to pan, wheel to zoom, click a panel to choose it.",
+	"Shift: drag across a stretch to choose it, then drag inside it up or down.",
+	"Redraw: draw the trace freehand along the panel; it replaces what is under the stroke.",
+	"Erase: drag across a stretch; it becomes a gap.",
+	"Baseline: drag in a panel up or down to move its zero line.",
+	"Box: drag a panel to move its box; its signal is read again.",
+	"Scale: click two grid lines a known distance apart.",
+}
+
+func (c *Controller) setStatus(s string) { c.status.SetText(s) }
+
+// ShowDemo opens the embedded demo printout.
+func (c *Controller) ShowDemo() { c.Open(c.demo, model.Found{}) }
+
+// OpenPath opens an image file: it looks for the project file beside it
+// first and asks before using one made for another image.
+func (c *Controller) OpenPath(path string) {
+	src := model.Source{Path: path, Name: filepath.Base(path)}
+	c.setStatus("Opening " + src.Name + "…")
+	c.jobs.Add(1)
+	go func() {
+		defer c.jobs.Done()
+		found := model.FindProject(path)
+		fyne.Do(func() { c.openFound(src, found) })
+	}()
+}
+
+func (c *Controller) openFound(src model.Source, found model.Found) {
+	if found.Err != nil && found.SHA256 == "" {
+		c.failed(src, found.Err)
+		return
+	}
+	if found.Err != nil { // a project file we cannot read: keep it, start afresh
+		kept, err := model.SetAside(found.Path, time.Now())
+		msg := fmt.Sprintf("The project file beside this image could not be read (%v).", found.Err)
+		if err == nil {
+			msg += "\nIt was kept as " + filepath.Base(kept) + "; a new one is started."
+		} else {
+			msg += "\nIt is left untouched and this session's edits will not be saved."
+			found.Path = ""
+		}
+		dialog.ShowInformation("Project file", msg, c.win)
+		found.Project, found.Err = nil, nil
+	}
+	if found.Mismatch {
+		c.ask("Project for another image",
+			"The corrections saved beside "+src.Name+" were made on a different image (its contents changed).\n"+
+				"Use them anyway? (No keeps the old file under another name and starts afresh.)",
+			func(yes bool) {
+				if !yes {
+					if _, err := model.SetAside(found.Path, time.Now()); err != nil {
+						dialog.ShowError(err, c.win)
+						found.Path = ""
+					}
+					found.Project = nil
+				}
+				found.Mismatch = false
+				c.Open(src, found)
+			})
+		return
+	}
+	c.Open(src, found)
+}
+
+func (c *Controller) ask(title, msg string, answer func(bool)) {
+	if c.Ask != nil {
+		c.Ask(title, msg, answer)
+		return
+	}
+	dialog.ShowConfirm(title, msg, answer, c.win)
+}
+
+// Open reads a source in the background (cancelling any reading under
+// way) and shows it when done. found carries its project, if any.
+func (c *Controller) Open(src model.Source, found model.Found) {
+	var s model.Settings
+	var corrs []record.Correction
+	if found.Project != nil {
+		s, corrs = found.Project.Settings, found.Project.Corrections
+	}
+	projectPath := ""
+	if src.IsFile() {
+		projectPath = found.Path
+		if projectPath == "" && found.SHA256 != "" {
+			projectPath = model.ProjectPath(src.Path)
+		}
+	}
+	c.read(src, s, corrs, projectPath)
+}
+
+func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Correction, projectPath string) {
+	c.mu.Lock()
+	if c.cancel != nil {
+		c.cancel()
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	c.cancel = cancel
+	c.gen++
+	gen := c.gen
+	c.mu.Unlock()
+
+	c.busy.Store(true)
+	c.progress.SetValue(0)
+	c.progress.Show()
+	name := src.Name
+	if name == "" {
+		name = filepath.Base(src.Path)
+	}
+	c.setStatus("Reading " + name + "…")
+
+	var last atomic.Int64
+	progress := func(stage string, frac float64) {
+		now := time.Now().UnixMilli()
+		if now-last.Load() < 50 { // at most 20 updates a second
+			return
+		}
+		last.Store(now)
+		fyne.Do(func() {
+			if c.current(gen) {
+				c.progress.SetValue(frac)
+				c.setStatus("Reading " + name + ": " + stage + "…")
+			}
+		})
+	}
+	c.jobs.Add(1)
+	go func() {
+		defer c.jobs.Done()
+		defer cancel()
+		a, err := model.Load(ctx, c.b, src, s, progress)
+		fyne.Do(func() {
+			if !c.current(gen) {
+				return
+			}
+			c.busy.Store(false)
+			c.progress.Hide()
+			if err != nil {
+				if errors.Is(err, context.Canceled) {
+					return
+				}
+				c.failed(src, err)
+				return
+			}
+			ierr := c.m.Install(src, a, s, corrs, projectPath)
+			c.view.selected = -1
+			c.view.setImage(a.Image)
+			c.refresh()
+			msg := fmt.Sprintf("%s: %d panels, layout %s, scale from %s.", name, len(a.Panels), a.Layout, a.ScaleSource)
+			if n := len(corrs); n > 0 {
+				msg += fmt.Sprintf(" %d corrections restored.", n)
+			}
+			if ierr != nil {
+				msg += " Some corrections no longer fit: " + ierr.Error()
+			}
+			if src.IsFile() {
+				c.addRecent(src.Path)
+				c.win.SetTitle("tracelift — " + name)
+			} else {
+				c.win.SetTitle("tracelift — " + name + " (demo; edits are not saved)")
+			}
+			c.setStatus(msg)
+			if c.OnLoaded != nil {
+				c.OnLoaded(nil)
+			}
+		})
+	}()
+}
+
+func (c *Controller) current(gen int) bool {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return gen == c.gen
+}
+
+func (c *Controller) failed(src model.Source, err error) {
+	c.busy.Store(false)
+	c.progress.Hide()
+	c.setStatus("Could not read " + src.Name + ".")
+	dialog.ShowError(fmt.Errorf("%s: %w\n\nTry a sharper scan, or give the scale by hand on the Reading tab.", src.Name, err), c.win)
+	if c.OnLoaded != nil {
+		c.OnLoaded(err)
+	}
+}
+
+// Reread reads the open printout again with new settings, keeping the
+// corrections.
+func (c *Controller) Reread(s model.Settings) {
+	if !c.m.Loaded() {
+		return
+	}
+	c.read(c.m.Source(), s, c.m.Corrections(), c.m.ProjectPath())
+}
+
+// edited is called after each edit attempt from the view.
+func (c *Controller) edited(err error) {
+	if err != nil {
+		c.setStatus(err.Error())
+		c.view.Refresh()
+		return
+	}
+	c.refresh()
+	ch := c.m.Changes()
+	msg := "Edit applied; measurements unchanged."
+	if len(ch) > 0 {
+		msg = fmt.Sprintf("Edit applied; %d measurements changed (see Reading ▸ What changed).", len(ch))
+	}
+	if e := c.m.SaveErr(); e != nil {
+		msg += " NOT SAVED: " + e.Error()
+	}
+	c.setStatus(msg)
+}
+
+func (c *Controller) undo() {
+	if c.m.Undo() {
+		c.refresh()
+		c.setStatus("Undone.")
+	}
+}
+
+func (c *Controller) redo() {
+	if c.m.Redo() {
+		c.refresh()
+		c.setStatus("Redone.")
+	}
+}
+
+// refresh redraws everything from the model.
+func (c *Controller) refresh() {
+	c.view.Refresh()
+	c.side.refresh()
+	c.findings.refresh()
+}
+
+func (c *Controller) panelChosen(i int) {
+	c.side.refresh()
+	if i >= 0 {
+		p := c.m.Panels()[i]
+		c.setStatus(fmt.Sprintf("Panel %s, %.1f–%.1f s.", p.Lead, p.T0S, p.T1S))
+	}
+}
+
+func (c *Controller) askScale(a, b [2]float64) {
+	mm := widget.NewEntry()
+	mm.SetText("5")
+	dialog.ShowForm("Set the scale", "Apply", "Cancel",
+		[]*widget.FormItem{widget.NewFormItem("Distance between the two lines (mm)", mm)},
+		func(ok bool) {
+			if !ok {
+				return
+			}
+			var d float64
+			if _, err := fmt.Sscan(mm.Text, &d); err != nil {
+				dialog.ShowError(fmt.Errorf("not a number: %q", mm.Text), c.win)
+				return
+			}
+			px, err := c.m.ScaleFromClicks(a[0], a[1], b[0], b[1], d)
+			if err != nil {
+				dialog.ShowError(err, c.win)
+				return
+			}
+			s := c.m.Settings()
+			s.PxPerMM = px
+			c.Reread(s)
+		}, c.win)
+}
