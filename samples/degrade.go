@@ -248,7 +248,7 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 	}
 	if d.JPEGQuality > 0 && !d.Fax {
 		var buf bytes.Buffer
-		if err := jpeg.Encode(&buf, img, &jpeg.Options{Quality: d.JPEGQuality}); err != nil {
+		if err := jpeg.Encode(&buf, opaqueRGBA(img), &jpeg.Options{Quality: d.JPEGQuality}); err != nil {
 			return nil, fmt.Errorf("samples: jpeg: %w", err)
 		}
 		dec, err := jpeg.Decode(&buf)
@@ -389,31 +389,53 @@ func warp(src *image.NRGBA, hm [9]float64, w, h int, bg func(x, y int) color.NRG
 	}
 	dst := image.NewNRGBA(image.Rect(0, 0, w, h))
 	sw, sh := src.Rect.Dx(), src.Rect.Dy()
+	stride := src.Stride
 	parallelRows(h, func(y0, y1 int) {
 		for y := y0; y < y1; y++ {
 			row := dst.Pix[y*dst.Stride:]
+			fy := float64(y) + 0.5
+			// Homogeneous source coordinates step linearly along a row.
+			un := inv[0]*0.5 + inv[1]*fy + inv[2]
+			vn := inv[3]*0.5 + inv[4]*fy + inv[5]
+			wn := inv[6]*0.5 + inv[7]*fy + inv[8]
 			for x := 0; x < w; x++ {
-				u, v := Apply(inv, float64(x)+0.5, float64(y)+0.5)
-				u -= 0.5
-				v -= 0.5
-				// Weighted mix of the four neighbours; those outside the
-				// page contribute the background.
+				u, v := un/wn-0.5, vn/wn-0.5
+				un += inv[0]
+				vn += inv[3]
+				wn += inv[6]
+				p := row[4*x : 4*x+4]
+				p[3] = 255
+				if u >= 0 && v >= 0 && u < float64(sw-1) && v < float64(sh-1) {
+					// Inside: fixed-point bilinear.
+					ix, iy := int(u), int(v)
+					fx, fy := uint32((u-float64(ix))*256), uint32((v-float64(iy))*256)
+					o := iy*stride + ix*4
+					s00, s10 := src.Pix[o:o+3], src.Pix[o+4:o+7]
+					s01, s11 := src.Pix[o+stride:o+stride+3], src.Pix[o+stride+4:o+stride+7]
+					for c := 0; c < 3; c++ {
+						top := uint32(s00[c])*(256-fx) + uint32(s10[c])*fx
+						bot := uint32(s01[c])*(256-fx) + uint32(s11[c])*fx
+						p[c] = uint8((top*(256-fy) + bot*fy + 32768) >> 16)
+					}
+					continue
+				}
+				// At or beyond the page edge: neighbours outside the page
+				// contribute the background.
 				ix, iy := int(math.Floor(u)), int(math.Floor(v))
 				var acc [3]float64
 				var inside float64
 				for k := 0; k < 4; k++ {
 					xx, yy := ix+k&1, iy+k>>1
-					wt := (1 - math.Abs(float64(xx)-u)) * (1 - math.Abs(float64(yy)-v))
 					if xx < 0 || yy < 0 || xx >= sw || yy >= sh {
 						continue
 					}
-					o := yy*src.Stride + xx*4
+					wt := (1 - math.Abs(float64(xx)-u)) * (1 - math.Abs(float64(yy)-v))
+					o := yy*stride + xx*4
 					acc[0] += wt * float64(src.Pix[o])
 					acc[1] += wt * float64(src.Pix[o+1])
 					acc[2] += wt * float64(src.Pix[o+2])
 					inside += wt
 				}
-				p := row[4*x : 4*x+4]
 				if inside < 1-1e-9 {
 					c := bg(x, y)
 					o := 1 - inside
@@ -421,7 +443,7 @@ func warp(src *image.NRGBA, hm [9]float64, w, h int, bg func(x, y int) color.NRG
 					acc[1] += o * float64(c.G)
 					acc[2] += o * float64(c.B)
 				}
-				p[0], p[1], p[2], p[3] = clamp8(acc[0]), clamp8(acc[1]), clamp8(acc[2]), 255
+				p[0], p[1], p[2] = clamp8(acc[0]), clamp8(acc[1]), clamp8(acc[2])
 			}
 		}
 	})
@@ -447,9 +469,31 @@ func cloneNRGBA(src *image.NRGBA) *image.NRGBA {
 	return dst
 }
 
+// opaqueRGBA views an opaque NRGBA image as RGBA (the same bytes when
+// every alpha is 255), which the JPEG encoder reads quickly.
+func opaqueRGBA(m *image.NRGBA) *image.RGBA {
+	return &image.RGBA{Pix: m.Pix, Stride: m.Stride, Rect: m.Rect}
+}
+
 func toNRGBA(m image.Image) *image.NRGBA {
 	if n, ok := m.(*image.NRGBA); ok && n.Rect.Min == (image.Point{}) {
 		return n
+	}
+	if yc, ok := m.(*image.YCbCr); ok {
+		b := yc.Rect
+		dst := image.NewNRGBA(image.Rect(0, 0, b.Dx(), b.Dy()))
+		parallelRows(b.Dy(), func(y0, y1 int) {
+			for y := y0; y < y1; y++ {
+				row := dst.Pix[y*dst.Stride:]
+				for x := 0; x < b.Dx(); x++ {
+					yi := yc.YOffset(b.Min.X+x, b.Min.Y+y)
+					ci := yc.COffset(b.Min.X+x, b.Min.Y+y)
+					r, g, bb := color.YCbCrToRGB(yc.Y[yi], yc.Cb[ci], yc.Cr[ci])
+					row[4*x], row[4*x+1], row[4*x+2], row[4*x+3] = r, g, bb, 255
+				}
+			}
+		})
+		return dst
 	}
 	b := m.Bounds()
 	dst := image.NewNRGBA(image.Rect(0, 0, b.Dx(), b.Dy()))
@@ -585,7 +629,7 @@ func gaussKernel(sigma float64) []int32 {
 	if sigma <= 0.05 {
 		return []int32{1 << 16}
 	}
-	r := int(math.Ceil(3 * sigma))
+	r := int(math.Ceil(2.5 * sigma)) // the tails beyond 2.5σ hold 1.2 % of the weight
 	w := make([]float64, 2*r+1)
 	var s float64
 	for i := range w {
@@ -615,12 +659,22 @@ func gaussBlur(src *image.NRGBA, sx, sy float64) *image.NRGBA {
 			out := tmp.Pix[y*tmp.Stride:]
 			for x := 0; x < W; x++ {
 				var a0, a1, a2 int32
-				for k, w := range kx {
-					xx := min(max(x+k-rx, 0), W-1)
-					o := 4 * xx
-					a0 += w * int32(in[o])
-					a1 += w * int32(in[o+1])
-					a2 += w * int32(in[o+2])
+				if x >= rx && x+rx < W {
+					seg := in[4*(x-rx) : 4*(x+rx)+3]
+					for k, w := range kx {
+						o := 4 * k
+						a0 += w * int32(seg[o])
+						a1 += w * int32(seg[o+1])
+						a2 += w * int32(seg[o+2])
+					}
+				} else {
+					for k, w := range kx {
+						xx := min(max(x+k-rx, 0), W-1)
+						o := 4 * xx
+						a0 += w * int32(in[o])
+						a1 += w * int32(in[o+1])
+						a2 += w * int32(in[o+2])
+					}
 				}
 				o := 4 * x
 				out[o], out[o+1], out[o+2], out[o+3] = uint8((a0+32768)>>16), uint8((a1+32768)>>16), uint8((a2+32768)>>16), 255

@@ -142,7 +142,7 @@ func BuildDemo(name string) (img, truthCSV, truthJSON []byte, err error) {
 		var ib bytes.Buffer
 		switch path.Ext(name) {
 		case ".jpg":
-			err = jpeg.Encode(&ib, q.Image, &jpeg.Options{Quality: sp.jpegQ})
+			err = jpeg.Encode(&ib, opaqueRGBA(q.Image), &jpeg.Options{Quality: sp.jpegQ})
 		default:
 			enc := png.Encoder{CompressionLevel: png.BestCompression}
 			if d.Fax {
