@@ -131,7 +131,7 @@ func TestCollectWalk(t *testing.T) {
 	if err := os.Symlink(other, filepath.Join(src, "linkdir")); err != nil {
 		t.Fatal(err)
 	}
-	ins, err := Collect(src, CollectOptions{Skip: filepath.Join(src, "out")})
+	ins, err := Collect(src, CollectOptions{Skip: []string{filepath.Join(src, "out")}})
 	if err != nil {
 		t.Fatal(err)
 	}

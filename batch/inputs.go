@@ -35,9 +35,9 @@ type CollectOptions struct {
 	// entries must lie in. Empty: the list file's folder. Ignored for a
 	// folder walk.
 	Base string
-	// Skip is a folder the walk never enters (the output folder when it
+	// Skip lists folders the walk never enters (the output folder when it
 	// lies inside the input folder).
-	Skip string
+	Skip []string
 }
 
 // Collect returns the inputs named by src: every image file below a folder
@@ -64,11 +64,13 @@ func Collect(src string, opt CollectOptions) ([]Input, error) {
 	return ins, nil
 }
 
-func walk(root, skip string) ([]Input, error) {
-	skipReal := ""
-	if skip != "" {
-		if r, err := filepath.EvalSymlinks(skip); err == nil {
-			skipReal = r
+func walk(root string, skip []string) ([]Input, error) {
+	skipReal := map[string]bool{}
+	for _, s := range skip {
+		if r, err := filepath.EvalSymlinks(s); err == nil {
+			if r, err = filepath.Abs(r); err == nil {
+				skipReal[r] = true
+			}
 		}
 	}
 	var ins []Input
@@ -91,9 +93,11 @@ func walk(root, skip string) ([]Input, error) {
 			return nil
 		}
 		if d.IsDir() {
-			if skipReal != "" && p != root {
-				if r, err := filepath.EvalSymlinks(p); err == nil && r == skipReal {
-					return fs.SkipDir
+			if len(skipReal) > 0 && p != root {
+				if r, err := filepath.EvalSymlinks(p); err == nil {
+					if r, err = filepath.Abs(r); err == nil && skipReal[r] {
+						return fs.SkipDir
+					}
 				}
 			}
 			return nil

@@ -1,0 +1,482 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"io/fs"
+	"os"
+	"os/exec"
+	"os/signal"
+	"reflect"
+	"regexp"
+	"runtime"
+	"strings"
+	"syscall"
+	"time"
+
+	"github.com/schollz/progressbar/v3"
+
+	"tracelift/axis"
+	"tracelift/batch"
+	"tracelift/calib"
+	"tracelift/digitize"
+	"tracelift/pipeline"
+)
+
+func init() {
+	register("batch", "digitize every image of a folder tree or a list; parallel, resumable, shardable", cmdBatch)
+}
+
+// pageWorkerArg, as the first argument of batch, makes the process digitize
+// one page for a parent batch: the child-process mode of --page-timeout.
+// It is not for people and is not listed.
+const pageWorkerArg = "__page"
+
+type batchFlags struct {
+	common      commonFlags
+	jobs        int
+	shard       string
+	pageTimeout time.Duration
+	inProcess   bool
+	noResume    bool
+	base        string
+	quiet       bool
+}
+
+func cmdBatch(args []string, stdout, stderr io.Writer) int {
+	if len(args) > 0 && args[0] == pageWorkerArg {
+		return cmdPageWorker(args[1:], stdout, stderr)
+	}
+	fs := flag.NewFlagSet("batch", flag.ContinueOnError)
+	var b batchFlags
+	b.common.register(fs)
+	fs.IntVar(&b.jobs, "jobs", runtime.NumCPU(), "pages digitized at once")
+	fs.StringVar(&b.shard, "shard", "", "do only shard K of N (K/N, 1-based): N processes with K = 1…N cover every file once")
+	fs.DurationVar(&b.pageTimeout, "page-timeout", batch.DefaultPageTimeout, "give up a page after this long (0 = never)")
+	fs.BoolVar(&b.inProcess, "in-process", false, "digitize in this process instead of one child process per page (faster to start; a stuck page cannot be stopped, only abandoned)")
+	fs.BoolVar(&b.noResume, "no-resume", false, "digitize every file again, even when its outputs are up to date")
+	fs.StringVar(&b.base, "base", "", "folder that the paths of LIST.txt are relative to (default: the list's folder)")
+	fs.BoolVar(&b.quiet, "quiet", false, "no progress display")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: tracelift-cli batch INPUT_DIR|LIST.txt -o OUT [options]")
+		fmt.Fprintln(stderr, "Digitizes every PNG, JPEG, TIFF and PDF below INPUT_DIR (or each path of LIST.txt, one per line)")
+		fmt.Fprintln(stderr, "into OUT, mirroring the folders. Always writes the JSON document (resume reads it), one JSON line")
+		fmt.Fprintln(stderr, "per file in OUT/batch-log.jsonl and a table of findings in OUT/summary.csv (per shard:")
+		fmt.Fprintln(stderr, "batch-log-K-of-N.jsonl, summary-K-of-N.csv; join them with 'tracelift-cli merge').")
+		fmt.Fprintln(stderr, "Files whose outputs exist and whose JSON names the same image hash are skipped.")
+		fmt.Fprintln(stderr, "Exit status: 0 every file done, 1 some files failed (listed), 2 usage error.")
+		fs.PrintDefaults()
+	}
+	pos, err := parseArgs(fs, args, stderr)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return 0
+		}
+		return 2
+	}
+	usageErr := func(msg string) int {
+		fmt.Fprintln(stderr, "tracelift-cli batch:", msg)
+		fmt.Fprintln(stderr, "Run 'tracelift-cli batch -h' for the options.")
+		return 2
+	}
+	if len(pos) != 1 {
+		return usageErr("give one INPUT_DIR or LIST.txt")
+	}
+	if err := b.common.check(); err != nil {
+		return usageErr(err.Error())
+	}
+	if b.jobs < 1 {
+		return usageErr(fmt.Sprintf("--jobs %d: give at least 1", b.jobs))
+	}
+	if b.pageTimeout < 0 {
+		return usageErr("--page-timeout: give a duration such as 90s or 5m, or 0 for no limit")
+	}
+	k, n := 1, 1
+	if b.shard != "" {
+		if k, n, err = batch.ParseShard(b.shard); err != nil {
+			return usageErr(err.Error())
+		}
+	}
+	formats, _ := pipeline.ParseFormats(b.common.formats)
+	formats = jsonLast(formats)
+
+	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}})
+	if err != nil {
+		return usageErr(err.Error() + "; give a folder of images or a text file listing them")
+	}
+	ins := batch.Shard(all, k, n)
+	if len(all) == 0 {
+		fmt.Fprintf(stderr, "tracelift-cli batch: no PNG, JPEG, TIFF or PDF file found below %s\n", pos[0])
+		return 1
+	}
+
+	var proc batch.ProcessFunc
+	if b.inProcess {
+		proc = inProcess(&b.common, formats)
+	} else {
+		exe, err := os.Executable()
+		if err != nil {
+			fmt.Fprintln(stderr, "tracelift-cli batch: cannot find this program to start page workers:", err, "; use --in-process")
+			return 1
+		}
+		proc = childProcess(exe, passThrough(fs), formats)
+	}
+
+	timeout := b.pageTimeout
+	if timeout == 0 {
+		timeout = -1 // batch: < 0 means no bound
+	}
+	prog := newProgress(stderr, len(ins), b.quiet)
+	opt := batch.Options{
+		Out: b.common.out, Jobs: b.jobs, ShardK: k, ShardN: n, PageTimeout: timeout,
+		Expect: extensions(formats), NoResume: b.noResume, OnResult: prog.result,
+	}
+	if n > 1 {
+		fmt.Fprintf(stderr, "shard %d of %d: %d of %d files\n", k, n, len(ins), len(all))
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	rep, err := batch.Run(ctx, ins, proc, opt)
+	prog.finish()
+	if rep == nil {
+		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
+		return 1
+	}
+	fmt.Fprintf(stdout, "%d files: %d digitized, %d up to date, %d failed\n", len(rep.Results), rep.OK, rep.Skipped, rep.Failed)
+	fmt.Fprintln(stdout, "summary:", rep.SummaryPath)
+	fmt.Fprintln(stdout, "log:    ", rep.LogPath)
+	fmt.Fprintln(stdout, pipeline.Caution)
+	if err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
+	}
+	if fails := rep.Failures(); len(fails) > 0 {
+		fmt.Fprintf(stderr, "%d files failed:\n", len(fails))
+		const show = 50
+		for i, f := range fails {
+			if i == show {
+				fmt.Fprintf(stderr, "  … and %d more; see %s\n", len(fails)-show, rep.LogPath)
+				break
+			}
+			fmt.Fprintf(stderr, "  %s: %s\n", f.File, f.Error)
+		}
+		return 1
+	}
+	if err != nil {
+		return 1
+	}
+	return 0
+}
+
+// jsonLast makes sure the JSON document is written, and written last, so a
+// page killed half-way through its exports is never taken as done.
+func jsonLast(formats []string) []string {
+	var out []string
+	for _, f := range formats {
+		if f != pipeline.FormatJSON {
+			out = append(out, f)
+		}
+	}
+	return append(out, pipeline.FormatJSON)
+}
+
+// extensions are the files each format leaves, as resume checks them.
+func extensions(formats []string) []string {
+	var out []string
+	for _, f := range formats {
+		switch f {
+		case pipeline.FormatWFDB:
+			out = append(out, "hea")
+		default:
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+// passThrough returns the shared options the user set, for the page
+// worker (which gets its own -o and --format).
+func passThrough(fs *flag.FlagSet) []string {
+	shared := map[string]bool{}
+	probe := flag.NewFlagSet("", flag.ContinueOnError)
+	var c commonFlags
+	c.register(probe)
+	probe.VisitAll(func(f *flag.Flag) { shared[f.Name] = true })
+	var out []string
+	fs.Visit(func(f *flag.Flag) {
+		if shared[f.Name] && f.Name != "o" && f.Name != "format" {
+			out = append(out, "-"+f.Name+"="+f.Value.String())
+		}
+	})
+	return out
+}
+
+// inProcess digitizes in this process. A page past its deadline is
+// abandoned: its goroutine runs on until the OpenCV call returns.
+func inProcess(c *commonFlags, formats []string) batch.ProcessFunc {
+	return func(ctx context.Context, in, dir, stem string) (batch.FileResult, error) {
+		return digitizeOne(ctx, c, formats, in, dir, stem)
+	}
+}
+
+func digitizeOne(ctx context.Context, c *commonFlags, formats []string, in, dir, stem string) (batch.FileResult, error) {
+	var fr batch.FileResult
+	o, err := pipeline.Process(ctx, in, c.options())
+	if o != nil {
+		fr.TimingsMS = timingsMS(o.Timings)
+	}
+	if err != nil {
+		return fr, namingFile(err, in)
+	}
+	if _, err := pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper}); err != nil {
+		return fr, namingFile(err, in)
+	}
+	b, err := json.Marshal(o)
+	if err != nil {
+		return fr, fmt.Errorf("%s: %w", in, err)
+	}
+	fr.SHA256, fr.Findings, err = batch.ParseDocument(b)
+	return fr, err
+}
+
+func timingsMS(t pipeline.Timings) map[string]float64 {
+	ms := func(d time.Duration) float64 { return float64(d.Microseconds()) / 1000 }
+	return map[string]float64{"load": ms(t.Load), "calib": ms(t.Calib), "digitize": ms(t.Digitize), "measure": ms(t.Measure)}
+}
+
+func namingFile(err error, in string) error {
+	if !strings.Contains(err.Error(), in) {
+		err = fmt.Errorf("%s: %w", in, err)
+	}
+	return advise(err)
+}
+
+// hasAdvice matches messages that already say what to do.
+var hasAdvice = regexp.MustCompile(`(?i)\b(give|check|scan|try|use|raise|save|choose|crop|rotate|photograph|remove|report)\b`)
+
+// advise adds what to do to an error that only says what went wrong,
+// chosen by the kind of error (the stages' sentinel errors).
+func advise(err error) error {
+	if err == nil || hasAdvice.MatchString(err.Error()) {
+		return err
+	}
+	var what string
+	switch {
+	case errors.Is(err, fs.ErrNotExist):
+		what = "check the path and the spelling of the file name"
+	case errors.Is(err, fs.ErrPermission):
+		what = "check that you may read the file"
+	case errors.Is(err, calib.ErrFormat):
+		what = "check that the file opens in an image viewer; if it is damaged or cut short, scan or export the page again as PNG, TIFF, JPEG or PDF"
+	case errors.Is(err, calib.ErrTooBig):
+		what = "scan at 300 dpi, or raise --max-megapixels / --max-megabytes"
+	case errors.Is(err, calib.ErrNotECG), errors.Is(err, digitize.ErrNoTrace):
+		what = "check that the file is an ECG printout; crop it to the paper and scan or photograph it again, flat and evenly lit"
+	case errors.Is(err, calib.ErrNoScale):
+		what = "give the scale by hand with --dpi or --px-per-mm"
+	case errors.Is(err, digitize.ErrLayout):
+		what = "give the layout by hand with --layout (3x4+1, 3x4+3, 6x2, 12x1, 1x1)"
+	case errors.Is(err, axis.ErrNoLead), errors.Is(err, axis.ErrTooShort), errors.Is(err, axis.ErrNoBeats):
+		what = "check the traced signals in the CSV; a better scan of the page may help"
+	case errors.Is(err, context.DeadlineExceeded), errors.Is(err, context.Canceled):
+		return err
+	default:
+		what = "check the image; if it is a clear ECG printout, please report it with the file"
+	}
+	return fmt.Errorf("%w; %s", err, what)
+}
+
+// childProcess runs each page in "tracelift-cli batch __page", so a page
+// past its deadline is killed (OpenCV calls cannot be interrupted), a crash
+// in C code fails that page only, and each page's peak memory is measured.
+func childProcess(exe string, shared []string, formats []string) batch.ProcessFunc {
+	return func(ctx context.Context, in, dir, stem string) (batch.FileResult, error) {
+		var fr batch.FileResult
+		args := append([]string{"batch", pageWorkerArg, "-o", dir, "-stem", stem, "-format", strings.Join(formats, ",")}, shared...)
+		cmd := exec.CommandContext(ctx, exe, append(args, "--", in)...)
+		var out bytes.Buffer
+		errs := &headBuffer{max: 16 << 10}
+		cmd.Stdout, cmd.Stderr = &out, errs
+		cmd.WaitDelay = 2 * time.Second
+		err := cmd.Run()
+		if cmd.ProcessState != nil {
+			fr.PeakRSSMB = maxRSSMB(cmd.ProcessState)
+		}
+		if ctx.Err() != nil {
+			return fr, ctx.Err()
+		}
+		if err != nil {
+			var ee *exec.ExitError
+			if line := lastPrefixed(errs.String(), "tracelift-cli batch: "); line != "" && errors.As(err, &ee) && ee.ExitCode() == 1 {
+				return fr, errors.New(line)
+			}
+			return fr, fmt.Errorf("%s: digitizing it crashed (%v); this is a bug, please report it with the file%s", in, err, crashNote(errs.String()))
+		}
+		if err := json.Unmarshal(out.Bytes(), &fr); err != nil {
+			return fr, fmt.Errorf("%s: the page worker's answer does not parse (%v); this is a bug, please report it", in, err)
+		}
+		if cmd.ProcessState != nil {
+			fr.PeakRSSMB = maxRSSMB(cmd.ProcessState)
+		}
+		return fr, nil
+	}
+}
+
+// lastPrefixed returns the last line of s that starts with prefix, without
+// the prefix.
+func lastPrefixed(s, prefix string) string {
+	lines := strings.Split(strings.TrimSpace(s), "\n")
+	for i := len(lines) - 1; i >= 0; i-- {
+		if l, ok := strings.CutPrefix(lines[i], prefix); ok {
+			return strings.TrimSpace(l)
+		}
+	}
+	return ""
+}
+
+// crashNote quotes the first line of a runtime crash report (panic, fatal
+// error, signal), not the stack dump.
+func crashNote(s string) string {
+	for _, l := range strings.Split(s, "\n") {
+		l = strings.TrimSpace(l)
+		if strings.HasPrefix(l, "panic:") || strings.HasPrefix(l, "fatal error:") || strings.HasPrefix(l, "SIG") {
+			if len(l) > 200 {
+				l = l[:200] + "…"
+			}
+			return "; it said: " + strings.TrimPrefix(l, "panic: ")
+		}
+	}
+	return ""
+}
+
+// maxRSSMB reads the peak resident set of a finished child. Rusage exists
+// on Unix only, so it is read by field name to keep other builds
+// compiling; Linux reports kilobytes (getrusage(2)).
+func maxRSSMB(ps *os.ProcessState) float64 {
+	v := reflect.ValueOf(ps.SysUsage())
+	if v.Kind() != reflect.Pointer || v.IsNil() {
+		return 0
+	}
+	f := v.Elem().FieldByName("Maxrss")
+	if !f.IsValid() || !f.CanInt() {
+		return 0
+	}
+	kb := float64(f.Int())
+	if runtime.GOOS == "darwin" {
+		kb /= 1024 // bytes there
+	}
+	return kb / 1024
+}
+
+// headBuffer keeps the first max bytes written to it: a failing page
+// worker says one line; a crashing one puts its reason before the stacks.
+type headBuffer struct {
+	max int
+	b   []byte
+}
+
+func (h *headBuffer) Write(p []byte) (int, error) {
+	if room := h.max - len(h.b); room > 0 {
+		h.b = append(h.b, p[:min(room, len(p))]...)
+	}
+	return len(p), nil
+}
+
+func (h *headBuffer) String() string { return string(h.b) }
+
+// cmdPageWorker digitizes one page for a parent batch: outputs into -o as
+// <stem>.<ext>, the result as JSON on stdout, the error on stderr.
+func cmdPageWorker(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("batch "+pageWorkerArg, flag.ContinueOnError)
+	var c commonFlags
+	c.register(fs)
+	stem := fs.String("stem", "", "output file name without extension")
+	pos, err := parseArgs(fs, args, stderr)
+	if err != nil || len(pos) != 1 || *stem == "" {
+		fmt.Fprintln(stderr, "tracelift-cli batch: the page worker needs -o DIR -stem NAME and one image")
+		return 2
+	}
+	if err := c.check(); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
+		return 2
+	}
+	formats, _ := pipeline.ParseFormats(c.formats)
+	fr, err := digitizeOne(context.Background(), &c, formats, pos[0], c.out, *stem)
+	if err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
+		return 1
+	}
+	if err := json.NewEncoder(stdout).Encode(fr); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
+		return 1
+	}
+	return 0
+}
+
+// progress shows a bar with rate and time left on a terminal, plain lines
+// otherwise (a log file, a job array's output).
+type progress struct {
+	w     io.Writer
+	bar   *progressbar.ProgressBar
+	quiet bool
+	t0    time.Time
+}
+
+func newProgress(w io.Writer, total int, quiet bool) *progress {
+	p := &progress{w: w, quiet: quiet, t0: time.Now()}
+	if !quiet && isTerminal(w) && total > 0 {
+		p.bar = progressbar.NewOptions(total,
+			progressbar.OptionSetWriter(w),
+			progressbar.OptionSetDescription("digitizing"),
+			progressbar.OptionShowCount(),
+			progressbar.OptionShowIts(),
+			progressbar.OptionSetItsString("pages"),
+			progressbar.OptionSetPredictTime(true),
+			progressbar.OptionThrottle(100*time.Millisecond),
+			progressbar.OptionSetWidth(30),
+		)
+	}
+	return p
+}
+
+func (p *progress) result(done, total int, r batch.Result) {
+	if p.quiet {
+		return
+	}
+	if p.bar != nil {
+		if r.Status == batch.StatusFailed {
+			p.bar.Clear()
+			fmt.Fprintf(p.w, "failed %s: %s\n", r.File, r.Error)
+		}
+		p.bar.Add(1)
+		return
+	}
+	el := time.Since(p.t0)
+	rate := float64(done) / el.Minutes()
+	left := time.Duration(float64(el) / float64(done) * float64(total-done)).Round(time.Second)
+	line := fmt.Sprintf("[%d/%d] %-7s %s (%.1f s; %.1f pages/min, about %v left)", done, total, r.Status, r.File, r.Seconds, rate, left)
+	if r.Status == batch.StatusFailed {
+		line += ": " + r.Error
+	}
+	fmt.Fprintln(p.w, line)
+}
+
+func (p *progress) finish() {
+	if p.bar != nil {
+		p.bar.Finish()
+		fmt.Fprintln(p.w)
+	}
+}
+
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	if !ok {
+		return false
+	}
+	fi, err := f.Stat()
+	return err == nil && fi.Mode()&os.ModeCharDevice != 0
+}
