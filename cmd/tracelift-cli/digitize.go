@@ -117,12 +117,12 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 	formats, _ := pipeline.ParseFormats(c.formats)
 	o, err := pipeline.Process(ctx, pos[0], c.options())
 	if err != nil {
-		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
 	}
 	files, err := pipeline.Export(o, c.out, pipeline.Stem(pos[0]), formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
 	if err != nil {
-		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
 	}
 	fmt.Fprint(stdout, o.Brief())
