@@ -116,9 +116,10 @@ func Export(o *Outcome, dir, stem string, formats []string, opt ExportOptions) (
 		case FormatWFDB:
 			path = filepath.Join(dir, stem+".hea")
 			err = wfdb.WriteRecord(dir, stem, uniformRecord(rec, opt.RateHz))
-			if err == nil && len(beatAnnotations(o)) > 0 {
-				err = wfdb.WriteAnnotationFile(filepath.Join(dir, stem+".atr"), beatAnnotations(o), opt.RateHz)
-				files = append(files, filepath.Join(dir, stem+".atr"))
+			if anns := beatAnnotations(o); err == nil && len(anns) > 0 {
+				atr := filepath.Join(dir, stem+".atr")
+				err = wfdb.WriteAnnotations(atr, wfdb.FromRecord(anns, opt.RateHz, 0))
+				files = append(files, atr)
 			}
 		case FormatEDF:
 			ur := uniformRecord(rec, opt.RateHz)

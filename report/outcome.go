@@ -1,10 +1,3 @@
-// The pipeline package does not build yet (pipeline/export.go calls
-// wfdb.WriteAnnotationFile, which record/wfdb names WriteAnnotations). Until
-// it does, this file is compiled only with -tags reportwire; delete these
-// lines then. Tested with that call patched through go build -overlay.
-
-//go:build reportwire
-
 package report
 
 import (

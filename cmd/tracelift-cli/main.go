@@ -8,6 +8,7 @@ import (
 	"io"
 	"os"
 	"sort"
+	_ "tracelift/report" // installs the PDF summary writer
 )
 
 // command is one subcommand. run returns the process exit code:
