@@ -1,0 +1,352 @@
+package calib
+
+import (
+	"image"
+	"math"
+)
+
+// gridLines says where the grid lines lie on the rectified page: at every
+// whole millimetre, x = (n + offX)·s and y = (m + offY)·s.
+type gridLines struct {
+	known      bool
+	s          float64
+	offX, offY float64
+}
+
+// inkMap turns the rectified page into ink strength (255 = trace ink,
+// 0 = paper or grid). Three steps: the darkness of the brightest channel
+// (a coloured grid line is bright in its own colour, black ink is dark in
+// every channel), normalised to the local paper level (uneven light in
+// photos); then any grid that still shows (grey or black grids, dots) is
+// removed line by line at the known grid positions, keeping ink that
+// crosses a line.
+func inkMap(img *image.NRGBA, gl gridLines) *image.Gray {
+	w, h := img.Rect.Dx(), img.Rect.Dy()
+	m := make([]uint8, w*h)
+	for y := 0; y < h; y++ {
+		row := img.Pix[y*img.Stride:]
+		o := m[y*w : y*w+w]
+		for x := range o {
+			p := row[4*x : 4*x+3 : 4*x+3]
+			o[x] = max(p[0], p[1], p[2])
+		}
+	}
+	s := gl.s
+	if s <= 0 {
+		s = float64(max(w, h)) / 280
+	}
+	paper := paperLevel(m, w, h, max(8, int(4*s)))
+	out := image.NewGray(image.Rect(0, 0, w, h))
+	for y := 0; y < h; y++ {
+		pr := paper(y)
+		o := out.Pix[y*out.Stride : y*out.Stride+w]
+		mr := m[y*w : y*w+w]
+		for x := range o {
+			p := pr[x]
+			d := p - float32(mr[x])
+			if d <= 0 {
+				o[x] = 0
+				continue
+			}
+			v := d / (0.55 * p) * 255
+			if v >= 255 {
+				o[x] = 255
+			} else {
+				o[x] = uint8(v)
+			}
+		}
+	}
+	if gl.known && gl.s >= 2.5 {
+		suppressLines(out, gl, true)
+		suppressLines(out, gl, false)
+		suppressDots(out, gl)
+	}
+	return out
+}
+
+// paperLevel estimates the paper brightness as the 90th percentile of the
+// bright channel in blocks of b px, interpolated bilinearly; it returns a
+// function giving one row of levels.
+func paperLevel(m []uint8, w, h, b int) func(y int) []float32 {
+	bw, bh := (w+b-1)/b, (h+b-1)/b
+	lev := make([]float32, bw*bh)
+	var hist [256]int
+	lo, hi := float32(255), float32(0)
+	for by := 0; by < bh; by++ {
+		for bx := 0; bx < bw; bx++ {
+			hist = [256]int{}
+			n := 0
+			for y := by * b; y < min(h, by*b+b); y += 2 {
+				row := m[y*w:]
+				for x := bx * b; x < min(w, bx*b+b); x += 2 {
+					hist[row[x]]++
+					n++
+				}
+			}
+			t := n / 10
+			v := 255
+			for acc := 0; v > 0; v-- {
+				acc += hist[v]
+				if acc > t {
+					break
+				}
+			}
+			fv := float32(max(v, 40))
+			lev[by*bw+bx] = fv
+			lo, hi = min(lo, fv), max(hi, fv)
+		}
+	}
+	row := make([]float32, w)
+	if hi-lo < 12 {
+		// Even light (a scan): one level for the page, from the median block.
+		c := medianF32(lev)
+		for x := range row {
+			row[x] = c
+		}
+		return func(int) []float32 { return row }
+	}
+	return func(y int) []float32 {
+		fy := (float64(y)+0.5)/float64(b) - 0.5
+		y0 := int(math.Floor(fy))
+		ty := float32(fy - float64(y0))
+		y0c, y1c := clampI(y0, 0, bh-1), clampI(y0+1, 0, bh-1)
+		for x := range row {
+			fx := (float64(x)+0.5)/float64(b) - 0.5
+			x0 := int(math.Floor(fx))
+			tx := float32(fx - float64(x0))
+			x0c, x1c := clampI(x0, 0, bw-1), clampI(x0+1, 0, bw-1)
+			a := lev[y0c*bw+x0c]*(1-tx) + lev[y0c*bw+x1c]*tx
+			c := lev[y1c*bw+x0c]*(1-tx) + lev[y1c*bw+x1c]*tx
+			row[x] = a*(1-ty) + c*ty
+		}
+		return row
+	}
+}
+
+func medianF32(a []float32) float32 {
+	f := make([]float64, len(a))
+	for i, v := range a {
+		f[i] = float64(v)
+	}
+	return float32(median(f))
+}
+
+func clampI(v, lo, hi int) int {
+	return max(lo, min(hi, v))
+}
+
+// lineProfile folds the ink's column (or row) means over the 1 mm period
+// and returns the half width in px of the lines and their contrast.
+func lineProfile(g *image.Gray, gl gridLines, vertical bool) (hw int, contrast float64) {
+	w, h := g.Rect.Dx(), g.Rect.Dy()
+	n := w
+	if !vertical {
+		n = h
+	}
+	mean := make([]float64, n)
+	if vertical {
+		for y := 0; y < h; y += 2 {
+			row := g.Pix[y*g.Stride:]
+			for x := 0; x < w; x++ {
+				mean[x] += float64(row[x])
+			}
+		}
+	} else {
+		for y := 0; y < h; y++ {
+			row := g.Pix[y*g.Stride : y*g.Stride+w]
+			var s float64
+			for x := 0; x < w; x += 2 {
+				s += float64(row[x])
+			}
+			mean[y] = s
+		}
+	}
+	s := gl.s
+	off := gl.offX
+	if !vertical {
+		off = gl.offY
+	}
+	// Fold at 0.25 px resolution over distance to the nearest line.
+	const res = 4
+	maxD := int(s/2*res) + 1
+	fold := make([]float64, maxD+1)
+	cnt := make([]float64, maxD+1)
+	for i, v := range mean {
+		p := float64(i)/s - off
+		d := math.Abs(p-math.Round(p)) * s
+		k := int(d * res)
+		if k <= maxD {
+			fold[k] += v
+			cnt[k]++
+		}
+	}
+	for k := range fold {
+		if cnt[k] > 0 {
+			fold[k] /= cnt[k]
+		}
+	}
+	norm := float64(h / 2)
+	if !vertical {
+		norm = float64(w / 2)
+	}
+	base := fold[maxD] / norm
+	peak := fold[0] / norm
+	contrast = peak - base
+	if contrast <= 0 {
+		return 0, 0
+	}
+	half := base + contrast/2
+	k := 0
+	for k < maxD && fold[k]/norm > half {
+		k++
+	}
+	hw = int(math.Ceil(float64(k)/res)) + 1
+	return hw, contrast
+}
+
+// suppressLines removes the grid lines of one family. For each line and
+// each 48 px segment along it, the line is located within ±2 px, its level
+// is taken as the median ink on its centre, and each band pixel keeps only
+// what exceeds that level or what ink on both sides of the line carries
+// across it.
+func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
+	hw, contrast := lineProfile(g, gl, vertical)
+	if contrast < 6 || hw <= 0 {
+		return
+	}
+	hw = min(hw, int(gl.s/3)+1)
+	w, h := g.Rect.Dx(), g.Rect.Dy()
+	st := g.Stride
+	along, across := h, w
+	off := gl.offX
+	if !vertical {
+		along, across = w, h
+		off = gl.offY
+	}
+	at := func(a, c int) *uint8 { // a along the line, c across
+		if vertical {
+			return &g.Pix[a*st+c]
+		}
+		return &g.Pix[c*st+a]
+	}
+	const seg = 48
+	var hist [256]int
+	nLines := int(float64(across)/gl.s) + 2
+	for n := -1; n <= nLines; n++ {
+		c0 := int(math.Round((float64(n) + off) * gl.s))
+		if c0 < -hw || c0 >= across+hw {
+			continue
+		}
+		for a0 := 0; a0 < along; a0 += seg {
+			a1 := min(along, a0+seg)
+			// Locate the line within ±2 px.
+			best, bestS := c0, -1
+			for d := -2; d <= 2; d++ {
+				c := c0 + d
+				if c < 0 || c >= across {
+					continue
+				}
+				sum := 0
+				for a := a0; a < a1; a++ {
+					sum += int(*at(a, c))
+				}
+				if sum > bestS {
+					best, bestS = c, sum
+				}
+			}
+			if bestS < 0 {
+				continue
+			}
+			hist = [256]int{}
+			for a := a0; a < a1; a++ {
+				hist[*at(a, best)]++
+			}
+			lv, acc := 0, 0
+			for lv = 0; lv < 255; lv++ {
+				acc += hist[lv]
+				if 2*acc >= a1-a0 {
+					break
+				}
+			}
+			if lv < 8 {
+				continue
+			}
+			gl := float32(lv)
+			lo, hi := best-hw, best+hw
+			cl, cr := lo-1, hi+1
+			for a := a0; a < a1; a++ {
+				var vl, vr uint8
+				if cl >= 0 {
+					vl = *at(a, cl)
+				}
+				if cr < across {
+					vr = *at(a, cr)
+				}
+				carry := min(vl, vr)
+				for c := max(lo, 0); c <= min(hi, across-1); c++ {
+					p := at(a, c)
+					v := (float32(*p) - gl) / (255 - gl + 1) * 255
+					nv := uint8(0)
+					if v > 0 {
+						nv = uint8(min(v, 255))
+					}
+					*p = max(nv, carry)
+				}
+			}
+		}
+	}
+}
+
+// suppressDots removes dots left at the grid crossings (dot grids), with
+// the same carry-across rule in both directions.
+func suppressDots(g *image.Gray, gl gridLines) {
+	w, h := g.Rect.Dx(), g.Rect.Dy()
+	s := gl.s
+	r := max(1, int(s*0.15+0.5)) + 1
+	nx, ny := int(float64(w)/s)+2, int(float64(h)/s)+2
+	var vals []float64
+	for j := 0; j < ny; j += 3 {
+		for i := 0; i < nx; i += 3 {
+			x := int(math.Round((float64(i) + gl.offX) * s))
+			y := int(math.Round((float64(j) + gl.offY) * s))
+			if x >= 0 && x < w && y >= 0 && y < h {
+				vals = append(vals, float64(g.Pix[y*g.Stride+x]))
+			}
+		}
+	}
+	lvl := median(vals)
+	if lvl < 20 {
+		return
+	}
+	get := func(x, y int) uint8 {
+		if x < 0 || y < 0 || x >= w || y >= h {
+			return 0
+		}
+		return g.Pix[y*g.Stride+x]
+	}
+	gl32 := float32(lvl)
+	for j := -1; j < ny; j++ {
+		for i := -1; i < nx; i++ {
+			cx := int(math.Round((float64(i) + gl.offX) * s))
+			cy := int(math.Round((float64(j) + gl.offY) * s))
+			if cx < -r || cy < -r || cx >= w+r || cy >= h+r {
+				continue
+			}
+			for y := cy - r; y <= cy+r; y++ {
+				for x := cx - r; x <= cx+r; x++ {
+					if x < 0 || y < 0 || x >= w || y >= h {
+						continue
+					}
+					carry := max(min(get(cx-r-1, y), get(cx+r+1, y)), min(get(x, cy-r-1), get(x, cy+r+1)))
+					p := &g.Pix[y*g.Stride+x]
+					v := (float32(*p) - gl32) / (255 - gl32 + 1) * 255
+					nv := uint8(0)
+					if v > 0 {
+						nv = uint8(min(v, 255))
+					}
+					*p = max(nv, carry)
+				}
+			}
+		}
+	}
+}

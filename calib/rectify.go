@@ -1,0 +1,81 @@
+package calib
+
+import (
+	"image"
+	"image/color"
+	"runtime"
+
+	"gocv.io/x/gocv"
+)
+
+// warpPage resamples src into a w×h NRGBA image where rect pixel (x, y)
+// takes the colour of source pixel M·(x, y, 1) (bilinear, white outside).
+// The source pixels are handed to OpenCV without a copy when they are
+// already 8-bit Gray, NRGBA or RGBA; other types are converted once.
+func warpPage(src image.Image, m mat3, w, h int) (*image.NRGBA, error) {
+	b := src.Bounds()
+	var pix []byte
+	var typ gocv.MatType
+	ch := 4
+	stride := 0
+	switch s := src.(type) {
+	case *image.Gray:
+		pix, typ, ch, stride = s.Pix, gocv.MatTypeCV8UC1, 1, s.Stride
+	case *image.NRGBA:
+		pix, typ, stride = s.Pix, gocv.MatTypeCV8UC4, s.Stride
+	case *image.RGBA:
+		pix, typ, stride = s.Pix, gocv.MatTypeCV8UC4, s.Stride
+	}
+	if pix == nil || b.Min != (image.Point{}) || stride != b.Dx()*ch {
+		n := toNRGBA(src)
+		pix, typ, ch = n.Pix, gocv.MatTypeCV8UC4, 4
+	}
+	srcMat, err := gocv.NewMatFromBytes(b.Dy(), b.Dx(), typ, pix)
+	if err != nil {
+		return nil, err
+	}
+	defer srcMat.Close()
+	mm := gocv.NewMatWithSize(3, 3, gocv.MatTypeCV64F)
+	defer mm.Close()
+	for i := 0; i < 9; i++ {
+		mm.SetDoubleAt(i/3, i%3, m[i])
+	}
+	dst := gocv.NewMat()
+	defer dst.Close()
+	white := color.RGBA{255, 255, 255, 255}
+	flags := gocv.InterpolationLinear | gocv.WarpInverseMap
+	if isAffine(m) {
+		aff := gocv.NewMatWithSize(2, 3, gocv.MatTypeCV64F)
+		defer aff.Close()
+		for i := 0; i < 6; i++ {
+			aff.SetDoubleAt(i/3, i%3, m[i]/m[8])
+		}
+		gocv.WarpAffineWithParams(srcMat, &dst, aff, image.Pt(w, h), flags, gocv.BorderConstant, white)
+	} else {
+		gocv.WarpPerspectiveWithParams(srcMat, &dst, mm, image.Pt(w, h), flags, gocv.BorderConstant, white)
+	}
+	runtime.KeepAlive(pix)
+	data, err := dst.DataPtrUint8()
+	if err != nil {
+		return nil, err
+	}
+	out := image.NewNRGBA(image.Rect(0, 0, w, h))
+	if ch == 4 {
+		copy(out.Pix, data)
+		// RGBA sources with alpha < 255 would be premultiplied; ours are
+		// opaque scans, so alpha is forced opaque.
+		for i := 3; i < len(out.Pix); i += 4 {
+			out.Pix[i] = 255
+		}
+	} else {
+		for i, v := range data[:w*h] {
+			j := 4 * i
+			out.Pix[j], out.Pix[j+1], out.Pix[j+2], out.Pix[j+3] = v, v, v, 255
+		}
+	}
+	return out, nil
+}
+
+func isAffine(m mat3) bool {
+	return m[6] == 0 && m[7] == 0 && m[8] != 0
+}

@@ -1,0 +1,239 @@
+package calib
+
+import (
+	"math"
+	"math/cmplx"
+)
+
+// fft is an in-place iterative radix-2 Cooley–Tukey transform; len(a) must
+// be a power of two. Sign convention X[k] = Σ x[n]·exp(-2πi·k·n/N).
+func fft(a []complex128) {
+	n := len(a)
+	for i, j := 1, 0; i < n; i++ {
+		bit := n >> 1
+		for ; j&bit != 0; bit >>= 1 {
+			j ^= bit
+		}
+		j ^= bit
+		if i < j {
+			a[i], a[j] = a[j], a[i]
+		}
+	}
+	for size := 2; size <= n; size <<= 1 {
+		step := cmplx.Exp(complex(0, -2*math.Pi/float64(size)))
+		for start := 0; start < n; start += size {
+			w := complex(1, 0)
+			half := size / 2
+			for k := 0; k < half; k++ {
+				t := w * a[start+k+half]
+				a[start+k+half] = a[start+k] - t
+				a[start+k] += t
+				w *= step
+			}
+		}
+	}
+}
+
+// hann returns the Hann window of length n.
+func hann(n int) []float64 {
+	w := make([]float64, n)
+	if n == 1 {
+		w[0] = 1
+		return w
+	}
+	for i := range w {
+		w[i] = 0.5 - 0.5*math.Cos(2*math.Pi*float64(i)/float64(n-1))
+	}
+	return w
+}
+
+// dtft evaluates Σ w[b]·(p[b]-mean)·exp(-2πi·f·(off+b)) by a rotating
+// phasor (no trigonometry per sample).
+func dtft(p []float32, w []float64, mean float64, off, f float64) complex128 {
+	ph := cmplx.Exp(complex(0, -2*math.Pi*f*off))
+	step := cmplx.Exp(complex(0, -2*math.Pi*f))
+	var re, im float64
+	pr, pi := real(ph), imag(ph)
+	sr, si := real(step), imag(step)
+	for b, v := range p {
+		x := (float64(v) - mean) * w[b]
+		re += x * pr
+		im += x * pi
+		pr, pi = pr*sr-pi*si, pr*si+pi*sr
+	}
+	return complex(re, im)
+}
+
+// weightedMean is Σw·p/Σw.
+func weightedMean(p []float32, w []float64) float64 {
+	var s, sw float64
+	for i, v := range p {
+		s += float64(v) * w[i]
+		sw += w[i]
+	}
+	if sw == 0 {
+		return 0
+	}
+	return s / sw
+}
+
+// powerSpectrum returns |FFT|² of the windowed, mean-removed p padded to
+// n (a power of two ≥ len(p)), normalised to unit total AC power.
+func powerSpectrum(p []float32, w []float64, n int, buf []complex128) []float64 {
+	m := weightedMean(p, w)
+	clear(buf)
+	for i, v := range p {
+		buf[i] = complex((float64(v)-m)*w[i], 0)
+	}
+	fft(buf)
+	out := make([]float64, n/2+1)
+	var tot float64
+	for i := range out {
+		out[i] = real(buf[i])*real(buf[i]) + imag(buf[i])*imag(buf[i])
+		if i > 0 {
+			tot += out[i]
+		}
+	}
+	if tot > 0 {
+		for i := range out {
+			out[i] /= tot
+		}
+	}
+	out[0] = 0
+	return out
+}
+
+// gridAngle estimates the grid's orientation modulo 90° (radians, in
+// [-π/4, π/4)) from the 2-D power spectrum of up to three square patches
+// of the work image: the grid puts its energy on two perpendicular lines
+// through the origin at all its harmonics, while ink spreads broadly. The
+// spectrum is whitened by its radial mean and folded into 0.1° bins.
+// It returns the angle and the peak's share of the folded energy.
+func gridAngle(wk *work) (float64, float64) {
+	n := 512
+	for n > 64 && (n > wk.w || n > wk.h) {
+		n /= 2
+	}
+	if n > wk.w || n > wk.h {
+		return 0, 0
+	}
+	var centres [][2]int
+	cy := wk.h/2 - n/2
+	for _, fx := range []float64{0.5, 0.2, 0.8} {
+		cx := int(fx*float64(wk.w)) - n/2
+		cx = clampI(cx, 0, wk.w-n)
+		centres = append(centres, [2]int{cx, cy})
+		if wk.w < 2*n {
+			break
+		}
+	}
+	win := hann(n)
+	pw := make([]float64, n*n)
+	row := make([]complex128, n)
+	data := make([]complex128, n*n)
+	for _, c := range centres {
+		var mean float64
+		for y := 0; y < n; y++ {
+			for x := 0; x < n; x++ {
+				mean += float64(wk.dmin[(c[1]+y)*wk.w+c[0]+x])
+			}
+		}
+		mean /= float64(n * n)
+		for y := 0; y < n; y++ {
+			for x := 0; x < n; x++ {
+				v := float64(wk.dmin[(c[1]+y)*wk.w+c[0]+x]) - mean
+				row[x] = complex(v*win[x]*win[y], 0)
+			}
+			fft(row)
+			copy(data[y*n:], row)
+		}
+		for x := 0; x < n; x++ {
+			for y := 0; y < n; y++ {
+				row[y] = data[y*n+x]
+			}
+			fft(row)
+			for y := 0; y < n; y++ {
+				v := row[y]
+				pw[y*n+x] += real(v)*real(v) + imag(v)*imag(v)
+			}
+		}
+	}
+	// Radial mean for whitening.
+	rmax := int(float64(n) / 2.3)
+	rmin := max(4, n/64)
+	rad := make([]float64, rmax+2)
+	cnt := make([]float64, rmax+2)
+	type pt struct {
+		i   int
+		r   int
+		phi float64
+	}
+	var pts []pt
+	for ky := 0; ky < n/2; ky++ {
+		for kx := -n/2 + 1; kx < n/2; kx++ {
+			if ky == 0 && kx <= 0 {
+				continue
+			}
+			r := math.Hypot(float64(kx), float64(ky))
+			ri := int(r + 0.5)
+			if ri < rmin || ri > rmax {
+				continue
+			}
+			xi := kx
+			if xi < 0 {
+				xi += n
+			}
+			i := ky*n + xi
+			rad[ri] += pw[i]
+			cnt[ri]++
+			pts = append(pts, pt{i, ri, math.Atan2(float64(ky), float64(kx))})
+		}
+	}
+	for i := range rad {
+		if cnt[i] > 0 {
+			rad[i] /= cnt[i]
+		}
+	}
+	const nb = 900 // 0.1° bins over 90°
+	var hist [nb]float64
+	var tot float64
+	for _, p := range pts {
+		if rad[p.r] == 0 {
+			continue
+		}
+		v := pw[p.i] / rad[p.r]
+		if v < 4 { // keep only stand-out peaks
+			continue
+		}
+		deg := math.Mod(p.phi*180/math.Pi+360, 90)
+		b := int(deg*10) % nb
+		hist[b] += v
+		tot += v
+	}
+	if tot == 0 {
+		return 0, 0
+	}
+	// Smooth over ±0.3° (circularly) and pick the peak.
+	var sm [nb]float64
+	for b := range sm {
+		for d := -3; d <= 3; d++ {
+			sm[b] += hist[(b+d+nb)%nb]
+		}
+	}
+	best := 0
+	for b := range sm {
+		if sm[b] > sm[best] {
+			best = b
+		}
+	}
+	off := parabolic(sm[(best-1+nb)%nb], sm[best], sm[(best+1)%nb])
+	deg := (float64(best) + 0.5 + off) / 10
+	if deg >= 45 {
+		deg -= 90
+	}
+	var near float64
+	for d := -10; d <= 10; d++ {
+		near += hist[(best+d+nb)%nb]
+	}
+	return deg * math.Pi / 180, near / tot
+}
