@@ -205,3 +205,6 @@ func jacobian(h mat3, X, Y float64) (ex, ey [2]float64) {
 	ey = [2]float64{(x1 - x0) / (2 * d), (y1 - y0) / (2 * d)}
 	return
 }
+
+// dbgGrid, when set by a test, receives a line about each grid search.
+var dbgGrid func(format string, a ...any)
