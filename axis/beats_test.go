@@ -198,3 +198,61 @@ func TestDetectBeatsBadInput(t *testing.T) {
 		t.Fatalf("%d beats on a flat line", len(flat))
 	}
 }
+
+// Premature beats on record 100: its reference annotations mark 33 atrial
+// premature beats (A) and one ventricular (V) (MIT-BIH Arrhythmia
+// Database directory, from memory; counted here from 100.atr itself).
+// Measure's timing rule (RR below 80 % of the median) should catch most
+// of them and flag few normal beats.
+func TestPrematureMITBIH100(t *testing.T) {
+	if testing.Short() {
+		t.Skip("30 min record")
+	}
+	rec, err := wfdb.ReadRecord(shared + "mitdb-100/100.hea")
+	if err != nil {
+		t.Fatal(err)
+	}
+	samp, codes, err := readMITAnnotations(shared + "mitdb-100/100.atr")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var prem, normal []float64
+	for k, s := range samp {
+		switch codes[k] {
+		case 8, 5: // A, V
+			prem = append(prem, float64(s)/360)
+		case 1: // N
+			normal = append(normal, float64(s)/360)
+		}
+	}
+	if len(prem) != 34 {
+		t.Fatalf("%d A/V beats in 100.atr, expected 34", len(prem))
+	}
+	f, err := Measure(rec, Options{BeatLead: "MLII"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var flagged []float64
+	for _, b := range f.Beats {
+		if b.Premature {
+			flagged = append(flagged, b.TS)
+		}
+	}
+	tp, _, _ := matchBeats(prem, flagged, 0.15)
+	fpN, _, _ := matchBeats(normal, flagged, 0.15)
+	t.Logf("record 100: %d beats flagged premature; %d of %d A/V beats caught, %d normal beats flagged; rate %.1f bpm", len(flagged), tp, len(prem), fpN, f.HeartRateBPM)
+	if tp < len(prem)*2/3 || fpN > 10 {
+		t.Fatalf("premature: caught %d of %d, %d normal beats flagged", tp, len(prem), fpN)
+	}
+	// Rate: the reference beats' count over their time span.
+	var beats []float64
+	for k, s := range samp {
+		if isBeatCode(codes[k]) {
+			beats = append(beats, float64(s)/360)
+		}
+	}
+	ref := 60 * float64(len(beats)-1) / (beats[len(beats)-1] - beats[0])
+	if d := math.Abs(float64(f.HeartRateBPM) - ref); !(d <= 1) {
+		t.Errorf("rate %.2f bpm, annotations give %.2f", f.HeartRateBPM, ref)
+	}
+}

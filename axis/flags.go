@@ -149,6 +149,11 @@ func flags(f *Findings) {
 		add("st_deviation", "ST deviation has many causes; compare with earlier tracings and the clinical picture",
 			"ST deviation of 0.1 mV or more at J+60 ms in %s", strings.Join(st, ", "))
 	}
+	// Poor R-wave progression: R in V3 of 0.3 mV or less with R not
+	// growing from V1 to V3 (common practice, from memory).
+	if rp := f.RProgression; len(rp) == 6 && rp[0].OK() && rp[2].OK() && rp[2] <= 0.3 && rp[2] <= rp[0]+0.05 {
+		add("poor_r_progression", "electrode position and body build change R-wave progression", "poor R-wave progression: R V1 %.2f mV, R V3 %.2f mV", float64(rp[0]), float64(rp[2]))
+	}
 	if f.TransitionCl == "late" || f.TransitionCl == "early" {
 		add("transition_"+f.TransitionCl, "electrode position changes the transition", "%s precordial transition (%s)", f.TransitionCl, f.Transition)
 	}

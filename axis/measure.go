@@ -282,9 +282,16 @@ func (m *measurer) extract(k0, k1 float64) {
 
 // buildTemplates takes the median of the chosen beats per lead (all the
 // lead's beats when none of the chosen ones falls inside it).
-func (m *measurer) buildTemplates(use func(bi int) bool) {
+func (m *measurer) buildTemplates(use func(bi int) bool) { m.buildSome(use, nil) }
+
+// buildSome builds the templates of the leads with only[si] true (all
+// when only is nil); the others become nil.
+func (m *measurer) buildSome(use func(bi int) bool, only []bool) {
 	m.tpl = make([][]float64, len(m.rec.Signals))
 	for si := range m.rec.Signals {
+		if only != nil && !only[si] {
+			continue
+		}
 		var chosen, all [][]float64
 		for bi, sg := range m.segs[si] {
 			if sg == nil {
@@ -341,8 +348,13 @@ func (m *measurer) templates() error {
 		return m.beats[bi].lead
 	}
 	lo, hi := m.win.r0-int(0.100*tplHz), min(m.win.n, m.win.r0+int(0.150*tplHz))
+	need := make([]bool, len(m.rec.Signals))
+	for bi := range m.beats {
+		need[lead(bi)] = true
+	}
+	all := func(int) bool { return true }
 	for pass := 0; pass < 2; pass++ {
-		m.buildTemplates(func(int) bool { return true })
+		m.buildSome(all, need)
 		moved := false
 		for bi := range m.beats {
 			b := &m.beats[bi]
@@ -366,7 +378,7 @@ func (m *measurer) templates() error {
 	}
 	// QRS shape: correlation with the reference lead's template over
 	// ±60 ms.
-	m.buildTemplates(func(int) bool { return true })
+	m.buildSome(all, need)
 	q := int(0.060 * tplHz)
 	for bi := range m.beats {
 		b := &m.beats[bi]
