@@ -44,6 +44,7 @@ type benchCase struct {
 	ScaleErrX, ScaleErrY float64 // relative |est − truth| / truth
 	RotErrDeg            float64
 	GainOK, SpeedOK      bool
+	HasCalib             bool
 	SNR                  []float64 // per standard lead drawn; −Inf when missing
 	Missing              int
 	AxisErr, HRErr       float64
@@ -105,7 +106,8 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 }
 
 func runBenchCase(i int, cond string, rng *rand.Rand, real *record.Record, dpi float64) benchCase {
-	c := benchCase{N: i, Condition: cond, Source: "dipole"}
+	c := benchCase{N: i, Condition: cond, Source: "dipole", HasCalib: false}
+	c.AxisErr, c.HRErr, c.QRSErr, c.QTErr = math.NaN(), math.NaN(), math.NaN(), math.NaN()
 	var rec *record.Record
 	var truth *dipole.Truth
 	if real != nil && i%4 == 3 {
@@ -171,6 +173,7 @@ func runBenchCase(i int, cond string, rng *rand.Rand, real *record.Record, dpi f
 	}
 	tr := po.Truth
 	if o != nil && o.Calib != nil {
+		c.HasCalib = true
 		c.ScaleErrX = math.Abs(o.Calib.PxPerMMX-tr.PxPerMMX) / tr.PxPerMMX
 		c.ScaleErrY = math.Abs(o.Calib.PxPerMMY-tr.PxPerMMY) / tr.PxPerMMY
 		c.RotErrDeg = math.Abs(angleDiff(o.Calib.RotationDeg+90*float64(o.Calib.Turned), tr.RotationDeg))
@@ -195,7 +198,6 @@ func runBenchCase(i int, cond string, rng *rand.Rand, real *record.Record, dpi f
 		a := record.Compare(&ref, e, ref.StartS, ref.EndS())
 		c.SNR = append(c.SNR, a.SNRdB)
 	}
-	c.AxisErr, c.HRErr, c.QRSErr, c.QTErr = math.NaN(), math.NaN(), math.NaN(), math.NaN()
 	if f := o.Findings; f != nil {
 		var want axisTruth
 		if truth != nil {
@@ -252,7 +254,7 @@ func printBenchTable(w io.Writer, cases []benchCase, conds []string) {
 			if c.Err != "" {
 				fail++
 			}
-			if c.ScaleErrX > 0 || c.ScaleErrY > 0 || c.Err == "" {
+			if c.HasCalib {
 				scale = append(scale, 100*c.ScaleErrX, 100*c.ScaleErrY)
 				rot = append(rot, c.RotErrDeg)
 			}
