@@ -502,3 +502,33 @@ func readFile(t *testing.T, p string) string {
 	}
 	return string(b)
 }
+
+// TestBatchListCLI: list entries that would climb out of the base folder,
+// absolute paths outside it and missing files fail by name; the batch goes
+// on and writes nothing outside OUT.
+func TestBatchListCLI(t *testing.T) {
+	base, out, outside := t.TempDir(), t.TempDir(), t.TempDir()
+	os.WriteFile(filepath.Join(base, "empty.png"), nil, 0o644)
+	list := filepath.Join(base, "pages.txt")
+	entries := []string{"# archive box 7", "../up.png", "a/../../up2.png", filepath.Join(outside, "elsewhere.png"), "missing.png", "empty.png"}
+	os.WriteFile(list, []byte(strings.Join(entries, "\n")+"\n"), 0o644)
+	code, stdout, stderr := cli(t, time.Minute, "batch", list, "-o", out)
+	noCrash(t, stderr)
+	if code != 1 {
+		t.Fatalf("exit %d, want 1\n%s\n%s", code, stdout, stderr)
+	}
+	for _, e := range entries[1:] {
+		if !strings.Contains(stderr, e) {
+			t.Errorf("%s not listed as failed:\n%s", e, stderr)
+		}
+	}
+	if !strings.Contains(stderr, `contains ".."`) || !strings.Contains(stderr, "outside the base folder") || !strings.Contains(stderr, "does not exist") {
+		t.Errorf("the reasons are not given:\n%s", stderr)
+	}
+	if ents, _ := os.ReadDir(outside); len(ents) != 0 {
+		t.Errorf("written outside OUT: %v", ents)
+	}
+	if _, err := os.Stat(filepath.Join(filepath.Dir(out), "up.csv")); err == nil {
+		t.Error("an output climbed out of OUT")
+	}
+}
