@@ -35,6 +35,12 @@ type Controller struct {
 	progress *widget.ProgressBar
 	toolBar  *widget.RadioGroup
 
+	// the source last asked for, with where its project goes: a reading
+	// that failed can be tried again with settings given by hand
+	lastSrc     model.Source
+	lastProject string
+	lastCorrs   []record.Correction
+
 	mu     sync.Mutex
 	cancel context.CancelFunc
 	gen    int // which load is current
@@ -208,6 +214,7 @@ func (c *Controller) Open(src model.Source, found model.Found) {
 }
 
 func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Correction, projectPath string) {
+	c.lastSrc, c.lastProject, c.lastCorrs = src, projectPath, corrs
 	c.mu.Lock()
 	if c.cancel != nil {
 		c.cancel()
@@ -294,7 +301,7 @@ func (c *Controller) failed(src model.Source, err error) {
 	c.busy.Store(false)
 	c.progress.Hide()
 	c.setStatus("Could not read " + src.Name + ".")
-	dialog.ShowError(fmt.Errorf("%s: %w\n\nTry a sharper scan, or give the scale by hand on the Reading tab.", src.Name, err), c.win)
+	dialog.ShowError(fmt.Errorf("%w\n\nTry a sharper scan, or type the scale (px/mm) on the Reading tab\nand press \"Read again with these\".", err), c.win)
 	if c.OnLoaded != nil {
 		c.OnLoaded(err)
 	}
@@ -303,7 +310,12 @@ func (c *Controller) failed(src model.Source, err error) {
 // Reread reads the open printout again with new settings, keeping the
 // corrections.
 func (c *Controller) Reread(s model.Settings) {
-	if !c.m.Loaded() {
+	if !c.m.Loaded() || c.m.Source().Path != c.lastSrc.Path || c.m.Source().Name != c.lastSrc.Name {
+		// the last reading failed: try it again with these settings
+		if c.lastSrc.Path == "" && c.lastSrc.Data == nil {
+			return
+		}
+		c.read(c.lastSrc, s, c.lastCorrs, c.lastProject)
 		return
 	}
 	c.read(c.m.Source(), s, c.m.Corrections(), c.m.ProjectPath())

@@ -266,6 +266,8 @@ func (v *printView) CreateRenderer() fyne.WidgetRenderer {
 	r.raster = canvas.NewRaster(r.draw)
 	r.raster.ScaleMode = canvas.ImageScalePixels
 	r.hint = canvas.NewText("Open a printout: File ▸ Open, or drop an image here", theme.Color(theme.ColorNameForeground))
+	r.scale = canvas.NewText("10 mm", scaleCol)
+	r.scale.TextSize = theme.CaptionTextSize()
 	return r
 }
 
@@ -274,6 +276,7 @@ type viewRenderer struct {
 	raster *canvas.Raster
 	labels []*canvas.Text
 	hint   *canvas.Text
+	scale  *canvas.Text // names the scale bar
 	buf    *image.NRGBA
 }
 
@@ -298,6 +301,8 @@ func (r *viewRenderer) Objects() []fyne.CanvasObject {
 	}
 	if r.v.src == nil {
 		objs = append(objs, r.hint)
+	} else if r.v.ctl.m.Loaded() {
+		objs = append(objs, r.scale)
 	}
 	return objs
 }
@@ -326,6 +331,15 @@ func (r *viewRenderer) placeLabels() {
 		r.labels = append(r.labels, t)
 	}
 	r.labels = r.labels[:len(views)]
+	if v.src != nil {
+		// beside the 10 mm bar drawn in the raster's bottom-left corner
+		y := math.Min((float64(v.src.Rect.Dy())-v.offY)*v.zoom, float64(v.Size().Height)) - 12
+		x := (0-v.offX)*v.zoom + 12
+		if a := v.ctl.m.Analysis(); a != nil {
+			x += 10*a.PxPerMM*v.zoom + 6
+		}
+		r.scale.Move(fyne.NewPos(float32(x), float32(y)-r.scale.MinSize().Height/2))
+	}
 	for i, pv := range views {
 		t := r.labels[i]
 		name := pv.Lead
