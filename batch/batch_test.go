@@ -562,6 +562,11 @@ func TestParseDocument(t *testing.T) {
 	if err != nil || !strings.Contains(string(b), `"heart_rate_bpm":null`) {
 		t.Errorf("NaN marshals as %s, %v", b, err)
 	}
+	// A page traced but not measured says so in the summary's error cell.
+	_, f, _ = ParseDocument([]byte(`{"image_sha256":"ab","measure_error":"axis: no beats found"}`))
+	if row := (Result{File: "x", Status: StatusOK, Findings: &f}).Row(); row.Error != "not measured: axis: no beats found" {
+		t.Errorf("row error %q", row.Error)
+	}
 }
 
 func TestHashMatchesSha256sum(t *testing.T) {

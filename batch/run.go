@@ -91,7 +91,12 @@ func (r Result) Row() Row {
 	if r.Findings != nil {
 		f = *r.Findings
 	}
-	return Row{File: r.File, Status: r.Status, Error: r.Error, Findings: f, Seconds: r.Seconds}
+	e := r.Error
+	if e == "" && f.MeasureError != "" {
+		// Traced but not measured: the signals are there, the findings not.
+		e = "not measured: " + f.MeasureError
+	}
+	return Row{File: r.File, Status: r.Status, Error: e, Findings: f, Seconds: r.Seconds}
 }
 
 // Report is the outcome of a batch.

@@ -155,7 +155,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
 	}
 	if fails := rep.Failures(); len(fails) > 0 {
-		fmt.Fprintf(stderr, "%d files failed:\n", len(fails))
+		fmt.Fprintf(stderr, "%d %s failed:\n", len(fails), plural(len(fails), "file", "files"))
 		const show = 50
 		for i, f := range fails {
 			if i == show {
@@ -479,4 +479,11 @@ func isTerminal(w io.Writer) bool {
 	}
 	fi, err := f.Stat()
 	return err == nil && fi.Mode()&os.ModeCharDevice != 0
+}
+
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
 }
