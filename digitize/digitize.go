@@ -210,7 +210,8 @@ type page struct {
 	g       *gray
 	rows    []rowInfo
 	pitch   float64
-	x0, x1  int // the common trace span of the rows
+	x0, x1  int     // the common trace span of the rows
+	x0f     float64 // the first sample's position, continuous px
 	pxPerS  float64
 	halfLn  float64
 	pxPerMM float64
@@ -239,7 +240,8 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	sort.Ints(starts)
 	sort.Ints(ends)
 	// The trace's first sample sits half a line width inside its ink.
-	pg.x0 = starts[len(starts)/2] + int(math.Round(pg.halfLn))
+	pg.x0f = startEdge(g, rows, starts[len(starts)/2]) + pg.halfLn
+	pg.x0 = int(math.Round(pg.x0f))
 	pg.x1 = ends[len(ends)/2] + 1 - int(math.Round(pg.halfLn))
 	if pg.x1 <= pg.x0+8 {
 		pg.x1 = min(g.w, pg.x0+8)
@@ -247,10 +249,15 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	return pg
 }
 
-// strokeHalfWidth estimates half the trace's line width from the
-// vertical ink runs at each row's baseline.
+// strokeHalfWidth estimates half the trace's line width, to a fraction
+// of a pixel: across a flat stretch of line the ink coverage summed down
+// a column is the line's width (the blur keeps sums).
 func strokeHalfWidth(g *gray, rows []rowInfo) float64 {
-	var runs []int
+	pix := g.raw
+	if pix == nil {
+		pix = g.pix
+	}
+	var ws []float64
 	for _, r := range rows {
 		y := int(r.base)
 		for x := r.x0; x < r.x1; x += 7 {
@@ -258,20 +265,88 @@ func strokeHalfWidth(g *gray, rows []rowInfo) float64 {
 				continue
 			}
 			a, b := y, y
-			for a > 0 && g.pix[(a-1)*g.w+x] >= 96 && y-a < 40 {
+			for a > 0 && g.pix[(a-1)*g.w+x] >= 32 && y-a < 40 {
 				a--
 			}
-			for b < g.h-1 && g.pix[(b+1)*g.w+x] >= 96 && b-y < 40 {
+			for b < g.h-1 && g.pix[(b+1)*g.w+x] >= 32 && b-y < 40 {
 				b++
 			}
-			runs = append(runs, b-a+1)
+			if b-a > 16 { // not a flat stretch
+				continue
+			}
+			core, sum := 0.0, 0.0
+			for i := a - 2; i <= b+2; i++ {
+				if i >= 0 && i < g.h {
+					v := float64(pix[i*g.w+x])
+					core = math.Max(core, v)
+				}
+			}
+			// The paper level under the line (what the blur left of a grid
+			// line, say) is the level at the ends of the window.
+			floor := 0.0
+			if a-3 >= 0 && b+3 < g.h {
+				floor = math.Min(float64(pix[(a-3)*g.w+x]), float64(pix[(b+3)*g.w+x]))
+			}
+			if core-floor < 32 {
+				continue
+			}
+			for i := a - 2; i <= b+2; i++ {
+				if i >= 0 && i < g.h {
+					sum += math.Max(0, float64(pix[i*g.w+x])-floor)
+				}
+			}
+			// A line thinner than the blur does not reach full strength;
+			// then the core understates it and the width is at least the
+			// blur's.
+			ws = append(ws, sum/(core-floor))
 		}
 	}
-	if len(runs) == 0 {
+	if len(ws) == 0 {
 		return 1
 	}
-	sort.Ints(runs)
-	return math.Max(0.5, float64(runs[len(runs)/4])/2)
+	sort.Float64s(ws)
+	return math.Max(0.5, ws[len(ws)/2]/2)
+}
+
+// startEdge returns the left edge of the ink where the traces begin, to
+// a fraction of a pixel: along the row through the first inked column,
+// the coverage summed up to a point well inside the line is the length
+// of line up to that point.
+func startEdge(g *gray, rows []rowInfo, s int) float64 {
+	pix := g.raw
+	if pix == nil {
+		pix = g.pix
+	}
+	var es []float64
+	for _, r := range rows {
+		if s-4 < 0 || s+5 >= g.w {
+			continue
+		}
+		best, yb := -1, -1
+		for y := max(0, int(r.base)-60); y < min(g.h, int(r.base)+60); y++ {
+			if v := int(pix[y*g.w+s+3]); v > best {
+				best, yb = v, y
+			}
+		}
+		if yb < 0 {
+			continue
+		}
+		row := pix[yb*g.w:]
+		core := math.Max(float64(row[s+3]), math.Max(float64(row[s+4]), float64(row[s+5])))
+		if core < 32 {
+			continue
+		}
+		sum := 0.0
+		for x := s - 4; x < s+4; x++ {
+			sum += math.Min(1, float64(row[x])/core)
+		}
+		es = append(es, float64(s+4)-sum)
+	}
+	if len(es) == 0 {
+		return float64(s)
+	}
+	sort.Float64s(es)
+	return es[len(es)/2]
 }
 
 // segTrace is one row segment's trace.
@@ -285,7 +360,7 @@ type segTrace struct {
 // in continuous px.
 func (pg *page) segBounds(n int) []float64 {
 	out := make([]float64, n+1)
-	w := float64(pg.x1 - pg.x0)
+	w := float64(pg.x1) - pg.x0f
 	colPx := w / float64(n)
 	// Snap to 2.5 s per column of a 10 s page when close (common practice).
 	if n > 1 {
@@ -294,7 +369,7 @@ func (pg *page) segBounds(n int) []float64 {
 		}
 	}
 	for i := range out {
-		out[i] = float64(pg.x0) + float64(i)*colPx
+		out[i] = pg.x0f + float64(i)*colPx
 	}
 	out[n] = math.Max(out[n], float64(pg.x1))
 	return out

@@ -106,6 +106,7 @@ func percentileHist(hist []int, n int, q float64) int {
 type gray struct {
 	w, h int
 	pix  []uint8
+	raw  []uint8 // the ink before blur and line removal (nil when not kept)
 }
 
 func (g *gray) at(x, y int) uint8 { return g.pix[y*g.w+x] }
@@ -131,13 +132,59 @@ func prepare(ink *image.Gray, pxPerMM float64) *gray {
 		r = 3
 	}
 	bl := boxBlur(src, r)
+	bl.raw = src.pix // the unblurred ink, before line removal
 	seg := int(math.Round(40 * pxPerMM)) // 40 mm: 1.6 s at 25 mm/s, 4 mV at 10 mm/mV
 	if seg < 64 {
 		seg = 64
 	}
-	suppressRows(bl, seg, 0.2)
-	suppressCols(bl, seg, 0.2)
+	x0, x1, y0, y1 := gridBox(bl)
+	suppressRows(bl, seg, 0.08, x0, x1)
+	suppressCols(bl, seg, 0.2, y0, y1)
 	return bl
+}
+
+// gridBox returns the extent of the printed area: the columns and rows
+// where at least 5 % of the pixels across hold some ink. Line removal
+// measures its levels inside it, so blank margins do not hide the lines.
+func gridBox(g *gray) (x0, x1, y0, y1 int) {
+	colN := make([]int, g.w)
+	rowN := make([]int, g.h)
+	for y := 0; y < g.h; y++ {
+		for x, v := range g.pix[y*g.w : (y+1)*g.w] {
+			if v > 8 {
+				colN[x]++
+				rowN[y]++
+			}
+		}
+	}
+	span := func(n []int, total int) (int, int) {
+		a, b := -1, -1
+		for i, c := range n {
+			if c*20 >= total {
+				if a < 0 {
+					a = i
+				}
+				b = i + 1
+			}
+		}
+		if a < 0 || b-a < len(n)/4 {
+			return 0, len(n)
+		}
+		return a, b
+	}
+	x0, x1 = span(colN, g.h)
+	y0, y1 = span(rowN, g.w)
+	return
+}
+
+// segments splits [a, b) into pieces of about seg.
+func segments(a, b, seg int) []int {
+	n := max(1, int(math.Round(float64(b-a)/float64(seg))))
+	out := make([]int, n+1)
+	for i := range out {
+		out[i] = a + (b-a)*i/n
+	}
+	return out
 }
 
 // boxBlur returns a (2r+1)² box blur of g (edges clamped).
@@ -190,45 +237,46 @@ func clampI(v, lo, hi int) int {
 	return v
 }
 
-func suppressRows(g *gray, seg int, q float64) {
+func suppressRows(g *gray, seg int, q float64, xa, xb int) {
 	var hist [256]int
+	cuts := segments(xa, xb, seg)
 	for y := 0; y < g.h; y++ {
 		row := g.pix[y*g.w : (y+1)*g.w]
-		for x0 := 0; x0 < g.w; x0 += seg {
-			x1 := min(x0+seg, g.w)
-			if g.w-x1 < seg/2 { // fold a short tail into this segment
-				x1 = g.w
-			}
+		for k := 0; k+1 < len(cuts); k++ {
+			x0, x1 := cuts[k], cuts[k+1]
 			hist = [256]int{}
 			for _, v := range row[x0:x1] {
 				hist[v]++
 			}
 			p := uint8(percentileHist(hist[:], x1-x0, q))
-			if p > 0 {
-				for x := x0; x < x1; x++ {
-					if row[x] > p {
-						row[x] -= p
-					} else {
-						row[x] = 0
-					}
-				}
+			if p == 0 {
+				continue
 			}
-			if x1 == g.w {
-				break
+			// The first and last segments reach out to the page edge.
+			if k == 0 {
+				x0 = 0
+			}
+			if k == len(cuts)-2 {
+				x1 = g.w
+			}
+			for x := x0; x < x1; x++ {
+				if row[x] > p {
+					row[x] -= p
+				} else {
+					row[x] = 0
+				}
 			}
 		}
 	}
 }
 
-func suppressCols(g *gray, seg int, q float64) {
+func suppressCols(g *gray, seg int, q float64, ya, yb int) {
 	w := g.w
 	hist := make([]uint16, w*256)
 	lvl := make([]uint8, w)
-	for y0 := 0; y0 < g.h; y0 += seg {
-		y1 := min(y0+seg, g.h)
-		if g.h-y1 < seg/2 {
-			y1 = g.h
-		}
+	cuts := segments(ya, yb, seg)
+	for k := 0; k+1 < len(cuts); k++ {
+		y0, y1 := cuts[k], cuts[k+1]
 		clear(hist)
 		for y := y0; y < y1; y++ {
 			row := g.pix[y*w : (y+1)*w]
@@ -236,7 +284,7 @@ func suppressCols(g *gray, seg int, q float64) {
 				hist[x*256+int(v)]++
 			}
 		}
-		k := int(q * float64(y1-y0))
+		kq := int(q * float64(y1-y0))
 		any := false
 		for x := 0; x < w; x++ {
 			h := hist[x*256 : x*256+256]
@@ -244,7 +292,7 @@ func suppressCols(g *gray, seg int, q float64) {
 			lvl[x] = 255
 			for v, n := range h {
 				c += int(n)
-				if c > k {
+				if c > kq {
 					lvl[x] = uint8(v)
 					break
 				}
@@ -253,21 +301,25 @@ func suppressCols(g *gray, seg int, q float64) {
 				any = true
 			}
 		}
-		if any {
-			for y := y0; y < y1; y++ {
-				row := g.pix[y*w : (y+1)*w]
-				for x, v := range row {
-					p := lvl[x]
-					if v > p {
-						row[x] = v - p
-					} else {
-						row[x] = 0
-					}
+		if !any {
+			continue
+		}
+		if k == 0 {
+			y0 = 0
+		}
+		if k == len(cuts)-2 {
+			y1 = g.h
+		}
+		for y := y0; y < y1; y++ {
+			row := g.pix[y*w : (y+1)*w]
+			for x, v := range row {
+				p := lvl[x]
+				if v > p {
+					row[x] = v - p
+				} else {
+					row[x] = 0
 				}
 			}
-		}
-		if y1 == g.h {
-			break
 		}
 	}
 }

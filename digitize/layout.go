@@ -167,14 +167,18 @@ func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) in
 	lim := min(x1, x0+int((0.35*speed+6)*pxPerMM))
 	var strokes []int
 	for x := from; x < lim; x++ {
-		run, best := 0, 0
+		// Longest vertical stretch of ink, bridging gaps of up to 3 px
+		// (where a removed grid line crossed the stroke).
+		start, last, best := -1, -1, 0
 		for y := ya; y < yb; y++ {
-			if g.pix[y*g.w+x] >= 64 {
-				run++
-				best = max(best, run)
-			} else {
-				run = 0
+			if g.pix[y*g.w+x] < 64 {
+				continue
 			}
+			if start < 0 || y-last > 4 {
+				start = y
+			}
+			last = y
+			best = max(best, last-start+1)
 		}
 		if float64(best) >= tall {
 			if n := len(strokes); n == 0 || x-strokes[n-1] > 2 {
@@ -202,17 +206,17 @@ func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) in
 				}
 				x++
 			}
-			for x < x1 { // and over the gap to the trace
-				inked := false
+			inkedAt := func(x int) bool {
 				for y := ya; y < yb; y++ {
-					if g.pix[y*g.w+x] >= 128 {
-						inked = true
-						break
+					if g.pix[y*g.w+x] >= 64 {
+						return true
 					}
 				}
-				if inked {
-					break
-				}
+				return false
+			}
+			// Over the gap to the trace: the first of three inked columns
+			// in a row (a leftover grid line is narrower).
+			for x+2 < x1 && !(inkedAt(x) && inkedAt(x+1) && inkedAt(x+2)) {
 				x++
 			}
 			return max(x, x0)

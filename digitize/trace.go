@@ -36,17 +36,24 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	if W <= 0 || H <= 2 {
 		return nil, nil
 	}
-	// Normalise ink: the median over columns of the column maximum is the
-	// strength of the trace's core (the trace crosses every column).
+	// Normalise ink by the strength of the trace's core: a high quantile
+	// over columns of the column maximum (the trace crosses every column,
+	// but where it lies on a removed grid line little of it is left).
+	// Column-major copy of the band: the passes below walk columns.
+	cm := make([]uint8, W*H)
+	for i := 0; i < H; i++ {
+		row := g.pix[(b.y0+i)*g.w+b.x0 : (b.y0+i)*g.w+b.x1]
+		for x, v := range row {
+			cm[x*H+i] = v
+		}
+	}
 	colMax := make([]int, W)
 	for x := 0; x < W; x++ {
-		m := 0
-		for y := b.y0; y < b.y1; y++ {
-			if v := int(g.pix[y*g.w+b.x0+x]); v > m {
-				m = v
-			}
+		m := uint8(0)
+		for _, v := range cm[x*H : (x+1)*H] {
+			m = max(m, v)
 		}
-		colMax[x] = m
+		colMax[x] = int(m)
 	}
 	sorted := append([]int(nil), colMax...)
 	sort.Ints(sorted)
@@ -74,9 +81,8 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	S := make([]int16, H)
 	pap := make([]float32, H)
 	for x := 0; x < W; x++ {
-		col := b.x0 + x
-		for i := 0; i < H; i++ {
-			pap[i] = paperLUT[g.pix[(b.y0+i)*g.w+col]]
+		for i, v := range cm[x*H : (x+1)*H] {
+			pap[i] = paperLUT[v]
 		}
 		if x == 0 {
 			for i := 0; i < H; i++ {
@@ -128,18 +134,19 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	runA := make([]int, W)
 	runZ := make([]int, W)
 	upper := make([]float64, W)
+	hidden := make([]bool, W)
 	lower := make([]float64, W)
 	maxExt := int(math.Max(0.4*b.pitch, 6*b.halfLine))
 	hw := b.halfLine
 	for x := 0; x < W; x++ {
-		col := b.x0 + x
+		cx := cm[x*H : (x+1)*H]
 		p := path[x]
 		q := p
 		if x > 0 {
 			q = path[x-1]
 		}
 		lo, hi := min(p, q), max(p, q)
-		at := func(i int) float32 { return inkLUT[g.pix[(b.y0+i)*g.w+col]] }
+		at := func(i int) float32 { return inkLUT[cx[i]] }
 		runA[x], runZ[x] = -1, -1
 		if at(p) < runThresh {
 			found := -1
@@ -151,7 +158,14 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 				}
 			}
 			if found < 0 {
+				// Nothing left here after line removal. If the page had
+				// ink under the path before, the trace runs along (or is
+				// hidden by) a grid line as dark as itself: keep the
+				// path's row, with low confidence.
 				ys[x] = math.NaN()
+				if g.raw != nil && float64(g.raw[(b.y0+p)*g.w+b.x0+x]) >= inkSolid*norm {
+					hidden[x] = true
+				}
 				continue
 			}
 			lo, hi = min(lo, found), max(hi, found)
@@ -236,6 +250,12 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 			ys[x] = Z
 		default: // a peak
 			ys[x] = A
+		}
+	}
+	for x := range ys {
+		if hidden[x] && math.IsNaN(ys[x]) {
+			ys[x] = float64(b.y0+path[x]) + 0.0
+			conf[x] = 0.15
 		}
 	}
 	fillShortGaps(ys, conf, 0)
