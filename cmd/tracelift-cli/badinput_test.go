@@ -532,3 +532,57 @@ func TestBatchListCLI(t *testing.T) {
 		t.Error("an output climbed out of OUT")
 	}
 }
+
+// TestPageWorkerFailures drives the child-process runner with stand-in
+// workers (shell scripts) that crash, fail, answer nonsense or hang.
+func TestPageWorkerFailures(t *testing.T) {
+	dir := t.TempDir()
+	script := func(name, body string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte("#!/bin/sh\n"+body+"\n"), 0o755); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	cases := []struct {
+		name, body string
+		timeout    time.Duration
+		want       []string
+		not        []string
+	}{
+		{"segfault", "kill -SEGV $$", time.Minute, []string{"page.png", "crashed", "segmentation fault", "report"}, nil},
+		{"go panic", `echo "panic: index out of range [3]" >&2; echo "goroutine 1 [running]:" >&2; exit 2`, time.Minute,
+			[]string{"page.png", "crashed", "index out of range"}, []string{"goroutine"}},
+		{"clear failure", `echo "some noise" >&2; echo "tracelift-cli batch: calib: page.png: no ECG grid found; scan it again" >&2; exit 1`, time.Minute,
+			[]string{"calib: page.png: no ECG grid found; scan it again"}, []string{"noise", "tracelift-cli batch:"}},
+		{"bad answer", `echo "not json"`, time.Minute, []string{"page.png", "does not parse"}, nil},
+		{"hang", "sleep 30", 300 * time.Millisecond, []string{"deadline"}, nil},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			proc := childProcess(script(strings.ReplaceAll(c.name, " ", "_"), c.body), nil, []string{"csv", "json"})
+			ctx, cancel := context.WithTimeout(context.Background(), c.timeout)
+			defer cancel()
+			t0 := time.Now()
+			_, err := proc(ctx, "page.png", t.TempDir(), "page")
+			// The whole process group is killed at the deadline, so the
+			// stray "sleep" does not hold the pipes for WaitDelay (2 s).
+			if d := time.Since(t0); d > c.timeout+time.Second {
+				t.Errorf("took %v: the worker was not stopped", d)
+			}
+			if err == nil {
+				t.Fatal("no error")
+			}
+			for _, w := range c.want {
+				if !strings.Contains(err.Error(), w) {
+					t.Errorf("error %q lacks %q", err, w)
+				}
+			}
+			for _, w := range c.not {
+				if strings.Contains(err.Error(), w) {
+					t.Errorf("error %q holds %q", err, w)
+				}
+			}
+		})
+	}
+}

@@ -55,7 +55,9 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("batch", flag.ContinueOnError)
 	var b batchFlags
 	b.common.register(fs)
-	fs.IntVar(&b.jobs, "jobs", runtime.NumCPU(), "pages digitized at once")
+	// GOMAXPROCS, not NumCPU: since Go 1.25 it follows a container's CPU
+	// limit (cgroup quota) as well as the CPU affinity a scheduler set.
+	fs.IntVar(&b.jobs, "jobs", runtime.GOMAXPROCS(0), "pages digitized at once (default: the CPUs this process may use)")
 	fs.StringVar(&b.shard, "shard", "", "do only shard K of N (K/N, 1-based): N processes with K = 1…N cover every file once")
 	fs.DurationVar(&b.pageTimeout, "page-timeout", batch.DefaultPageTimeout, "give up a page after this long (0 = never)")
 	fs.BoolVar(&b.inProcess, "in-process", false, "digitize in this process instead of one child process per page (faster to start; a stuck page cannot be stopped, only abandoned)")
@@ -301,6 +303,7 @@ func childProcess(exe string, shared []string, formats []string) batch.ProcessFu
 		var out bytes.Buffer
 		errs := &headBuffer{max: 16 << 10}
 		cmd.Stdout, cmd.Stderr = &out, errs
+		batch.Isolate(cmd)
 		cmd.WaitDelay = 2 * time.Second
 		err := cmd.Run()
 		if cmd.ProcessState != nil {
