@@ -77,6 +77,7 @@ func ptbTen(t testing.TB) *record.Record {
 // phone photos, ≥ 12 dB faxes; no lead missing.
 //
 //	TRACELIFT_SWEEP=1 go test -run TestTraceSweep -v ./digitize
+//	TRACELIFT_SWEEP=1 TRACELIFT_SWEEP_CALIB=1 go test -run TestTraceSweep -v ./digitize  (end to end through calib.Detect)
 func TestTraceSweep(t *testing.T) {
 	if os.Getenv("TRACELIFT_SWEEP") == "" {
 		t.Skip("set TRACELIFT_SWEEP=1 to run the sweep")
@@ -102,7 +103,12 @@ func TestTraceSweep(t *testing.T) {
 	}
 	sort.Float64s(ceil)
 	t.Logf("PTB s0010_re: median SNR of the record against its own 2-sample average: %.1f dB (an upper bound for any tracing at 300 dpi)", ceil[len(ceil)/2])
-	t.Log("calibration: built from the renderer's truth (scale, gain, speed, and for degraded pages the inverse of its page-to-image map); calib.Detect is not used in this sweep")
+	viaCalib := os.Getenv("TRACELIFT_SWEEP_CALIB") != ""
+	if viaCalib {
+		t.Log("calibration: calib.Detect on the degraded image (end to end)")
+	} else {
+		t.Log("calibration: built from the renderer's truth (scale, gain, speed, and for degraded pages the inverse of its page-to-image map); calib.Detect is not used (TRACELIFT_SWEEP_CALIB=1 uses it)")
+	}
 	rng := rand.New(rand.NewSource(7))
 	type row struct {
 		snr     []float64
@@ -140,6 +146,16 @@ func TestTraceSweep(t *testing.T) {
 			if cond == "clean" {
 				cal.Rectified = q.Image
 			}
+			if viaCalib {
+				c, err := calib.Detect(contextBG(), &calib.Page{Image: q.Image}, calib.Options{})
+				if err != nil {
+					t.Logf("%s %s %s: calib: %v", cond, rec.Name, st.Layout, err)
+					r.pages++
+					r.missing += len(p.Truth.Signals.Signals)
+					continue
+				}
+				cal = c
+			}
 			t0 := time.Now()
 			res, err := runCal(cal)
 			r.secs = append(r.secs, time.Since(t0).Seconds())
@@ -171,11 +187,14 @@ func TestTraceSweep(t *testing.T) {
 		r := table[cond]
 		sort.Float64s(r.snr)
 		sort.Float64s(r.secs)
-		med, p10 := math.Inf(-1), math.Inf(-1)
+		med, p10, secs := math.Inf(-1), math.Inf(-1), math.NaN()
+		if len(r.secs) > 0 {
+			secs = r.secs[len(r.secs)/2]
+		}
 		if len(r.snr) > 0 {
 			med, p10 = r.snr[len(r.snr)/2], r.snr[len(r.snr)/10]
 		}
-		t.Logf("%-10s %5d  %13.1f  %10.1f  %13d  %8d/%d  %8.2f", cond, r.pages, med, p10, r.missing, r.layouts, r.pages, r.secs[len(r.secs)/2])
+		t.Logf("%-10s %5d  %13.1f  %10.1f  %13d  %8d/%d  %8.2f", cond, r.pages, med, p10, r.missing, r.layouts, r.pages, secs)
 	}
 }
 
