@@ -331,7 +331,13 @@ func (c *Controller) edited(err error) {
 	c.refresh()
 	ch := c.m.Changes()
 	msg := "Edit applied; measurements unchanged."
-	if len(ch) > 0 {
+	if c.m.Summary() == nil {
+		msg = "Edit applied; not measured"
+		if e := c.m.MeasureErr(); e != nil {
+			msg += ": " + e.Error()
+		}
+		msg += "."
+	} else if len(ch) > 0 {
 		msg = fmt.Sprintf("Edit applied; %d measurements changed (see Reading ▸ What changed).", len(ch))
 	}
 	if e := c.m.SaveErr(); e != nil {

@@ -37,6 +37,7 @@ func newFindingsView(c *Controller) *findingsView {
 	f.caution = caution
 	f.values = widget.NewLabel("Nothing measured yet.")
 	f.values.TextStyle = fyne.TextStyle{Monospace: true}
+	f.values.Wrapping = fyne.TextWrapWord
 	f.axes = widget.NewLabel("")
 	f.axes.Wrapping = fyne.TextWrapWord
 	f.flags = widget.NewLabel("")

@@ -43,7 +43,7 @@ type printView struct {
 	zoom float64      // screen units per image px
 	offX float64      // image px at the view's left edge
 	offY float64
-	fit  bool // refit on the next layout
+	fit  bool // show the whole page, refitting on every resize, until the user zooms or pans
 
 	tool     Tool
 	selected int // panel chosen with a click (-1 none)
@@ -107,7 +107,6 @@ func (v *printView) fitNow() {
 	v.zoom = math.Min(float64(sz.Width)/w, float64(sz.Height)/h)
 	v.offX = -(float64(sz.Width)/v.zoom - w) / 2
 	v.offY = -(float64(sz.Height)/v.zoom - h) / 2
-	v.fit = false
 }
 
 func (v *printView) toImage(p fyne.Position) [2]float64 {
@@ -116,6 +115,7 @@ func (v *printView) toImage(p fyne.Position) [2]float64 {
 
 // zoomBy multiplies the zoom keeping the image point under p in place.
 func (v *printView) zoomBy(f float64, p fyne.Position) {
+	v.fit = false
 	at := v.toImage(p)
 	v.zoom = math.Min(math.Max(v.zoom*f, 0.02), 20)
 	v.offX = at[0] - float64(p.X)/v.zoom
@@ -129,6 +129,7 @@ func (v *printView) zoomCentre(f float64) {
 }
 
 func (v *printView) pan(dxUnits, dyUnits float64) {
+	v.fit = false
 	v.offX -= dxUnits / v.zoom
 	v.offY -= dyUnits / v.zoom
 	v.Refresh()

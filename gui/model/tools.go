@@ -16,7 +16,7 @@ import (
 // (px/mm · mm/s), mV = sign · (baseline − y) / (px/mm · mm/mV)).
 
 // ErrNoPanel is returned when an edit names no panel.
-var ErrNoPanel = errors.New("model: no panel there")
+var ErrNoPanel = errors.New("model: no panel there; start on a panel (its box is outlined)")
 
 func (m *Model) panel(i int) (*PanelView, error) {
 	if m.a == nil || i < 0 || i >= len(m.views) {
@@ -153,7 +153,11 @@ func (m *Model) Redraw(i int, pts [][2]float64) error {
 		ps = append(ps, record.Point{TS: t, MV: m.MVAt(i, p[1])})
 	}
 	sort.SliceStable(ps, func(a, b int) bool { return ps[a].TS < ps[b].TS })
-	if len(ps) < 2 || ps[len(ps)-1].TS-ps[0].TS < 1/m.a.Raw.Signals[0].RateHz {
+	rate := 500.0
+	if s := m.rec.Lead(v.Lead); s != nil {
+		rate = s.RateHz
+	}
+	if len(ps) < 2 || ps[len(ps)-1].TS-ps[0].TS < 1/rate {
 		return fmt.Errorf("model: draw along the trace, across at least two samples")
 	}
 	return m.Edit(record.Correction{Kind: record.CorrRedraw, Lead: v.Lead, Points: ps})
