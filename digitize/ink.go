@@ -132,7 +132,7 @@ func prepare(ink *image.Gray, pxPerMM float64) *gray {
 		r = 3
 	}
 	bl := boxBlur(src, r)
-	bl.raw = src.pix // the unblurred ink, before line removal
+	bl.raw = src.pix                     // the unblurred ink, before line removal
 	seg := int(math.Round(40 * pxPerMM)) // 40 mm: 1.6 s at 25 mm/s, 4 mV at 10 mm/mV
 	if seg < 64 {
 		seg = 64
