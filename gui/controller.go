@@ -267,6 +267,9 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 				return
 			}
 			ierr := c.m.Install(src, a, s, corrs, projectPath)
+			if s != (model.Settings{}) {
+				c.m.Save() // the settings are part of the project too; an error shows on the Reading tab
+			}
 			c.view.selected = -1
 			c.view.setImage(a.Image)
 			c.refresh()
@@ -318,7 +321,17 @@ func (c *Controller) Reread(s model.Settings) {
 		c.read(c.lastSrc, s, c.lastCorrs, c.lastProject)
 		return
 	}
-	c.read(c.m.Source(), s, c.m.Corrections(), c.m.ProjectPath())
+	corrs := c.m.Corrections()
+	if s.Page != c.m.Settings().Page && len(corrs) > 0 {
+		// The corrections belong to the other page: keep them aside.
+		if pp := c.m.ProjectPath(); pp != "" {
+			if kept, err := model.SetAside(pp, time.Now()); err == nil {
+				dialog.ShowInformation("Another page", "The corrections of the page you leave are kept in "+filepath.Base(kept)+".", c.win)
+			}
+		}
+		corrs = nil
+	}
+	c.read(c.m.Source(), s, corrs, c.m.ProjectPath())
 }
 
 // edited is called after each edit attempt from the view.

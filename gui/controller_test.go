@@ -234,3 +234,74 @@ func TestControllerProjectReopens(t *testing.T) {
 		t.Fatalf("the old project was not kept aside: %v", kept)
 	}
 }
+
+// Settings typed on the Reading tab re-read the printout, are kept in the
+// project with the corrections, and come back on reopening.
+func TestControllerSettingsKept(t *testing.T) {
+	dir := t.TempDir()
+	img := filepath.Join(dir, "page.png")
+	os.WriteFile(img, []byte("page bytes"), 0o644)
+	c := newTestController(t)
+	c.OpenPath(img)
+	c.Wait()
+	if err := c.Model().Erase(0, 100, 150); err != nil {
+		t.Fatal(err)
+	}
+	c.side.gain.SetText("20")
+	c.side.applySettings()
+	c.Wait()
+	if g := c.Model().Settings().GainMMPerMV; g != 20 {
+		t.Fatalf("gain setting %v, want 20", g)
+	}
+	if n := len(c.Model().Corrections()); n != 1 {
+		t.Fatalf("%d corrections after the re-read, want 1", n)
+	}
+	c.side.gain.SetText("ten")
+	c.side.applySettings()
+	c.Wait()
+	if g := c.Model().Settings().GainMMPerMV; g != 20 {
+		t.Fatalf("a bad number changed the gain to %v", g)
+	}
+	c2 := newTestController(t)
+	c2.OpenPath(img)
+	c2.Wait()
+	if g := c2.Model().Settings().GainMMPerMV; g != 20 || len(c2.Model().Corrections()) != 1 {
+		t.Fatalf("reopened: gain %v, %d corrections", g, len(c2.Model().Corrections()))
+	}
+}
+
+// The wheel zooms about the pointer, the arrow keys and a Look drag pan,
+// and "0" shows the whole page again.
+func TestControllerZoomAndPan(t *testing.T) {
+	c := newTestController(t)
+	c.ShowDemo()
+	c.Wait()
+	v := c.view
+	v.Resize(fyne.NewSize(800, 500))
+	v.fitNow()
+	z0 := v.zoom
+	p := fyne.NewPos(400, 250)
+	at := v.toImage(p)
+	v.Scrolled(&fyne.ScrollEvent{PointEvent: fyne.PointEvent{Position: p}, Scrolled: fyne.Delta{DY: 200}})
+	if !(v.zoom > z0) {
+		t.Fatalf("wheel up did not zoom in: %v -> %v", z0, v.zoom)
+	}
+	if got := v.toImage(p); math.Abs(got[0]-at[0]) > 1e-6 || math.Abs(got[1]-at[1]) > 1e-6 {
+		t.Fatalf("zoom moved the point under the pointer: %v -> %v", at, got)
+	}
+	x0 := v.offX
+	c.key(fyne.KeyRight)
+	if !(v.offX > x0) {
+		t.Fatal("right arrow did not pan")
+	}
+	x1 := v.offX
+	v.Dragged(&fyne.DragEvent{PointEvent: fyne.PointEvent{Position: fyne.NewPos(300, 200)}, Dragged: fyne.Delta{DX: 50}})
+	v.DragEnd()
+	if !(v.offX < x1) {
+		t.Fatal("a Look drag to the right did not pan")
+	}
+	c.win.Canvas().(interface{ OnTypedRune() func(rune) }).OnTypedRune()('0')
+	if !v.fit {
+		t.Fatal("0 did not return to the whole page")
+	}
+}

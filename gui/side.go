@@ -27,6 +27,7 @@ type sidePanel struct {
 	gain    *widget.Entry
 	speed   *widget.Entry
 	layout  *widget.Select
+	page    *widget.Select
 	panel   *widget.Label
 	lead    *widget.Select
 	changes *widget.Label
@@ -45,6 +46,8 @@ func newSidePanel(c *Controller) *sidePanel {
 	p.speed = widget.NewEntry()
 	p.layout = widget.NewSelect([]string{layoutAuto}, nil)
 	p.layout.SetSelected(layoutAuto)
+	p.page = widget.NewSelect([]string{"1"}, nil)
+	p.page.SetSelected("1")
 	apply := widget.NewButton("Read again with these", p.applySettings)
 	apply.Importance = widget.HighImportance
 	reset := widget.NewButton("Back to found values", func() { c.Reread(model.Settings{}) })
@@ -53,6 +56,7 @@ func newSidePanel(c *Controller) *sidePanel {
 		widget.NewFormItem("Gain (mm/mV)", p.gain),
 		widget.NewFormItem("Speed (mm/s)", p.speed),
 		widget.NewFormItem("Layout", p.layout),
+		widget.NewFormItem("Page", p.page),
 	)
 	p.panel = widget.NewLabel("Click a panel on the printout to choose it.")
 	p.panel.Wrapping = fyne.TextWrapWord
@@ -117,6 +121,9 @@ func (p *sidePanel) applySettings() {
 	if p.layout.Selected != layoutAuto {
 		s.Layout = p.layout.Selected
 	}
+	if n, err := strconv.Atoi(p.page.Selected); err == nil && n > 1 {
+		s.Page = n - 1
+	}
 	p.c.Reread(s)
 }
 
@@ -150,6 +157,18 @@ func (p *sidePanel) refresh() {
 		p.layout.SetSelected(s.Layout)
 	} else {
 		p.layout.SetSelected(layoutAuto)
+	}
+
+	var pages []string
+	for k := 1; k <= max(a.PageCount, 1); k++ {
+		pages = append(pages, strconv.Itoa(k))
+	}
+	p.page.Options = pages
+	p.page.SetSelected(strconv.Itoa(s.Page + 1))
+	if len(pages) > 1 {
+		p.page.Enable()
+	} else {
+		p.page.Disable()
 	}
 
 	if i := p.c.view.selected; i >= 0 && i < len(m.Panels()) {

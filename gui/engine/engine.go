@@ -58,6 +58,7 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 	if s.Layout != "" {
 		opt.Digitize.Layout = s.Layout
 	}
+	opt.Load.Page = s.Page
 	p("opening", 0.02)
 	var pg *calib.Page
 	var err error
@@ -93,10 +94,11 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 		GainMMPerMV: cal.GainMMPerMV, SpeedMMPerS: cal.SpeedMMPerS,
 		ScaleSource: cal.Source, ScaleConf: cal.Confidence,
 		Layout: dr.Layout, Layouts: Layouts,
-		Quality:  map[string]float64{},
-		Raw:      dr.Record,
-		Warnings: cal.Warnings,
-		Handle:   &state{page: pg, cal: cal, dr: dr},
+		Quality:   map[string]float64{},
+		Raw:       dr.Record,
+		Warnings:  cal.Warnings,
+		PageCount: max(pg.PageCount, 1),
+		Handle:    &state{page: pg, cal: cal, dr: dr},
 	}
 	if a.Name == "" {
 		a.Name = pg.Path

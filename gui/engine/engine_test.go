@@ -105,3 +105,60 @@ func TestExport(t *testing.T) {
 		}
 	}
 }
+
+// Moving a panel's box through the model re-derives that lead with the
+// real digitizer: narrowing the box to its left half leaves the right half
+// of the panel's window as a gap, and undo gives the reading back exactly.
+func TestBoxMoveRederives(t *testing.T) {
+	if testing.Short() {
+		t.Skip("reads a 300-dpi page")
+	}
+	src, _ := Demo()
+	b := &Backend{}
+	a, err := b.Analyze(context.Background(), src, model.Settings{}, func(string, float64) {})
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := model.New(b)
+	if err := m.Install(src, a, model.Settings{}, nil, ""); err != nil {
+		t.Fatal(err)
+	}
+	i := -1
+	for k, p := range m.Panels() {
+		if !p.Rhythm && m.Record().Lead(p.Lead) != nil {
+			i = k
+			break
+		}
+	}
+	if i < 0 {
+		t.Skip("the demo reading has no plain panel")
+	}
+	p := m.Panels()[i]
+	gaps := func() int {
+		s := m.Record().Lead(p.Lead)
+		n := 0
+		for _, v := range s.MV {
+			if math.IsNaN(v) {
+				n++
+			}
+		}
+		return n
+	}
+	before := gaps()
+	box := p.Box
+	box[2] = (box[0] + box[2]) / 2
+	if err := m.MoveBox(i, box); err != nil {
+		t.Fatal(err)
+	}
+	after := gaps()
+	// Half the panel's window at the record's rate is lost (give or take
+	// the trace's own ends).
+	half := int((p.T1S - p.T0S) / 2 * m.Record().Lead(p.Lead).RateHz)
+	if after-before < half*8/10 {
+		t.Fatalf("lead %s: gaps %d -> %d, want about %d more", p.Lead, before, after, half)
+	}
+	m.Undo()
+	if gaps() != before {
+		t.Fatalf("undo: %d gaps, want %d", gaps(), before)
+	}
+}

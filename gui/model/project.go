@@ -94,6 +94,9 @@ func (p *Project) check() error {
 			return fmt.Errorf("model: project file: setting %v out of range", v)
 		}
 	}
+	if s.Page < 0 || s.Page > 100000 {
+		return fmt.Errorf("model: project file: page %d out of range", s.Page)
+	}
 	for i := range p.Corrections {
 		if err := record.CheckCorrection(&p.Corrections[i]); err != nil {
 			return fmt.Errorf("model: project file: correction %d: %w", i+1, err)

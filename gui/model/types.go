@@ -32,6 +32,7 @@ type Settings struct {
 	GainMMPerMV float64 `json:"gain_mm_per_mv,omitempty"` // 0 = as found (10 when nothing says otherwise)
 	SpeedMMPerS float64 `json:"speed_mm_per_s,omitempty"` // 0 = as found (25 when nothing says otherwise)
 	Layout      string  `json:"layout,omitempty"`         // "" = found automatically
+	Page        int     `json:"page,omitempty"`           // 0-based page of a multi-page TIFF or PDF
 }
 
 // Panel is one drawn lead on the printout as the model shows it.
@@ -65,6 +66,7 @@ type Analysis struct {
 	Quality      map[string]float64 // per printed lead, 0..1
 	Raw          *record.Record
 	Warnings     []string
+	PageCount    int // pages in the file (1 for a plain image)
 	Handle       any // backend's own state
 }
 
