@@ -41,11 +41,9 @@ func Compare(ref, est *Signal, t0, t1 float64) Accuracy {
 	}
 	step := 1 / math.Max(ref.RateHz, est.RateHz)
 	nShift := int(math.Round(MaxShiftS / step))
-	best := a
 	r := make([]float64, 0, i1-i0)
 	e := make([]float64, 0, i1-i0)
-	for k := -nShift; k <= nShift; k++ {
-		shift := float64(k) * step
+	try := func(shift float64, best Accuracy) Accuracy {
 		r, e = r[:0], e[:0]
 		for i := i0; i < i1; i++ {
 			t := ref.StartS + float64(i)*dt
@@ -58,7 +56,7 @@ func Compare(ref, est *Signal, t0, t1 float64) Accuracy {
 			e = append(e, ev)
 		}
 		if len(r) < 2 {
-			continue
+			return best
 		}
 		cur := score(r, e)
 		cur.Lead = ref.Lead
@@ -67,7 +65,23 @@ func Compare(ref, est *Signal, t0, t1 float64) Accuracy {
 		// Prefer coverage first (a shift must not win by dropping samples),
 		// then SNR.
 		if cur.SNRdB > best.SNRdB && cur.Coverage >= best.Coverage-0.02 {
-			best = cur
+			return cur
+		}
+		return best
+	}
+	best := a
+	for k := -nShift; k <= nShift; k++ {
+		best = try(float64(k)*step, best)
+	}
+	// Refine to a tenth of a sample around the best whole-sample shift, so
+	// that a sub-sample offset of the time axis is not scored as
+	// amplitude error.
+	if !math.IsInf(best.SNRdB, -1) {
+		c := best.ShiftS
+		for k := -9; k <= 9; k++ {
+			if s := c + float64(k)*step/10; math.Abs(s) <= MaxShiftS {
+				best = try(s, best)
+			}
 		}
 	}
 	return best
