@@ -46,7 +46,7 @@ func BenchmarkBatch300dpi(b *testing.B) {
 		for _, jobs := range []int{1, 2} {
 			b.Run(fmt.Sprintf("%s/jobs=%d", mode, jobs), func(b *testing.B) {
 				var elapsed time.Duration
-				peak := 0.0
+				peak, cpu := 0.0, 0.0
 				for i := 0; i < b.N; i++ {
 					out := filepath.Join(tmp, fmt.Sprintf("out-%s-%d-%d", mode, jobs, i))
 					args := []string{"batch", in, "-o", out, "--jobs", fmt.Sprint(jobs), "--quiet", "--no-resume"}
@@ -59,29 +59,33 @@ func BenchmarkBatch300dpi(b *testing.B) {
 					if err != nil {
 						b.Fatalf("batch: %v\n%s", err, res)
 					}
-					peak = max(peak, peakRSS(b, filepath.Join(out, "batch-log.jsonl")))
+					p, c := usageOf(b, filepath.Join(out, "batch-log.jsonl"))
+					peak, cpu = max(peak, p), cpu+c
 				}
 				b.ReportMetric(float64(pages*b.N)/elapsed.Minutes(), "pages/min")
 				if mode == "child" {
 					b.ReportMetric(peak, "peakMB/worker")
+					b.ReportMetric(cpu/float64(pages*b.N), "cpu-s/page")
 				}
 			})
 		}
 	}
 }
 
-func peakRSS(b *testing.B, log string) float64 {
+// usageOf returns the largest peak memory and the summed processor time
+// of the page workers in a batch log.
+func usageOf(b *testing.B, log string) (peak, cpu float64) {
 	f, err := os.Open(log)
 	if err != nil {
 		b.Fatal(err)
 	}
 	defer f.Close()
-	peak := 0.0
 	sc := bufio.NewScanner(f)
 	for sc.Scan() {
 		var r struct {
 			Status string  `json:"status"`
 			RSS    float64 `json:"peak_rss_mb"`
+			CPU    float64 `json:"cpu_s"`
 			Error  string  `json:"error"`
 		}
 		if err := json.Unmarshal(sc.Bytes(), &r); err != nil {
@@ -90,7 +94,7 @@ func peakRSS(b *testing.B, log string) float64 {
 		if r.Status != "ok" {
 			b.Fatalf("a page failed: %s", r.Error)
 		}
-		peak = max(peak, r.RSS)
+		peak, cpu = max(peak, r.RSS), cpu+r.CPU
 	}
-	return peak
+	return peak, cpu
 }

@@ -34,6 +34,7 @@ type FileResult struct {
 	Findings  Findings
 	TimingsMS map[string]float64
 	PeakRSSMB float64 // peak resident memory of the worker process, when known
+	CPUSecond float64 // processor time of the worker process (user + system), when known
 }
 
 // ProcessFunc digitizes the image at in and writes its outputs into dir
@@ -82,6 +83,7 @@ type Result struct {
 	TimingsMS map[string]float64 `json:"timings_ms,omitempty"`
 	Findings  *Findings          `json:"findings,omitempty"`
 	PeakRSSMB float64            `json:"peak_rss_mb,omitempty"`
+	CPUSecond float64            `json:"cpu_s,omitempty"`
 	Worker    int                `json:"worker"`
 }
 
@@ -309,7 +311,7 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 	if !abandoned {
 		defer os.RemoveAll(scratch)
 	}
-	r.TimingsMS, r.PeakRSSMB = fr.TimingsMS, fr.PeakRSSMB
+	r.TimingsMS, r.PeakRSSMB, r.CPUSecond = fr.TimingsMS, fr.PeakRSSMB, fr.CPUSecond
 	if err != nil {
 		r.Error = err.Error()
 		return r

@@ -306,9 +306,13 @@ func childProcess(exe string, shared []string, formats []string) batch.ProcessFu
 		batch.Isolate(cmd)
 		cmd.WaitDelay = 2 * time.Second
 		err := cmd.Run()
-		if cmd.ProcessState != nil {
-			fr.PeakRSSMB = maxRSSMB(cmd.ProcessState)
+		usage := func() {
+			if ps := cmd.ProcessState; ps != nil {
+				fr.PeakRSSMB = maxRSSMB(ps)
+				fr.CPUSecond = (ps.UserTime() + ps.SystemTime()).Seconds()
+			}
 		}
+		usage()
 		if ctx.Err() != nil {
 			return fr, ctx.Err()
 		}
@@ -322,9 +326,7 @@ func childProcess(exe string, shared []string, formats []string) batch.ProcessFu
 		if err := json.Unmarshal(out.Bytes(), &fr); err != nil {
 			return fr, fmt.Errorf("%s: the page worker's answer does not parse (%v); this is a bug, please report it", in, err)
 		}
-		if cmd.ProcessState != nil {
-			fr.PeakRSSMB = maxRSSMB(cmd.ProcessState)
-		}
+		usage()
 		return fr, nil
 	}
 }
