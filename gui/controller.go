@@ -351,7 +351,7 @@ func (c *Controller) edited(err error) {
 		}
 		msg += "."
 	} else if len(ch) > 0 {
-		msg = fmt.Sprintf("Edit applied; %d measurements changed (see Reading ▸ What changed).", len(ch))
+		msg = fmt.Sprintf("Edit applied; %d measurements changed (listed on the Findings tab).", len(ch))
 	}
 	if e := c.m.SaveErr(); e != nil {
 		msg += " NOT SAVED: " + e.Error()

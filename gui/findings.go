@@ -24,6 +24,7 @@ type findingsView struct {
 	obj     fyne.CanvasObject
 	caution *widget.Label
 	values  *widget.Label
+	changed *widget.Label
 	axes    *widget.Label
 	flags   *widget.Label
 	dial    *hexaxial
@@ -38,6 +39,9 @@ func newFindingsView(c *Controller) *findingsView {
 	f.values = widget.NewLabel("Nothing measured yet.")
 	f.values.TextStyle = fyne.TextStyle{Monospace: true}
 	f.values.Wrapping = fyne.TextWrapWord
+	f.changed = widget.NewLabel("")
+	f.changed.Wrapping = fyne.TextWrapWord
+	f.changed.Importance = widget.HighImportance
 	f.axes = widget.NewLabel("")
 	f.axes.Wrapping = fyne.TextWrapWord
 	f.flags = widget.NewLabel("")
@@ -45,7 +49,7 @@ func newFindingsView(c *Controller) *findingsView {
 	f.dial = newHexaxial()
 	f.obj = container.NewVScroll(container.NewVBox(
 		caution,
-		heading("Measurements (value ± uncertainty)"), f.values,
+		heading("Measurements (value ± uncertainty)"), f.values, f.changed,
 		heading("Frontal axes"), container.NewCenter(f.dial), f.axes,
 		heading("Flags"), f.flags,
 	))
@@ -54,6 +58,16 @@ func newFindingsView(c *Controller) *findingsView {
 
 func (f *findingsView) refresh() {
 	m := f.c.m
+	var ch []string
+	for _, c := range m.Changes() {
+		ch = append(ch, fmt.Sprintf("%s %s → %s", c.Label, c.Before, c.After))
+	}
+	if len(ch) > 0 {
+		f.changed.SetText("Changed by the last edit: " + strings.Join(ch, "; "))
+		f.changed.Show()
+	} else {
+		f.changed.Hide()
+	}
 	s := m.Summary()
 	if s == nil {
 		msg := "Not measured."
@@ -128,8 +142,12 @@ func (h *hexaxial) CreateRenderer() fyne.WidgetRenderer {
 		t.TextSize = theme.CaptionTextSize()
 		r.texts = append(r.texts, t)
 	}
-	for _, n := range []string{"QRS", "P", "T"} {
-		t := canvas.NewText(n, axisColors[n])
+	for _, n := range []string{"QRS", "P", "T", "grey arc: normal QRS −30° to +90°"} {
+		col, ok := axisColors[n]
+		if !ok {
+			col = color.NRGBA{0x80, 0x80, 0x90, 0xff}
+		}
+		t := canvas.NewText(n, col)
 		t.TextStyle = fyne.TextStyle{Bold: true}
 		t.TextSize = theme.CaptionTextSize()
 		r.keys = append(r.keys, t)
@@ -207,7 +225,7 @@ func (r *hexRenderer) draw(w, h int) image.Image {
 	for s := -30; s < 90; s++ {
 		a0, a1 := float64(s)*math.Pi/180, float64(s+1)*math.Pi/180
 		rr := R - 4*k
-		line(img, c+rr*math.Cos(a0), c+rr*math.Sin(a0), c+rr*math.Cos(a1), c+rr*math.Sin(a1), 3*k, color.NRGBA{0x10, 0x9a, 0x3a, 0x50})
+		line(img, c+rr*math.Cos(a0), c+rr*math.Sin(a0), c+rr*math.Cos(a1), c+rr*math.Sin(a1), 4*k, color.NRGBA{0x80, 0x80, 0x90, 0x70})
 	}
 	if s := r.h.s; s != nil {
 		for _, ax := range []struct {
