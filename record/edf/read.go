@@ -19,6 +19,9 @@ var ErrFormat = errors.New("edf: bad file")
 // MaxSignals bounds the signals a header may declare.
 const MaxSignals = 1024
 
+// maxRecordSamples bounds one data record (64 MiB), the buffer Read holds.
+const maxRecordSamples = 32 << 20
+
 type inSignal struct {
 	label      string
 	unit       string
@@ -106,6 +109,9 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 	}
 	if perRec == 0 {
 		return nil, nil, bad("data records hold no samples")
+	}
+	if perRec > maxRecordSamples {
+		return nil, nil, bad("data records of %d samples are larger than this reader accepts", perRec)
 	}
 	recBytes := 2 * perRec
 	type lead struct {

@@ -3,10 +3,13 @@ package wfdb
 import (
 	"bytes"
 	"encoding/binary"
+	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -214,6 +217,95 @@ func BenchmarkWriteRecord12x10s(b *testing.B) {
 	for b.Loop() {
 		if err := WriteRecord(dir, "bench", rec); err != nil {
 			b.Fatal(err)
+		}
+	}
+}
+
+// save2gdf (biosig-tools, an independent WFDB reader) reads our header and
+// annotations: labels, rate, length, units, gain, beat codes and places.
+// Its values are compared on single-signal records: biosig 3.0.1 (Debian
+// 12) misplaces samples of multiplexed multi-signal format-16 files, the
+// shared test01_00s from PhysioNet included, so that comparison would
+// test biosig, not us.
+func TestSave2gdfReadsOurRecord(t *testing.T) {
+	t.Parallel()
+	exe, err := exec.LookPath("save2gdf")
+	if err != nil {
+		t.Skip("save2gdf (Debian biosig-tools) not installed")
+	}
+	rec := ptb12(t, 10)
+	rec.Annotations = []record.Annotation{{TS: 0.5, Code: "N"}, {TS: 0.9, Code: "V"}, {TS: 1.25, Code: "note", Text: "check"}}
+	dir := t.TempDir()
+	if err := WriteRecord(dir, "w", rec); err != nil {
+		t.Fatal(err)
+	}
+	js, err := exec.Command(exe, "-JSON", filepath.Join(dir, "w.hea")).Output()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if i := bytes.IndexByte(js, '{'); i >= 0 {
+		js = js[i:]
+	}
+	var hdr struct {
+		TYPE            string
+		Samplingrate    float64
+		NumberOfSamples int
+		CHANNEL         []struct {
+			Label        string
+			Samplingrate float64
+			PhysicalUnit string
+			Scaling      float64 `json:"scaling"`
+		}
+		EVENT []struct {
+			TYP string
+			POS float64
+		}
+	}
+	if err := json.Unmarshal(js, &hdr); err != nil {
+		t.Fatalf("%v\n%s", err, js)
+	}
+	if hdr.TYPE != "MIT" || hdr.Samplingrate != 1000 || hdr.NumberOfSamples != 10000 || len(hdr.CHANNEL) != 12 {
+		t.Fatalf("save2gdf header %+v", hdr)
+	}
+	for i, c := range hdr.CHANNEL {
+		if c.Label != record.Standard12[i] || c.Samplingrate != 1000 || c.PhysicalUnit != "mV" || c.Scaling != 0.001 {
+			t.Fatalf("channel %d: %+v", i, c)
+		}
+	}
+	// Codes 1 (N), 5 (V), 22 (NOTE) per the WFDB code table; biosig
+	// reports positions one sample early, so one sample is allowed.
+	wantTyp := []string{"0x0001", "0x0005", "0x0016"}
+	if len(hdr.EVENT) != 3 {
+		t.Fatalf("events %+v", hdr.EVENT)
+	}
+	for i, e := range hdr.EVENT {
+		if e.TYP != wantTyp[i] || math.Abs(e.POS-rec.Annotations[i].TS) > 1.5e-3 {
+			t.Fatalf("event %d: %+v", i, e)
+		}
+	}
+	for i := 0; i < 12; i += 5 { // leads I, aVL, V5
+		one := &record.Record{Signals: []record.Signal{rec.Signals[i]}}
+		name := fmt.Sprintf("one%d", i)
+		if err := WriteRecord(dir, name, one); err != nil {
+			t.Fatal(err)
+		}
+		csvPath := filepath.Join(dir, name+".csv")
+		if out, err := exec.Command(exe, "-CSV", filepath.Join(dir, name+".hea"), csvPath).CombinedOutput(); err != nil {
+			t.Fatalf("%v %s", err, out)
+		}
+		b, err := os.ReadFile(csvPath)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+		if len(lines) != 10001 || lines[0] != `"`+record.Standard12[i]+` [mV]"` {
+			t.Fatalf("%d lines, header %q", len(lines), lines[0])
+		}
+		for k, v := range rec.Signals[i].MV {
+			g, err := strconv.ParseFloat(strings.TrimSpace(lines[k+1]), 64)
+			if err != nil || math.Abs(g-v) > 0.001 { // one step at 1000 adu/mV
+				t.Fatalf("%s[%d]: save2gdf %q, ours %v", record.Standard12[i], k, lines[k+1], v)
+			}
 		}
 	}
 }
