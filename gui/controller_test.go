@@ -305,3 +305,34 @@ func TestControllerZoomAndPan(t *testing.T) {
 		t.Fatal("0 did not return to the whole page")
 	}
 }
+
+// needsScale fails like calib does on a page without a grid, until the
+// scale is given by hand.
+type needsScale struct{ *fakeBackend }
+
+func (n needsScale) Analyze(ctx context.Context, src model.Source, s model.Settings, p model.Progress) (*model.Analysis, error) {
+	if s.PxPerMM == 0 {
+		return nil, errors.New("calib: no grid or calibration pulse found")
+	}
+	return n.fakeBackend.Analyze(ctx, src, s, p)
+}
+
+// A reading that fails for want of a scale can be tried again with the
+// scale typed on the Reading tab.
+func TestControllerRetryWithScale(t *testing.T) {
+	a := test.NewTempApp(t)
+	c := NewController(a, needsScale{newFake(t)}, model.Source{Name: "fax", Data: []byte{1}})
+	var errs []error
+	c.OnLoaded = func(err error) { errs = append(errs, err) }
+	c.ShowDemo()
+	c.Wait()
+	if c.Model().Loaded() || len(errs) != 1 || errs[0] == nil {
+		t.Fatalf("loaded %v, reports %v", c.Model().Loaded(), errs)
+	}
+	c.side.pxPerMM.SetText("8")
+	c.side.applySettings()
+	c.Wait()
+	if !c.Model().Loaded() || c.Model().Settings().PxPerMM != 8 {
+		t.Fatalf("retry with a scale: loaded %v, settings %+v", c.Model().Loaded(), c.Model().Settings())
+	}
+}
