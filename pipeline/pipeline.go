@@ -15,7 +15,7 @@ import (
 const Software = "tracelift 0.1"
 
 // Caution is shown wherever measurements are shown.
-const Caution = "Not a diagnostic device. Every measurement is to be reviewed by a qualified clinician; local protocols and licensed practice come first."
+const Caution = axis.Caution
 
 // Options for one run. The zero value uses every default.
 type Options struct {
