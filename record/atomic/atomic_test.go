@@ -134,6 +134,7 @@ func TestHelperWriter(t *testing.T) {
 		t.Skip("helper process only")
 	}
 	rng := rand.New(rand.NewPCG(uint64(os.Getpid()), uint64(time.Now().UnixNano())))
+	fmt.Println("ready") // the parent times its kill from here, not from exec
 	for k := 0; ; k++ {
 		v := version(k, rng)
 		// Write in small pieces so a kill can land in the middle.
@@ -185,12 +186,29 @@ func TestCrashSafety(t *testing.T) {
 		cmd.Env = append(os.Environ(), helperEnv+"="+p)
 		var stderr bytes.Buffer
 		cmd.Stderr = &stderr
+		stdout, err := cmd.StdoutPipe()
+		if err != nil {
+			t.Fatal(err)
+		}
 		if err := cmd.Start(); err != nil {
 			t.Fatal(err)
 		}
-		time.Sleep(time.Duration(20+rng.IntN(180)) * time.Millisecond)
+		ready, drained := make(chan struct{}), make(chan struct{})
+		go func() {
+			b := make([]byte, 6)
+			io.ReadFull(stdout, b)
+			close(ready)
+			io.Copy(io.Discard, stdout) // ends when the killed helper's pipe closes
+			close(drained)
+		}()
+		select {
+		case <-ready:
+		case <-time.After(20 * time.Second): // a loaded machine; kill anyway
+		}
+		time.Sleep(time.Duration(1+rng.IntN(100)) * time.Millisecond)
 		cmd.Process.Signal(syscall.SIGKILL)
-		err := cmd.Wait()
+		<-drained // all reads done before Wait, as os/exec requires
+		err = cmd.Wait()
 		var ee *exec.ExitError
 		if errors.As(err, &ee) {
 			if ws, ok := ee.Sys().(syscall.WaitStatus); ok && ws.Exited() {

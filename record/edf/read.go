@@ -31,7 +31,7 @@ type inSignal struct {
 }
 
 // Read reads an EDF or EDF+C file. Ordinary signals become leads (a label
-// "ECG X" names lead X, spelling normalised with record.CanonicalLead);
+// "ECG X" or "EKG X" names lead X, spelling normalised with record.CanonicalLead);
 // signals whose physical dimension is not a voltage (mV, uV, V) are left
 // out. Samples outside a signal's digital range are gaps (NaN), which is
 // how Write stores gaps. Each lead's leading and trailing gaps are trimmed
@@ -134,7 +134,11 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 		if dur == 0 {
 			return nil, nil, bad("data record duration 0 with signal %s", s.label)
 		}
-		name := strings.TrimSpace(strings.TrimPrefix(s.label, "ECG "))
+		name := s.label
+		for _, p := range []string{"ECG ", "EKG "} { // EDF+ standard texts: type, space, lead
+			name = strings.TrimPrefix(name, p)
+		}
+		name = strings.TrimSpace(name)
 		if name == "" {
 			name = fmt.Sprintf("sig%d", i+1)
 		}
