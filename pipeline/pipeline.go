@@ -79,7 +79,7 @@ func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, er
 		return o, fmt.Errorf("%s: %w", pg.Path, err)
 	}
 	o.Digitized = dr
-	fillProvenance(dr.Record, pg, cal, dr)
+	FillProvenance(dr.Record, pg, cal, dr)
 	o.Remeasure(opt.Measure)
 	return o, nil
 }
@@ -102,7 +102,9 @@ func (o *Outcome) Remeasure(opt axis.Options) {
 	o.Findings, o.MeasureErr = f, err
 }
 
-func fillProvenance(rec *record.Record, pg *calib.Page, cal *calib.Result, dr *digitize.Result) {
+// FillProvenance records in rec where it came from: the image, its scale and
+// settings, the layout, this software.
+func FillProvenance(rec *record.Record, pg *calib.Page, cal *calib.Result, dr *digitize.Result) {
 	p := &rec.Provenance
 	p.SourceFile = pg.Path
 	p.ImageSHA256 = pg.SHA256

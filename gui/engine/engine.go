@@ -87,7 +87,7 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 		return nil, err
 	}
 	p("measuring", 0.9)
-	fillProvenance(dr.Record, pg, cal, dr)
+	pipeline.FillProvenance(dr.Record, pg, cal, dr)
 	a := &model.Analysis{
 		Name: src.Name, ImageSHA256: pg.SHA256,
 		Image: cal.Rectified, PxPerMM: cal.PxPerMM, ImagePxPerMM: cal.PxPerMMX,
@@ -245,15 +245,3 @@ func (b *Backend) Export(a *model.Analysis, rec *record.Record, dir, stem string
 	return pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{})
 }
 
-func fillProvenance(rec *record.Record, pg *calib.Page, cal *calib.Result, dr *digitize.Result) {
-	p := &rec.Provenance
-	p.SourceFile = pg.Path
-	p.ImageSHA256 = pg.SHA256
-	p.PxPerMMX = cal.PxPerMMX
-	p.PxPerMMY = cal.PxPerMMY
-	p.GainMMPerMV = cal.GainMMPerMV
-	p.SpeedMMPerS = cal.SpeedMMPerS
-	p.Layout = dr.Layout
-	p.ScaleSource = cal.Source
-	p.Software = pipeline.Software
-}
