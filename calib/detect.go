@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"image"
 	"math"
-	"strings"
 )
 
 const maxRectPxPerMM = 12 // cap of the rectified scale (speed); ~300 dpi
@@ -43,10 +42,15 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	if found {
 		return fromGrid(ctx, pg, wk, gm, opt)
 	}
-	// No grid: the traces' own direction deskews the page.
-	theta, coh := coarseAngle(wk)
-	if coh < 0.1 {
-		theta = 0
+	// No grid: the traces' own direction deskews the page (their long
+	// baselines stand out in the 2-D spectrum as a grid's lines do).
+	theta, coh := gridAngle(wk)
+	if coh < 0.2 {
+		if t2, c2 := coarseAngle(wk); c2 >= 0.1 {
+			theta = t2
+		} else {
+			theta = 0
+		}
 	}
 	return withoutGrid(ctx, pg, wk, theta, opt)
 }
@@ -121,13 +125,8 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		return nil, fmt.Errorf("calib: %s: the grid covers too little of the picture: %w", stem(pg.Path), ErrNotECG)
 	}
 
-	q, turnConf := decideTurn(wk, gm.H, X0, X1, Y0, Y1)
-	T := turnMap(q, X0, X1, Y0, Y1)
+	T := turnMap(0, X0, X1, Y0, Y1)
 	wmm, hmm := X1-X0, Y1-Y0
-	if q&1 == 1 {
-		wmm, hmm = hmm, wmm
-		ppx, ppy = ppy, ppx
-	}
 	s := math.Min(math.Max(ppx, ppy), maxRectPxPerMM)
 	s = math.Max(s, 2)
 	W, Hh := int(math.Ceil(wmm*s)), int(math.Ceil(hmm*s))
@@ -147,11 +146,38 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		return nil, err
 	}
 	// Grid lines in the rectified frame lie at whole mm (extent snapped).
-	ink := inkMap(rect, gridLines{known: true, s: s})
+	ink, paperBox := inkMap(rect, gridLines{known: true, s: s})
+	ink0 := ink
+	q, turnConf := decideTurn(ink, s)
+	if q != 0 {
+		P := turnMat(q, W, Hh)
+		rect, ink = turnNRGBA(rect, q), turnGray(ink, q)
+		M = M.mul(P)
+		T = T.mul(R).mul(P).mul(mat3{s, 0, 0, 0, s, 0, 0, 0, 1}) // upright mm → grid mm
+	}
+	// Report the scale and skew at the middle of the tracing (the ink's
+	// centroid on the paper, away from the page's edges): under
+	// perspective the scale changes across the page.
+	ax, ay := Hf.apply(cx, cy)
+	at := [2]float64{ax, ay}
+	inner := paperBox.Inset(int(3 * s))
+	if cxr, cyr, ok := inkCentroid(ink0, inner); ok {
+		// Measured before any turn: map through the unturned frame.
+		T0 := turnMap(0, X0, X1, Y0, Y1)
+		X, Y := T0.mul(R).apply(cxr, cyr)
+		ax, ay := Hf.apply(X, Y)
+		at = [2]float64{ax, ay}
+		ex, ey = jacobian(Hf, X, Y)
+		ppx, ppy = math.Hypot(ex[0], ex[1]), math.Hypot(ey[0], ey[1])
+		rot = -math.Atan2(ex[1], ex[0]) * 180 / math.Pi
+		if q&1 == 1 {
+			ppx, ppy = ppy, ppx
+		}
+	}
 	res := &Result{
 		Rectified: rect, Ink: ink, PxPerMM: s,
 		PxPerMMX: ppx, PxPerMMY: ppy, RotationDeg: rot, Turned: q,
-		Source: "grid", RectToImage: M,
+		Source: "grid", RectToImage: M, ScaleAt: at,
 	}
 	res.Confidence = gm.conf * (0.6 + 0.4*turnConf)
 	if gm.perspTerms > 0.02 {
@@ -197,6 +223,26 @@ func checkHint(pg *Page, res *Result) {
 	}
 }
 
+// inkCentroid is the mean position of strong ink (rect px).
+func inkCentroid(ink *image.Gray, r image.Rectangle) (float64, float64, bool) {
+	var sx, sy, n float64
+	r = r.Intersect(ink.Rect)
+	for y := r.Min.Y; y < r.Max.Y; y += 2 {
+		row := ink.Pix[y*ink.Stride : y*ink.Stride+r.Max.X]
+		for x := r.Min.X; x < len(row); x += 2 {
+			if row[x] >= 128 {
+				sx += float64(x)
+				sy += float64(y)
+				n++
+			}
+		}
+	}
+	if n < 10 {
+		return 0, 0, false
+	}
+	return sx / n, sy / n, true
+}
+
 // inkPlausible rejects an ink map that is empty or mostly dark (noise).
 func inkPlausible(ink *image.Gray) bool {
 	var n, on int
@@ -220,44 +266,72 @@ func inkPlausible(ink *image.Gray) bool {
 // the scale comes from a calibration pulse or from the user.
 func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Options) (*Result, error) {
 	b := pg.Image.Bounds()
-	c, s := math.Cos(theta), math.Sin(theta)
 	W, H := float64(b.Dx()), float64(b.Dy())
-	// Output the same size, rotated about the centre by -theta (deskew).
+	// Anisotropic pixels: from the file's resolution, else a landscape
+	// page more than 2.2 times wider than tall is taken as a fax at
+	// 200 × 100 dpi (a normal-resolution fax, from memory).
+	aniso := 1.0
+	switch {
+	case pg.DPIX > 0 && pg.DPIY > 0:
+		aniso = pg.DPIX / pg.DPIY
+	case W/H > 2.2 && W/H < 3.4:
+		aniso = 2
+	}
+	if aniso < 0.2 || aniso > 5 {
+		aniso = 1
+	}
+	c, s := math.Cos(theta), math.Sin(theta)
+	// Rect px → image px: undo the y stretch, then rotate about the centre.
+	Wr, Hr := b.Dx(), int(math.Ceil(H*aniso))
+	cxr, cyr := (float64(Wr)-1)/2, (float64(Hr)-1)/2
 	cxi, cyi := (W-1)/2, (H-1)/2
-	M := mat3{c, -s, cxi - c*cxi + s*cyi, s, c, cyi - s*cxi - c*cyi, 0, 0, 1}
-	if math.Abs(theta) < 1e-4 {
+	// Build it step by step for clarity: centre, rotate, squash, shift.
+	toC := mat3{1, 0, -cxr, 0, 1, -cyr, 0, 0, 1}
+	R := mat3{c, -s, 0, s, c, 0, 0, 0, 1}
+	sq := mat3{1, 0, 0, 0, 1 / aniso, 0, 0, 0, 1}
+	back := mat3{1, 0, cxi, 0, 1, cyi, 0, 0, 1}
+	M := back.mul(sq).mul(R).mul(toC)
+	if math.Abs(theta) < 1e-4 && aniso == 1 {
 		M = ident
 	}
-	rect, err := warpPage(pg.Image, M, b.Dx(), b.Dy())
+	rect, err := warpPage(pg.Image, M, Wr, Hr)
 	if err != nil {
 		return nil, fmt.Errorf("calib: %s: resampling failed: %v", stem(pg.Path), err)
 	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	guess := math.Max(W, H) / 280 // an A4/letter page seen landscape, about 280 mm wide
-	ink := inkMap(rect, gridLines{s: guess})
+	guess := math.Max(float64(Wr), float64(Hr)) / 280 // an A4/letter page seen landscape, about 280 mm wide
+	ink, _ := inkMap(rect, gridLines{s: guess})
 	if !inkPlausible(ink) {
 		return nil, fmt.Errorf("calib: %s: no ECG grid or trace in this picture: %w", stem(pg.Path), ErrNotECG)
 	}
-	res := &Result{Rectified: rect, Ink: ink, RectToImage: M, RotationDeg: -theta * 180 / math.Pi}
+	res := &Result{Rectified: rect, Ink: ink, RectToImage: M, RotationDeg: -theta * 180 / math.Pi,
+		ScaleAt: [2]float64{cxi, cyi}}
+	fileScale := 0.0
+	if pg.DPIX > 0 && pg.DPIY > 0 {
+		fileScale = pg.DPIX / 25.4 // rect x keeps the file's x resolution
+	}
 	user := opt.UserPxPerMM
 	if user == 0 && opt.UserDPI > 0 {
 		user = opt.UserDPI / 25.4
 	}
 	var ps []Pulse
 	if !opt.ForceUser {
-		ps = findPulses(ink, guess/3, guess*3)
-		ps = consistentPulses(ps)
+		ps = findPulses(ink, guess/5, guess*2.5)
+		ps = consistentPulses(ps, guess, 10*pulseMV)
 	}
 	switch {
 	case opt.ForceUser && user > 0:
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
+	case user > 0 && len(ps) == 0:
+		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
+		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale given by hand is used")
+	case fileScale > 0:
+		res.Source, res.PxPerMM, res.Confidence = "file", fileScale, 0.4
+		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the resolution the file states (%.0f×%.0f dpi)", pg.DPIX, pg.DPIY))
 	case len(ps) > 0:
-		g := opt.StatedGainMMPerMV
-		if g == 0 {
-			g = 10
-		}
+		g, sp := pulseSettings(ps, guess, opt)
 		hs := make([]float64, len(ps))
 		for i, p := range ps {
 			hs[i] = p.HeightMM
@@ -265,14 +339,21 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		res.PxPerMM = median(hs) / (g * pulseMV)
 		res.Source = "pulse"
 		res.Confidence = math.Min(0.6, 0.3+0.1*float64(len(ps)))
-		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, taken as %.4g mm/mV", g))
+		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s (the likeliest standard settings for its shape and the page size)", g, sp))
 	case user > 0:
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
-		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale given by hand is used")
+		res.Warnings = append(res.Warnings, "no grid found: the scale given by hand is used")
 	default:
 		return nil, fmt.Errorf("calib: %s: %w", stem(pg.Path), ErrNoScale)
 	}
-	res.PxPerMMX, res.PxPerMMY = res.PxPerMM, res.PxPerMM
+	rawPulses := append([]Pulse(nil), ps...)
+	res.PxPerMMX, res.PxPerMMY = res.PxPerMM, res.PxPerMM/aniso
+	if math.Abs(theta) > 0.25 {
+		// The page lies across: the squash applies to the rotated frame only
+		// approximately; the two scales are reported at the same value
+		// ratio as the pixel aspect.
+		res.Warnings = append(res.Warnings, "no grid: the scale per axis assumes the page is nearly straight")
+	}
 	for i := range ps {
 		ps[i].HeightMM /= res.PxPerMM
 		ps[i].WidthMM /= res.PxPerMM
@@ -280,43 +361,83 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	res.Pulses = ps
 	if res.Source == "pulse" {
 		// The height defined the scale; only the speed is measured.
-		o := opt
-		o.StatedGainMMPerMV = 0
-		_, sp, ws := settleSettings(ps, o)
-		res.GainMMPerMV = opt.StatedGainMMPerMV
-		if res.GainMMPerMV == 0 {
-			res.GainMMPerMV = 10
-		}
-		res.SpeedMMPerS = sp
-		for _, w := range ws {
-			if len(w) > 0 && !strings.Contains(w, "gain") {
-				res.Warnings = append(res.Warnings, w)
-			}
-		}
+		res.GainMMPerMV, res.SpeedMMPerS = pulseSettings(rawPulses, guess, opt)
 	} else {
 		res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, ps, opt)
 	}
 	return res, nil
 }
 
-// consistentPulses keeps the pulses whose height agrees with the median
-// (a lone rectangle-like shape elsewhere is not trusted).
-func consistentPulses(ps []Pulse) []Pulse {
-	if len(ps) == 0 {
-		return nil
-	}
-	hs := make([]float64, len(ps))
-	for i, p := range ps {
-		hs[i] = p.HeightMM
-	}
-	m := median(hs)
-	var out []Pulse
+// consistentPulses keeps the largest group of pulses of one height (the
+// recorder draws the same pulse on every row, at the same x), and only
+// when that height gives a scale near the page-size guess (within 2.5×).
+func consistentPulses(ps []Pulse, guess, gain float64) []Pulse {
+	var best []Pulse
+	bestScore := 0.0
 	for _, p := range ps {
-		if math.Abs(p.HeightMM/m-1) < 0.08 && p.WidthMM > 0.2*p.HeightMM && p.WidthMM < 1.5*p.HeightMM {
-			out = append(out, p)
+		var grp []Pulse
+		xs := map[int]bool{}
+		for _, q := range ps {
+			if math.Abs(q.HeightMM/p.HeightMM-1) < 0.06 && q.WidthMM > 0.15*q.HeightMM && q.WidthMM < 2*q.HeightMM {
+				grp = append(grp, q)
+				xs[int(q.Box[0]/(0.02*guess*280))] = true
+			}
+		}
+		s := float64(len(grp)) + float64(len(grp)-len(xs))*0.5 + p.HeightMM*1e-6
+		if s > bestScore {
+			best, bestScore = grp, s
 		}
 	}
-	return out
+	if len(best) == 0 {
+		return nil
+	}
+	hs := make([]float64, len(best))
+	for i, p := range best {
+		hs[i] = p.HeightMM
+	}
+	ppm := median(hs) / gain
+	if ppm < guess/5 || ppm > guess*5 {
+		return nil
+	}
+	return best
+}
+
+// pulseSettings picks the standard gain and speed that best explain a
+// pulse measured in px when nothing else gives the scale: its width over
+// height is 0.2 s·speed / (1 mV·gain), and the implied scale should be
+// near the page-size guess. Priors: 10 mm/mV and 25 mm/s are the
+// standard (Kligfield et al. 2007); the others are less common (the
+// weights are from memory).
+func pulseSettings(ps []Pulse, guess float64, opt Options) (float64, float64) {
+	hs := make([]float64, len(ps))
+	ws := make([]float64, len(ps))
+	for i, p := range ps {
+		hs[i], ws[i] = p.HeightMM, p.WidthMM
+	}
+	h, w := median(hs), median(ws)
+	gains := []float64{10, 5, 20}
+	gp := []float64{0.7, 0.15, 0.15}
+	speeds := []float64{25, 50}
+	sp := []float64{0.85, 0.15}
+	if opt.StatedGainMMPerMV > 0 {
+		gains, gp = []float64{opt.StatedGainMMPerMV}, []float64{1}
+	}
+	if opt.StatedSpeedMMPerS > 0 {
+		speeds, sp = []float64{opt.StatedSpeedMMPerS}, []float64{1}
+	}
+	bg, bs, best := 10.0, 25.0, math.Inf(-1)
+	for i, g := range gains {
+		for j, v := range speeds {
+			ppm := h / (g * pulseMV)
+			e1 := math.Abs(math.Log(pulseS * v * ppm / w))
+			e2 := math.Abs(math.Log(ppm / guess))
+			sc := -e1/0.08 - e2/0.5 + math.Log(gp[i]*sp[j])
+			if sc > best {
+				bg, bs, best = g, v, sc
+			}
+		}
+	}
+	return bg, bs
 }
 
 // UserScaleFromPoints gives px/mm from two points a known distance apart

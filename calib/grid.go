@@ -28,7 +28,37 @@ type gridScan struct {
 	tiles      []tileProj
 }
 
-func scanTiles(wk *work, theta float64, ts int) *gridScan {
+// inkCut returns the dmax level above which a pixel is taken as ink and
+// left out of the grid projections (a trace's baseline is a dark straight
+// line that would otherwise swamp the grid's comb). When more than 8 % of
+// the page lies above the cut, the dark pixels are the grid itself (black
+// grids, faxes) and nothing is cut.
+func inkCut(wk *work) float32 {
+	var hist [256]int
+	for i := 0; i < len(wk.dmax); i += 3 {
+		hist[clampI(int(wk.dmax[i]), 0, 255)]++
+	}
+	n := 0
+	for _, c := range hist {
+		n += c
+	}
+	q := func(f float64) int {
+		t, acc := int(f*float64(n)), 0
+		for v, c := range hist {
+			acc += c
+			if acc > t {
+				return v
+			}
+		}
+		return 255
+	}
+	cut := max(60, (q(0.995)+q(0.5))/2)
+	return float32(cut)
+}
+
+// scanTiles projects the work image in tiles; pixels with dmax above cut
+// count as ink and are left out (cut ≥ 255 keeps everything).
+func scanTiles(wk *work, theta float64, ts int, cut float32) *gridScan {
 	c, s := math.Cos(theta), math.Sin(theta)
 	W, H := float64(wk.w-1), float64(wk.h-1)
 	us := []float64{0, W * c, H * s, W*c + H*s}
@@ -47,9 +77,15 @@ func scanTiles(wk *work, theta float64, ts int) *gridScan {
 	inv := 1 / fts
 	for y := 0; y < wk.h; y++ {
 		row := wk.dmin[y*wk.w : (y+1)*wk.w]
+		drow := wk.dmax[y*wk.w : (y+1)*wk.w]
 		u := float64(y)*s - umin
 		v := float64(y)*c - vmin
 		for x, val := range row {
+			if drow[x] > cut {
+				val = 0
+			} else if val > cut {
+				val = cut
+			}
 			iu := int(u * inv)
 			iv := int(v * inv)
 			if iu >= nu {
@@ -188,6 +224,13 @@ func analyzeAxis(g *gridScan, useU bool) axisFit {
 		}
 		return r
 	}
+	if dbgGrid != nil {
+		var ps []float64
+		for i := 1; i < 5; i++ {
+			ps = append(ps, at(fp*float64(i)/5))
+		}
+		dbgGrid("peak f %.4f prom %.1f; fifths %.1f", fp, bestP, ps)
+	}
 	m := 1
 	for _, cand := range []int{5, 4, 3, 2} {
 		if fp/float64(cand)*n < 2.5 {
@@ -230,75 +273,118 @@ func parabolic(a, b, c float64) float64 {
 // tileMeasure is one tile's grid phase on one axis.
 type tileMeasure struct {
 	ok   bool
-	o    float64 // phase offset in fundamental periods (mod 1 until unwrapped)
-	frac float64 // share of the tile's AC power on the grid harmonics
+	q    float64 // grid coordinate (fundamental periods) at the centroid; mod 1 until unwrapped
+	u    float64 // centroid coordinate along the axis, work px
+	F    float64 // local fundamental frequency
+	snr  float64 // grid harmonics over their spectral surroundings
+	frac float64 // weight for fitting
 }
 
-// measureTiles computes each tile's phase offset along one axis.
+// comb is the summed power at harmonics hs of f.
+func comb(p []float32, w []float64, mean, off, f float64, hs []int) float64 {
+	var s float64
+	for _, h := range hs {
+		c := dtft(p, w, mean, off, f*float64(h))
+		s += real(c)*real(c) + imag(c)*imag(c)
+	}
+	return s
+}
+
+// offComb is comb with each harmonic moved by d (not d·h), to sample the
+// spectrum beside every harmonic.
+func offComb(p []float32, w []float64, mean, off, f float64, hs []int, d float64) float64 {
+	var s float64
+	for _, h := range hs {
+		c := dtft(p, w, mean, off, f*float64(h)+d)
+		s += real(c)*real(c) + imag(c)*imag(c)
+	}
+	return s
+}
+
+// measureTiles finds, per tile, the local line frequency (within ±12 % of
+// the page's, for perspective), the harmonics' signal-to-surroundings
+// ratio, and the grid coordinate of the tile's centroid modulo one period.
 func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 	w := hann(g.ts + 2)
-	var sw, sw2 float64
-	for _, x := range w {
-		sw += x
-		sw2 += x * x
+	var low []int // harmonics up to 5 for the frequency search
+	for _, h := range af.harm {
+		if h <= 5 {
+			low = append(low, h)
+		}
 	}
+	if len(low) == 0 {
+		low = []int{af.harm[0]}
+	}
+	coarse := low[:min(len(low), 2)]
+	fts := float64(g.ts)
 	out := make([]tileMeasure, len(g.tiles))
 	for i := range g.tiles {
 		t := &g.tiles[i]
 		if t.n < 0.3*float64(g.ts*g.ts) {
 			continue
 		}
+		x, y := t.sx/t.n, t.sy/t.n
 		p, off := t.pv, g.vmin+float64(t.iv*g.ts)
+		uc := -g.s*x + g.c*y
 		if useU {
 			p, off = t.pu, g.umin+float64(t.iu*g.ts)
+			uc = g.c*x + g.s*y
 		}
 		mean := weightedMean(p, w)
-		var ac float64
-		for b, v := range p {
-			d := float64(v) - mean
-			ac += w[b] * d * d
+		// Coarse then fine search of the local fundamental.
+		hc := float64(coarse[len(coarse)-1])
+		step := 0.35 / (fts * hc)
+		bestF, bestC := af.F, -1.0
+		for f := af.F * 0.88; f <= af.F*1.12; f += step {
+			if c := comb(p, w, mean, off, f, coarse); c > bestC {
+				bestF, bestC = f, c
+			}
 		}
-		ac /= sw
-		if ac <= 1e-9 {
+		hl := float64(low[len(low)-1])
+		fine := 0.25 / (fts * hl)
+		f0 := bestF
+		bestC = -1
+		for f := f0 - step; f <= f0+step; f += fine {
+			if c := comb(p, w, mean, off, f, low); c > bestC {
+				bestF, bestC = f, c
+			}
+		}
+		offC := (offComb(p, w, mean, off, bestF, low, 2.5/fts) + offComb(p, w, mean, off, bestF, low, -2.5/fts)) / 2
+		if offC <= 0 || bestC <= 0 {
 			continue
 		}
-		var gp float64
-		var c1 complex128
-		bestH, bestA := 0, 0.0
-		for _, h := range af.harm {
-			c := dtft(p, w, mean, off, af.F*float64(h))
-			a := 2 * cmplx.Abs(c) / sw
-			gp += a * a / 2
+		snr := bestC / offC
+		c1 := dtft(p, w, mean, off, bestF)
+		a1 := cmplx.Abs(c1)
+		psi := cmplx.Phase(c1) / (2 * math.Pi)
+		// Refine with a stronger harmonic.
+		bestH, bestA := 0, a1*1.5
+		var bestHC complex128
+		for _, h := range low {
 			if h == 1 {
-				c1 = c
+				continue
 			}
-			if h > 1 && a > bestA {
-				bestH, bestA = h, a
+			ch := dtft(p, w, mean, off, bestF*float64(h))
+			if a := cmplx.Abs(ch); a > bestA {
+				bestH, bestA, bestHC = h, a, ch
 			}
 		}
-		if c1 == 0 {
-			c1 = dtft(p, w, mean, off, af.F)
+		if bestH > 0 {
+			ph := cmplx.Phase(bestHC) / (2 * math.Pi * float64(bestH))
+			k := math.Round((psi - ph) * float64(bestH))
+			psi = ph + k/float64(bestH)
 		}
-		frac := gp / ac
-		a1 := 2 * cmplx.Abs(c1) / sw
-		o := cmplx.Phase(c1) / (2 * math.Pi)
-		// Refine with a stronger harmonic when it stands out in this tile.
-		if bestH > 0 && bestA > 1.5*a1 && bestA*bestA/2 > 0.1*ac {
-			ch := dtft(p, w, mean, off, af.F*float64(bestH))
-			oh := cmplx.Phase(ch) / (2 * math.Pi * float64(bestH))
-			k := math.Round((o - oh) * float64(bestH))
-			o = oh + k/float64(bestH)
-		}
-		if a1*a1/2 < 0.01*ac && bestA == 0 {
-			continue
-		}
-		out[i] = tileMeasure{ok: frac > 0.2, o: o, frac: frac}
+		q := bestF*uc + psi
+		q -= math.Floor(q)
+		out[i] = tileMeasure{ok: snr > 6, q: q, u: uc, F: bestF, snr: snr, frac: math.Log(snr)}
 	}
 	return out
 }
 
-// unwrap makes the tile offsets continuous, best tiles first, predicting
-// each from its unwrapped neighbours.
+// unwrap makes the tile coordinates continuous, growing from the
+// strongest tile; each new tile is predicted from its unwrapped
+// neighbours (linear extrapolation through the next tile beyond when that
+// is known, else the local frequency times the distance).
 func unwrap(g *gridScan, ms []tileMeasure) {
 	order := make([]int, 0, len(ms))
 	for i := range ms {
@@ -310,14 +396,10 @@ func unwrap(g *gridScan, ms []tileMeasure) {
 		return
 	}
 	done := make([]bool, len(ms))
-	// Start at the strongest tile; grow to the neighbour with the most
-	// unwrapped neighbours, ties broken by strength.
-	sort.Slice(order, func(a, b int) bool { return ms[order[a]].frac > ms[order[b]].frac })
-	start := order[0]
-	ms[start].o -= math.Round(ms[start].o)
-	done[start] = true
+	sort.Slice(order, func(a, b int) bool { return ms[order[a]].snr > ms[order[b]].snr })
+	done[order[0]] = true
 	for {
-		bestI, bestN, bestF := -1, 0, 0.0
+		bestI, bestN, bestS := -1, 0, 0.0
 		for _, i := range order {
 			if done[i] {
 				continue
@@ -328,15 +410,13 @@ func unwrap(g *gridScan, ms []tileMeasure) {
 					cnt++
 				}
 			}
-			if cnt > bestN || (cnt == bestN && cnt > 0 && ms[i].frac > bestF) {
-				bestI, bestN, bestF = i, cnt, ms[i].frac
+			if cnt > bestN || (cnt == bestN && cnt > 0 && ms[i].snr > bestS) {
+				bestI, bestN, bestS = i, cnt, ms[i].snr
 			}
 		}
 		if bestI < 0 {
 			break
 		}
-		// Prediction: mean of neighbour offsets, plus the neighbour's own
-		// trend (linear extrapolation) where the tile beyond it is known.
 		var pred float64
 		cnt := 0
 		ti := &g.tiles[bestI]
@@ -345,19 +425,19 @@ func unwrap(g *gridScan, ms []tileMeasure) {
 				continue
 			}
 			tj := &g.tiles[j]
-			p := ms[j].o
 			du, dv := tj.iu-ti.iu, tj.iv-ti.iv
 			ku, kv := tj.iu+du, tj.iv+dv
-			if ku >= 0 && ku < g.nu && kv >= 0 && kv < g.nv {
-				if k := kv*g.nu + ku; done[k] {
-					p += ms[j].o - ms[k].o
-				}
+			var p float64
+			if k := kv*g.nu + ku; ku >= 0 && ku < g.nu && kv >= 0 && kv < g.nv && done[k] {
+				p = 2*ms[j].q - ms[k].q
+			} else {
+				p = ms[j].q + (ms[j].F+ms[bestI].F)/2*(ms[bestI].u-ms[j].u)
 			}
 			pred += p
 			cnt++
 		}
 		pred /= float64(cnt)
-		ms[bestI].o += math.Round(pred - ms[bestI].o)
+		ms[bestI].q += math.Round(pred - ms[bestI].q)
 		done[bestI] = true
 	}
 	for i := range ms {
@@ -385,10 +465,12 @@ func (g *gridScan) neighbours(i int) []int {
 	return out
 }
 
-// corr is one point with paper coordinates (mm) and work-image pixels.
-type corr struct {
-	X, Y float64 // mm
-	x, y float64 // work px
+// obs says that at work pixel (x, y) the paper coordinate along one axis
+// (0 = X, 1 = Y) is val mm.
+type obs struct {
+	x, y float64
+	val  float64
+	axis int
 	w    float64
 }
 
@@ -433,62 +515,86 @@ func (m mat3) inv() (mat3, bool) {
 
 var ident = mat3{1, 0, 0, 0, 1, 0, 0, 0, 1}
 
-// fitHomography finds H with (x,y) ≈ H·(X,Y) by weighted linear least
-// squares on normalised coordinates (Hartley's normalisation); affine
-// when affine is true.
-func fitHomography(cs []corr, affine bool) (mat3, bool) {
-	if len(cs) < 4 {
-		return mat3{}, false
-	}
-	var mX, mY, mx, my, sw float64
-	for _, c := range cs {
-		mX += c.w * c.X
-		mY += c.w * c.Y
-		mx += c.w * c.x
-		my += c.w * c.y
-		sw += c.w
-	}
-	mX, mY, mx, my = mX/sw, mY/sw, mx/sw, my/sw
-	var sP, sp float64
-	for _, c := range cs {
-		sP += c.w * math.Hypot(c.X-mX, c.Y-mY)
-		sp += c.w * math.Hypot(c.x-mx, c.y-my)
-	}
-	sP, sp = sP/sw, sp/sw
-	if sP == 0 || sp == 0 {
-		return mat3{}, false
+// fitInverse finds G mapping work px to paper mm, X = (g0 x + g1 y + g2) /
+// (g6 x + g7 y + 1) and Y = (g3 x + g4 y + g5) / (same), by weighted linear
+// least squares on normalised coordinates; each observation constrains
+// one axis, so a tile that shows only one line family still counts.
+// affine drops the perspective terms.
+func fitInverse(os []obs, affine bool) (mat3, bool) {
+	var nx, ny int
+	for _, o := range os {
+		if o.axis == 0 {
+			nx++
+		} else {
+			ny++
+		}
 	}
 	n := 8
 	if affine {
 		n = 6
 	}
+	if nx < 3 || ny < 3 || nx+ny < n+1 {
+		return mat3{}, false
+	}
+	var mx, my, sw float64
+	var mv [2]float64
+	var cv [2]float64
+	for _, o := range os {
+		mx += o.w * o.x
+		my += o.w * o.y
+		sw += o.w
+		mv[o.axis] += o.w * o.val
+		cv[o.axis] += o.w
+	}
+	mx, my = mx/sw, my/sw
+	mv[0], mv[1] = mv[0]/cv[0], mv[1]/cv[1]
+	var sp, sP float64
+	for _, o := range os {
+		sp += o.w * math.Hypot(o.x-mx, o.y-my)
+		sP += o.w * math.Abs(o.val-mv[o.axis])
+	}
+	sp, sP = sp/sw, sP/sw
+	if sp == 0 || sP == 0 {
+		return mat3{}, false
+	}
 	var A [8][8]float64
 	var rhs [8]float64
-	add := func(row [8]float64, b, w float64) {
+	for _, o := range os {
+		x, y := (o.x-mx)/sp, (o.y-my)/sp
+		v := (o.val - mv[o.axis]) / sP
+		var row [8]float64
+		if o.axis == 0 {
+			row = [8]float64{x, y, 1, 0, 0, 0, -v * x, -v * y}
+		} else {
+			row = [8]float64{0, 0, 0, x, y, 1, -v * x, -v * y}
+		}
 		for i := 0; i < n; i++ {
 			for j := 0; j < n; j++ {
-				A[i][j] += w * row[i] * row[j]
+				A[i][j] += o.w * row[i] * row[j]
 			}
-			rhs[i] += w * row[i] * b
+			rhs[i] += o.w * row[i] * v
 		}
-	}
-	for _, c := range cs {
-		X, Y := (c.X-mX)/sP, (c.Y-mY)/sP
-		x, y := (c.x-mx)/sp, (c.y-my)/sp
-		add([8]float64{X, Y, 1, 0, 0, 0, -X * x, -Y * x}, x, c.w)
-		add([8]float64{0, 0, 0, X, Y, 1, -X * y, -Y * y}, y, c.w)
 	}
 	sol, ok := solve(A, rhs, n)
 	if !ok {
 		return mat3{}, false
 	}
-	hn := mat3{sol[0], sol[1], sol[2], sol[3], sol[4], sol[5], sol[6], sol[7], 1}
+	gn := mat3{sol[0], sol[1], sol[2], sol[3], sol[4], sol[5], sol[6], sol[7], 1}
 	if affine {
-		hn[6], hn[7] = 0, 0
+		gn[6], gn[7] = 0, 0
 	}
-	tin := mat3{1 / sP, 0, -mX / sP, 0, 1 / sP, -mY / sP, 0, 0, 1}
-	tout := mat3{sp, 0, mx, 0, sp, my, 0, 0, 1}
-	return tout.mul(hn).mul(tin), true
+	tin := mat3{1 / sp, 0, -mx / sp, 0, 1 / sp, -my / sp, 0, 0, 1}
+	tout := mat3{sP, 0, mv[0], 0, sP, mv[1], 0, 0, 1}
+	return tout.mul(gn).mul(tin), true
+}
+
+// obsResidual is |G(x, y) − val| along the observation's axis, in mm.
+func obsResidual(g mat3, o obs) float64 {
+	X, Y := g.apply(o.x, o.y)
+	if o.axis == 0 {
+		return math.Abs(X - o.val)
+	}
+	return math.Abs(Y - o.val)
 }
 
 // solve does Gaussian elimination with partial pivoting on the n×n head.
@@ -524,8 +630,30 @@ func solve(A [8][8]float64, b [8]float64, n int) ([8]float64, bool) {
 	return x, true
 }
 
-// residual is the distance in work px between H·(X,Y) and (x,y).
-func residual(h mat3, c corr) float64 {
-	x, y := h.apply(c.X, c.Y)
-	return math.Hypot(x-c.x, y-c.y)
+// alignFundamentals: when one axis shows the 5 mm structure (its strongest
+// peak was the fifth harmonic) and the other found only the 1 mm lines at
+// a similar scale, the other axis is measured at a fifth of its frequency
+// too, so both unwrap on the coarser, safer period.
+func alignFundamentals(a, b *axisFit) {
+	fix := func(five, one *axisFit) {
+		if five.m != 5 || one.m == 5 {
+			return
+		}
+		r := one.F / (five.F * 5)
+		if r < 0.4 || r > 2.6 {
+			return
+		}
+		one.F /= 5
+		one.m = 5
+		hs := []int{5}
+		for _, h := range one.harm {
+			if 5*h <= 15 && 5*h != 5 {
+				hs = append(hs, 5*h)
+			}
+		}
+		sort.Ints(hs)
+		one.harm = append([]int{1, 2, 3, 4}, hs...)
+	}
+	fix(a, b)
+	fix(b, a)
 }

@@ -3,6 +3,7 @@ package calib
 import (
 	"image"
 	"math"
+	"sort"
 )
 
 // gridLines says where the grid lines lie on the rectified page: at every
@@ -17,10 +18,11 @@ type gridLines struct {
 // 0 = paper or grid). Three steps: the darkness of the brightest channel
 // (a coloured grid line is bright in its own colour, black ink is dark in
 // every channel), normalised to the local paper level (uneven light in
-// photos); then any grid that still shows (grey or black grids, dots) is
+// photos) so that black ink reaches 255 and pale coloured lines stay low;
+// then any grid that still shows (grey or black grids, dots) is
 // removed line by line at the known grid positions, keeping ink that
 // crosses a line.
-func inkMap(img *image.NRGBA, gl gridLines) *image.Gray {
+func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 	w, h := img.Rect.Dx(), img.Rect.Dy()
 	m := make([]uint8, w*h)
 	for y := 0; y < h; y++ {
@@ -35,20 +37,35 @@ func inkMap(img *image.NRGBA, gl gridLines) *image.Gray {
 	if s <= 0 {
 		s = float64(max(w, h)) / 280
 	}
-	paper := paperLevel(m, w, h, max(8, int(4*s)))
+	bsz := max(8, int(4*s))
+	paper, isPaper := paperLevel(m, w, h, bsz)
+	// The page's outline: the bounding box of paper blocks.
+	box := image.Rectangle{}
+	for y := bsz / 2; y < h; y += bsz {
+		for x := bsz / 2; x < w; x += bsz {
+			if isPaper(x, y) {
+				box = box.Union(image.Rect(x-bsz/2, y-bsz/2, x+bsz/2, y+bsz/2))
+			}
+		}
+	}
+	box = box.Intersect(image.Rect(0, 0, w, h))
 	out := image.NewGray(image.Rect(0, 0, w, h))
 	for y := 0; y < h; y++ {
 		pr := paper(y)
 		o := out.Pix[y*out.Stride : y*out.Stride+w]
 		mr := m[y*w : y*w+w]
 		for x := range o {
+			if !isPaper(x, y) {
+				o[x] = 0 // background around a photographed page
+				continue
+			}
 			p := pr[x]
 			d := p - float32(mr[x])
 			if d <= 0 {
 				o[x] = 0
 				continue
 			}
-			v := d / (0.55 * p) * 255
+			v := d / p * (255 * 1.4)
 			if v >= 255 {
 				o[x] = 255
 			} else {
@@ -61,13 +78,15 @@ func inkMap(img *image.NRGBA, gl gridLines) *image.Gray {
 		suppressLines(out, gl, false)
 		suppressDots(out, gl)
 	}
-	return out
+	return out, box
 }
 
 // paperLevel estimates the paper brightness as the 90th percentile of the
 // bright channel in blocks of b px, interpolated bilinearly; it returns a
-// function giving one row of levels.
-func paperLevel(m []uint8, w, h, b int) func(y int) []float32 {
+// function giving one row of levels, and one that tells paper from the
+// darker background around a photographed page (blocks under half the
+// bright blocks' level).
+func paperLevel(m []uint8, w, h, b int) (func(y int) []float32, func(x, y int) bool) {
 	bw, bh := (w+b-1)/b, (h+b-1)/b
 	lev := make([]float32, bw*bh)
 	var hist [256]int
@@ -96,6 +115,10 @@ func paperLevel(m []uint8, w, h, b int) func(y int) []float32 {
 			lo, hi = min(lo, fv), max(hi, fv)
 		}
 	}
+	sorted := append([]float32(nil), lev...)
+	sort.Slice(sorted, func(i, j int) bool { return sorted[i] < sorted[j] })
+	bright := sorted[len(sorted)*9/10]
+	isPaper := func(x, y int) bool { return lev[(y/b)*bw+x/b] >= 0.5*bright }
 	row := make([]float32, w)
 	if hi-lo < 12 {
 		// Even light (a scan): one level for the page, from the median block.
@@ -103,7 +126,7 @@ func paperLevel(m []uint8, w, h, b int) func(y int) []float32 {
 		for x := range row {
 			row[x] = c
 		}
-		return func(int) []float32 { return row }
+		return func(int) []float32 { return row }, func(int, int) bool { return true }
 	}
 	return func(y int) []float32 {
 		fy := (float64(y)+0.5)/float64(b) - 0.5
@@ -120,7 +143,7 @@ func paperLevel(m []uint8, w, h, b int) func(y int) []float32 {
 			row[x] = a*(1-ty) + c*ty
 		}
 		return row
-	}
+	}, isPaper
 }
 
 func medianF32(a []float32) float32 {
@@ -230,6 +253,11 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 		return &g.Pix[c*st+a]
 	}
 	const seg = 48
+	type segLine struct {
+		c, a0, a1 int
+		lv        int
+	}
+	var segs []segLine
 	var hist [256]int
 	nLines := int(float64(across)/gl.s) + 2
 	for n := -1; n <= nLines; n++ {
@@ -268,30 +296,47 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 					break
 				}
 			}
-			if lv < 8 {
-				continue
+			segs = append(segs, segLine{best, a0, a1, lv})
+		}
+	}
+	if len(segs) == 0 {
+		return
+	}
+	// A segment whose centre is much darker than the family's usual line
+	// is a trace lying along the line: use the usual level there.
+	lvs := make([]float64, len(segs))
+	for i, sg := range segs {
+		lvs[i] = float64(sg.lv)
+	}
+	usual := median(lvs)
+	if usual < 8 {
+		return
+	}
+	for _, sg := range segs {
+		lv := float64(sg.lv)
+		if lv > 1.3*usual+15 {
+			lv = usual
+		}
+		gl := float32(lv)
+		lo, hi := sg.c-hw, sg.c+hw
+		cl, cr := lo-1, hi+1
+		for a := sg.a0; a < sg.a1; a++ {
+			var vl, vr uint8
+			if cl >= 0 {
+				vl = *at(a, cl)
 			}
-			gl := float32(lv)
-			lo, hi := best-hw, best+hw
-			cl, cr := lo-1, hi+1
-			for a := a0; a < a1; a++ {
-				var vl, vr uint8
-				if cl >= 0 {
-					vl = *at(a, cl)
+			if cr < across {
+				vr = *at(a, cr)
+			}
+			carry := min(vl, vr)
+			for c := max(lo, 0); c <= min(hi, across-1); c++ {
+				p := at(a, c)
+				v := (float32(*p) - gl) / (255 - gl + 1) * 255
+				nv := uint8(0)
+				if v > 0 {
+					nv = uint8(min(v, 255))
 				}
-				if cr < across {
-					vr = *at(a, cr)
-				}
-				carry := min(vl, vr)
-				for c := max(lo, 0); c <= min(hi, across-1); c++ {
-					p := at(a, c)
-					v := (float32(*p) - gl) / (255 - gl + 1) * 255
-					nv := uint8(0)
-					if v > 0 {
-						nv = uint8(min(v, 255))
-					}
-					*p = max(nv, carry)
-				}
+				*p = max(nv, carry)
 			}
 		}
 	}

@@ -1,6 +1,7 @@
 package calib
 
 import (
+	"fmt"
 	"math"
 	"sort"
 )
@@ -27,12 +28,22 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	if min(wk.w, wk.h) < 2*ts {
 		ts = min(wk.w, wk.h) / 2
 	}
-	g := scanTiles(wk, theta, ts)
-	au := analyzeAxis(g, true)
-	av := analyzeAxis(g, false)
+	// First with the ink left out; a black grid (fax, photocopy) is as
+	// dark as the ink, so a second try keeps every pixel.
+	var g *gridScan
+	var au, av axisFit
+	for _, cut := range []float32{inkCut(wk), 1e9} {
+		g = scanTiles(wk, theta, ts, cut)
+		au = analyzeAxis(g, true)
+		av = analyzeAxis(g, false)
+		if au.ok && av.ok {
+			break
+		}
+	}
 	if !au.ok || !av.ok {
 		return gridModel{}, false
 	}
+	alignFundamentals(&au, &av)
 	mu := measureTiles(g, &au, true)
 	mv := measureTiles(g, &av, false)
 	unwrap(g, mu)
@@ -104,65 +115,75 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 				cv++
 			}
 		}
+		var su, sv []string
+		for i := range mu {
+			su = append(su, fmt.Sprintf("%.0f/%.3f", mu[i].snr, mu[i].F/au.F))
+			sv = append(sv, fmt.Sprintf("%.0f", mv[i].snr))
+		}
+		dbgGrid("snr u %v\nsnr v %v", su, sv)
 		dbgGrid("tiles %d ok u %d v %d; F %.5f %.5f m %d %d units %v %v harm %v %v", len(g.tiles), cu, cv, au.F, av.F, au.m, av.m, au.unit, av.unit, au.harm, av.harm)
 	}
-	var cs []corr
+	var os []obs
+	nBoth := 0
 	for i := range g.tiles {
-		if !mu[i].ok || !mv[i].ok {
-			continue
-		}
 		t := &g.tiles[i]
 		x, y := t.sx/t.n, t.sy/t.n
-		u := g.c*x + g.s*y
-		v := -g.s*x + g.c*y
-		cs = append(cs, corr{
-			X: au.unit * (au.F*u + mu[i].o),
-			Y: av.unit * (av.F*v + mv[i].o),
-			x: x, y: y, w: math.Min(mu[i].frac, mv[i].frac),
-		})
+		if mu[i].ok {
+			os = append(os, obs{x: x, y: y, val: au.unit * mu[i].q, axis: 0, w: mu[i].frac})
+		}
+		if mv[i].ok {
+			os = append(os, obs{x: x, y: y, val: av.unit * mv[i].q, axis: 1, w: mv[i].frac})
+		}
+		if mu[i].ok && mv[i].ok {
+			nBoth++
+		}
 	}
-	if len(cs) < 4 {
-		return gridModel{}, false
-	}
-	affine := len(cs) < 12
-	H, ok := fitHomography(cs, affine)
+	affine := len(os) < 24
+	G, ok := fitInverse(os, affine)
 	if !ok {
 		return gridModel{}, false
 	}
-	// Robust pass: drop points far off the first fit (unwrap slips).
-	pxPerMM := 1 / (au.F * au.unit)
-	for pass := 0; pass < 2; pass++ {
-		res := make([]float64, len(cs))
-		for i, c := range cs {
-			res[i] = residual(H, c)
+	// Robust passes: drop observations far off the fit (unwrap slips are
+	// whole periods; 0.4 of the fundamental separates them).
+	for pass := 0; pass < 3; pass++ {
+		res := make([]float64, len(os))
+		for i, o := range os {
+			res[i] = obsResidual(G, o)
 		}
-		med := median(res)
-		lim := math.Max(3*med, 0.25*pxPerMM)
-		kept := cs[:0:0]
-		for i, c := range cs {
+		lim := math.Max(3*median(res), 0.1)
+		lim = math.Min(lim, 0.4*math.Min(au.unit, av.unit))
+		kept := os[:0:0]
+		for i, o := range os {
 			if res[i] <= lim {
-				kept = append(kept, c)
+				kept = append(kept, o)
 			}
 		}
-		if len(kept) < 4 || len(kept) == len(cs) {
+		if len(kept) == len(os) {
 			break
 		}
-		cs = kept
-		if H2, ok := fitHomography(cs, len(cs) < 12); ok {
-			H = H2
+		G2, ok := fitInverse(kept, len(kept) < 24)
+		if !ok {
+			break
 		}
+		os, G = kept, G2
 	}
-	gm := gridModel{H: H, unitX: au.unit, unitY: av.unit, tiles: len(cs)}
+	H, ok := G.inv()
+	if !ok {
+		return gridModel{}, false
+	}
+	gm := gridModel{H: H, unitX: au.unit, unitY: av.unit, tiles: len(os)}
 	gm.X0, gm.Y0 = math.Inf(1), math.Inf(1)
 	gm.X1, gm.Y1 = math.Inf(-1), math.Inf(-1)
 	var ss float64
-	for _, c := range cs {
-		gm.X0, gm.X1 = min(gm.X0, c.X), max(gm.X1, c.X)
-		gm.Y0, gm.Y1 = min(gm.Y0, c.Y), max(gm.Y1, c.Y)
-		r := residual(H, c)
+	for _, o := range os {
+		X, Y := G.apply(o.x, o.y)
+		gm.X0, gm.X1 = min(gm.X0, X), max(gm.X1, X)
+		gm.Y0, gm.Y1 = min(gm.Y0, Y), max(gm.Y1, Y)
+		r := obsResidual(G, o)
 		ss += r * r
 	}
-	gm.rmsMM = math.Sqrt(ss/float64(len(cs))) / pxPerMM
+	_ = nBoth
+	gm.rmsMM = math.Sqrt(ss / float64(len(os)))
 	// Tile half-size in mm widens the extent to the tiles' edges.
 	halfX := float64(ts) / 2 * au.F * au.unit
 	halfY := float64(ts) / 2 * av.F * av.unit
@@ -173,7 +194,7 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	gm.perspTerms = math.Hypot(H[6]*(gm.X1-gm.X0), H[7]*(gm.Y1-gm.Y0))
 	// Confidence: enough tiles, small residual, sharp spectral peaks.
 	c := 1.0
-	c *= math.Min(1, float64(len(cs))/12)
+	c *= math.Min(1, float64(len(os))/24)
 	c *= math.Exp(-gm.rmsMM / 0.3)
 	c *= math.Min(1, math.Min(au.prom, av.prom)/20)
 	gm.conf = math.Max(0, math.Min(1, c))

@@ -35,7 +35,7 @@ type stroke struct {
 func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 	w, h := ink.Rect.Dx(), ink.Rect.Dy()
 	on := func(x, y int) bool { return ink.Pix[y*ink.Stride+x] >= 128 }
-	minRun := int(math.Max(6, 1.8*sLo)) // a pulse is at least 2.5 mm tall
+	minRun := int(math.Max(6, 2.2*sLo)) // a pulse is at least 2.5 mm tall
 	maxRun := int(45 * sHi)
 	// Vertical runs per column, grouped into strokes across neighbouring
 	// columns with the same extent.
@@ -100,7 +100,7 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			if float64(gap) > 12.5*sHi {
 				break
 			}
-			if usedR[j] || float64(gap) < 1.5*sLo {
+			if usedR[j] || float64(gap) < 1.8*sLo {
 				continue
 			}
 			if abs(a.y0-b.y0) > tol || abs(a.y1-b.y1) > tol {
@@ -134,6 +134,25 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 				}
 			}
 			if inTot == 0 || float64(in) > 0.05*float64(inTot) {
+				continue
+			}
+			// The trace leaves the pulse along its baseline on at least one
+			// side (letters such as "n" have no such foot).
+			foot := func(x0, x1 int) bool {
+				n, tot := 0, 0
+				for x := max(0, x0); x <= min(w-1, x1); x++ {
+					tot++
+					for y := max(0, bot-th-1); y <= min(h-1, bot+1); y++ {
+						if on(x, y) {
+							n++
+							break
+						}
+					}
+				}
+				return tot > 0 && float64(n) >= 0.8*float64(tot)
+			}
+			fl := int(math.Max(3, 0.8*sLo))
+			if !foot(a.x0-fl, a.x0-1) && !foot(b.x1+1, b.x1+fl) {
 				continue
 			}
 			xa := float64(a.x0+a.x1) / 2

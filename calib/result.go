@@ -53,7 +53,7 @@ type Result struct {
 
 	GainMMPerMV float64
 	SpeedMMPerS float64
-	Source      string  // "grid", "pulse" or "user": where the scale came from
+	Source      string  // "grid", "pulse", "user", or "file" (no grid or pulse; the file's stated dpi): where the scale came from
 	Confidence  float64 // 0..1
 	Pulses      []Pulse
 
@@ -61,6 +61,11 @@ type Result struct {
 	// (row-major 3×3 homography), for drawing overlays on the source.
 	RectToImage [9]float64
 	Warnings    []string
+
+	// ScaleAt is the original-image pixel where PxPerMMX, PxPerMMY and
+	// RotationDeg were taken (the middle of the tracing); under
+	// perspective they change across the page.
+	ScaleAt [2]float64
 }
 
 // Expected failures.

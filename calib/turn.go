@@ -1,85 +1,83 @@
 package calib
 
 import (
+	"image"
 	"math"
 	"sort"
 )
 
 // decideTurn finds how many counter-clockwise quarter turns make the page
-// upright. Two cues on a coarse ink map (4 px/mm): traces run mostly along
+// upright. Two cues on the ink map pooled to about 4 px/mm: traces run mostly along
 // the time axis (more horizontal than vertical ink neighbours), and QRS
 // complexes and the calibration step rise above the baseline more than
 // they fall below it in most leads, so within a trace row the ink's mean
 // lies above its median when the page is upright (common practice: most
 // leads are predominantly upright; aVR and some others are not, which the
 // sum over all rows outweighs).
-func decideTurn(wk *work, H mat3, X0, X1, Y0, Y1 float64) (int, float64) {
-	const r = 4.0
-	w, h := int((X1-X0)*r), int((Y1-Y0)*r)
-	if w < 8 || h < 8 || int64(w)*int64(h) > 20e6 {
+func decideTurn(ink *image.Gray, s float64) (int, float64) {
+	bs := max(1, int(math.Round(s/4)))
+	W, H := ink.Rect.Dx(), ink.Rect.Dy()
+	w, h := W/bs, H/bs
+	if w < 8 || h < 8 {
 		return 0, 0
 	}
-	vals := make([]uint8, w*h)
-	for j := 0; j < h; j++ {
-		Y := Y0 + (float64(j)+0.5)/r
-		for i := 0; i < w; i++ {
-			X := X0 + (float64(i)+0.5)/r
-			x, y := H.apply(X, Y)
-			xi, yi := int(x+0.5), int(y+0.5)
-			if xi < 0 || yi < 0 || xi >= wk.w || yi >= wk.h {
-				continue
-			}
-			vals[j*w+i] = uint8(max(0, min(255, wk.dmax[yi*wk.w+xi])))
-		}
-	}
-	// Ink threshold: well above the grid (grey grids stay in dmax).
-	var hist [256]int
-	for _, v := range vals {
-		hist[v]++
-	}
-	p := 255
-	for acc := 0; p > 0; p-- {
-		acc += hist[p]
-		if acc > len(vals)/200 {
-			break
-		}
-	}
-	t := uint8(max(60, int(0.6*float64(p))))
 	on := make([]bool, w*h)
-	var hAdj, vAdj float64
+	rows := make([]float64, h)
+	cols := make([]float64, w)
 	for j := 0; j < h; j++ {
 		for i := 0; i < w; i++ {
-			on[j*w+i] = vals[j*w+i] >= t
+			hit := false
+			for y := j * bs; y < j*bs+bs && !hit; y++ {
+				row := ink.Pix[y*ink.Stride+i*bs : y*ink.Stride+i*bs+bs]
+				for _, v := range row {
+					if v >= 128 {
+						hit = true
+						break
+					}
+				}
+			}
+			if hit {
+				on[j*w+i] = true
+				rows[j]++
+				cols[i]++
+			}
 		}
 	}
-	for j := 0; j < h-1; j++ {
-		for i := 0; i < w-1; i++ {
-			if !on[j*w+i] {
-				continue
-			}
-			if on[j*w+i+1] {
-				hAdj++
-			}
-			if on[(j+1)*w+i] {
-				vAdj++
-			}
+	// Baselines make a few rows almost fully inked; QRS complexes make
+	// columns only partly inked (a fraction of the page height).
+	top := func(a []float64, n float64) float64 {
+		b := append([]float64(nil), a...)
+		sort.Sort(sort.Reverse(sort.Float64Slice(b)))
+		k := max(1, len(b)/100)
+		var s float64
+		for _, v := range b[:k] {
+			s += v
 		}
+		return s / float64(k) / n
 	}
-	if hAdj+vAdj == 0 {
+	sh, sv := top(rows, float64(w)), top(cols, float64(h))
+	if sh+sv == 0 {
 		return 0, 0
 	}
-	axisConf := math.Abs(hAdj-vAdj) / (hAdj + vAdj)
-	if hAdj >= vAdj {
+	axisConf := math.Abs(sh-sv) / (sh + sv)
+	if dbgGrid != nil {
+		dbgGrid("turn: rows %.3f cols %.3f w %d h %d", sh, sv, w, h)
+	}
+	// Turning is rare: ask for clear evidence before doing it.
+	if sv < 1.4*sh {
 		sk := riseScore(on, w, h, func(i, j int) int { return j*w + i }, w, h)
-		conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*10)
-		if sk <= 0 {
+		if dbgGrid != nil {
+			dbgGrid("turn: rise %.4f", sk)
+		}
+		conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*30)
+		if sk <= 0.03 {
 			return 0, conf
 		}
 		return 2, conf
 	}
 	// Upright candidate for q=1: upright (i', j') is grid pixel (w-1-j', i').
 	sk := riseScore(on, w, h, func(i, j int) int { return i*w + (w - 1 - j) }, h, w)
-	conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*10)
+	conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*30)
 	if sk <= 0 {
 		return 1, conf
 	}
@@ -145,4 +143,66 @@ func riseScore(on []bool, _, _ int, idx func(i, j int) int, uw, uh int) float64 
 		return 0
 	}
 	return score / wsum
+}
+
+// turnGray rotates g by q counter-clockwise quarter turns (as displayed).
+func turnGray(g *image.Gray, q int) *image.Gray {
+	W, H := g.Rect.Dx(), g.Rect.Dy()
+	ow, oh := W, H
+	if q&1 == 1 {
+		ow, oh = H, W
+	}
+	out := image.NewGray(image.Rect(0, 0, ow, oh))
+	for y := 0; y < oh; y++ {
+		for x := 0; x < ow; x++ {
+			sx, sy := turnSrc(q, x, y, W, H)
+			out.Pix[y*out.Stride+x] = g.Pix[sy*g.Stride+sx]
+		}
+	}
+	return out
+}
+
+// turnNRGBA is turnGray for colour.
+func turnNRGBA(g *image.NRGBA, q int) *image.NRGBA {
+	W, H := g.Rect.Dx(), g.Rect.Dy()
+	ow, oh := W, H
+	if q&1 == 1 {
+		ow, oh = H, W
+	}
+	out := image.NewNRGBA(image.Rect(0, 0, ow, oh))
+	for y := 0; y < oh; y++ {
+		for x := 0; x < ow; x++ {
+			sx, sy := turnSrc(q, x, y, W, H)
+			copy(out.Pix[y*out.Stride+4*x:y*out.Stride+4*x+4], g.Pix[sy*g.Stride+4*sx:])
+		}
+	}
+	return out
+}
+
+// turnSrc gives the source pixel of turned pixel (x, y); W, H is the
+// source size.
+func turnSrc(q, x, y, W, H int) (int, int) {
+	switch q & 3 {
+	case 1:
+		return W - 1 - y, x
+	case 2:
+		return W - 1 - x, H - 1 - y
+	case 3:
+		return y, H - 1 - x
+	}
+	return x, y
+}
+
+// turnMat is turnSrc as a matrix (turned px → source px).
+func turnMat(q, W, H int) mat3 {
+	w, h := float64(W-1), float64(H-1)
+	switch q & 3 {
+	case 1:
+		return mat3{0, -1, w, 1, 0, 0, 0, 0, 1}
+	case 2:
+		return mat3{-1, 0, w, 0, -1, h, 0, 0, 1}
+	case 3:
+		return mat3{0, 1, 0, -1, 0, h, 0, 0, 1}
+	}
+	return ident
 }
