@@ -4,6 +4,11 @@ package batch
 
 import "os/exec"
 
-// Isolate is a no-op where process groups do not exist: cancelling the
-// context kills the worker process only (exec.CommandContext's default).
-func Isolate(cmd *exec.Cmd) {}
+// setGroup does nothing where process groups do not exist.
+func setGroup(cmd *exec.Cmd) {}
+
+// killGroup kills the worker process only.
+func killGroup(cmd *exec.Cmd) { cmd.Process.Kill() }
+
+// SelfUsage is not measured here.
+func SelfUsage() (peakMB, cpuS float64) { return 0, 0 }

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"encoding/json"
 	"errors"
@@ -12,7 +11,6 @@ import (
 	"os"
 	"os/exec"
 	"os/signal"
-	"reflect"
 	"regexp"
 	"runtime"
 	"strings"
@@ -32,10 +30,10 @@ func init() {
 	register("batch", "digitize every image of a folder tree or a list; parallel, resumable, shardable", cmdBatch)
 }
 
-// pageWorkerArg, as the first argument of batch, makes the process digitize
-// one page for a parent batch: the child-process mode of --page-timeout.
-// It is not for people and is not listed.
-const pageWorkerArg = "__page"
+// serveArg, as the first argument of batch, makes the process a page
+// worker of a parent batch (see batch.Pool). It is not for people and is
+// not listed.
+const serveArg = "__serve"
 
 type batchFlags struct {
 	common      commonFlags
@@ -49,8 +47,8 @@ type batchFlags struct {
 }
 
 func cmdBatch(args []string, stdout, stderr io.Writer) int {
-	if len(args) > 0 && args[0] == pageWorkerArg {
-		return cmdPageWorker(args[1:], stdout, stderr)
+	if len(args) > 0 && args[0] == serveArg {
+		return cmdServe(args[1:], stdout, stderr)
 	}
 	fs := flag.NewFlagSet("batch", flag.ContinueOnError)
 	var b batchFlags
@@ -60,7 +58,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	fs.IntVar(&b.jobs, "jobs", runtime.GOMAXPROCS(0), "pages digitized at once (default: the CPUs this process may use)")
 	fs.StringVar(&b.shard, "shard", "", "do only shard K of N (K/N, 1-based): N processes with K = 1…N cover every file once")
 	fs.DurationVar(&b.pageTimeout, "page-timeout", batch.DefaultPageTimeout, "give up a page after this long (0 = never)")
-	fs.BoolVar(&b.inProcess, "in-process", false, "digitize in this process instead of one child process per page (faster to start; a stuck page cannot be stopped, only abandoned)")
+	fs.BoolVar(&b.inProcess, "in-process", false, "digitize in this process instead of in worker processes (a stuck page can then only be abandoned, not stopped)")
 	fs.BoolVar(&b.noResume, "no-resume", false, "digitize every file again, even when its outputs are up to date")
 	fs.StringVar(&b.base, "base", "", "folder that the paths of LIST.txt are relative to (default: the list's folder)")
 	fs.BoolVar(&b.quiet, "quiet", false, "no progress display")
@@ -126,7 +124,10 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 			fmt.Fprintln(stderr, "tracelift-cli batch: cannot find this program to start page workers:", err, "; use --in-process")
 			return 1
 		}
-		proc = childProcess(exe, passThrough(fs), formats)
+		args := append([]string{"batch", serveArg, "-format", strings.Join(formats, ",")}, passThrough(fs)...)
+		pool := batch.NewPool(b.jobs, 0, func() *exec.Cmd { return exec.Command(exe, args...) })
+		defer pool.Close()
+		proc = pool.Process
 	}
 
 	timeout := b.pageTimeout
@@ -292,130 +293,28 @@ func advise(err error) error {
 	return fmt.Errorf("%w; %s", err, what)
 }
 
-// childProcess runs each page in "tracelift-cli batch __page", so a page
-// past its deadline is killed (OpenCV calls cannot be interrupted), a crash
-// in C code fails that page only, and each page's peak memory is measured.
-func childProcess(exe string, shared []string, formats []string) batch.ProcessFunc {
-	return func(ctx context.Context, in, dir, stem string) (batch.FileResult, error) {
-		var fr batch.FileResult
-		args := append([]string{"batch", pageWorkerArg, "-o", dir, "-stem", stem, "-format", strings.Join(formats, ",")}, shared...)
-		cmd := exec.CommandContext(ctx, exe, append(args, "--", in)...)
-		var out bytes.Buffer
-		errs := &headBuffer{max: 16 << 10}
-		cmd.Stdout, cmd.Stderr = &out, errs
-		batch.Isolate(cmd)
-		cmd.WaitDelay = 2 * time.Second
-		err := cmd.Run()
-		usage := func() {
-			if ps := cmd.ProcessState; ps != nil {
-				fr.PeakRSSMB = maxRSSMB(ps)
-				fr.CPUSecond = (ps.UserTime() + ps.SystemTime()).Seconds()
-			}
-		}
-		usage()
-		if ctx.Err() != nil {
-			return fr, ctx.Err()
-		}
-		if err != nil {
-			var ee *exec.ExitError
-			if line := lastPrefixed(errs.String(), "tracelift-cli batch: "); line != "" && errors.As(err, &ee) && ee.ExitCode() == 1 {
-				return fr, errors.New(line)
-			}
-			return fr, fmt.Errorf("%s: digitizing it crashed (%v); this is a bug, please report it with the file%s", in, err, crashNote(errs.String()))
-		}
-		if err := json.Unmarshal(out.Bytes(), &fr); err != nil {
-			return fr, fmt.Errorf("%s: the page worker's answer does not parse (%v); this is a bug, please report it", in, err)
-		}
-		usage()
-		return fr, nil
-	}
-}
-
-// lastPrefixed returns the last line of s that starts with prefix, without
-// the prefix.
-func lastPrefixed(s, prefix string) string {
-	lines := strings.Split(strings.TrimSpace(s), "\n")
-	for i := len(lines) - 1; i >= 0; i-- {
-		if l, ok := strings.CutPrefix(lines[i], prefix); ok {
-			return strings.TrimSpace(l)
-		}
-	}
-	return ""
-}
-
-// crashNote quotes the first line of a runtime crash report (panic, fatal
-// error, signal), not the stack dump.
-func crashNote(s string) string {
-	for _, l := range strings.Split(s, "\n") {
-		l = strings.TrimSpace(l)
-		if strings.HasPrefix(l, "panic:") || strings.HasPrefix(l, "fatal error:") || strings.HasPrefix(l, "SIG") {
-			if len(l) > 200 {
-				l = l[:200] + "…"
-			}
-			return "; it said: " + strings.TrimPrefix(l, "panic: ")
-		}
-	}
-	return ""
-}
-
-// maxRSSMB reads the peak resident set of a finished child. Rusage exists
-// on Unix only, so it is read by field name to keep other builds
-// compiling; Linux reports kilobytes (getrusage(2)).
-func maxRSSMB(ps *os.ProcessState) float64 {
-	v := reflect.ValueOf(ps.SysUsage())
-	if v.Kind() != reflect.Pointer || v.IsNil() {
-		return 0
-	}
-	f := v.Elem().FieldByName("Maxrss")
-	if !f.IsValid() || !f.CanInt() {
-		return 0
-	}
-	kb := float64(f.Int())
-	if runtime.GOOS == "darwin" {
-		kb /= 1024 // bytes there
-	}
-	return kb / 1024
-}
-
-// headBuffer keeps the first max bytes written to it: a failing page
-// worker says one line; a crashing one puts its reason before the stacks.
-type headBuffer struct {
-	max int
-	b   []byte
-}
-
-func (h *headBuffer) Write(p []byte) (int, error) {
-	if room := h.max - len(h.b); room > 0 {
-		h.b = append(h.b, p[:min(room, len(p))]...)
-	}
-	return len(p), nil
-}
-
-func (h *headBuffer) String() string { return string(h.b) }
-
-// cmdPageWorker digitizes one page for a parent batch: outputs into -o as
-// <stem>.<ext>, the result as JSON on stdout, the error on stderr.
-func cmdPageWorker(args []string, stdout, stderr io.Writer) int {
-	fs := flag.NewFlagSet("batch "+pageWorkerArg, flag.ContinueOnError)
+// cmdServe is a page worker of a batch's pool: it digitizes the pages the
+// parent sends on standard input (batch.Serve). Every option but -o comes
+// from the parent; each request names its own output folder.
+func cmdServe(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("batch "+serveArg, flag.ContinueOnError)
 	var c commonFlags
 	c.register(fs)
-	stem := fs.String("stem", "", "output file name without extension")
 	pos, err := parseArgs(fs, args, stderr)
-	if err != nil || len(pos) != 1 || *stem == "" {
-		fmt.Fprintln(stderr, "tracelift-cli batch: the page worker needs -o DIR -stem NAME and one image")
+	if err != nil || len(pos) != 0 {
+		fmt.Fprintln(stderr, "tracelift-cli batch: a page worker takes options only; it is started by 'tracelift-cli batch'")
 		return 2
 	}
+	c.out = "(given per page)"
 	if err := c.check(); err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
 		return 2
 	}
 	formats, _ := pipeline.ParseFormats(c.formats)
-	fr, err := digitizeOne(context.Background(), &c, formats, pos[0], c.out, *stem)
+	err = batch.Serve(context.Background(), os.Stdin, stdout, func(ctx context.Context, in, dir, stem string) (batch.FileResult, error) {
+		return digitizeOne(ctx, &c, formats, in, dir, stem)
+	})
 	if err != nil {
-		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
-		return 1
-	}
-	if err := json.NewEncoder(stdout).Encode(fr); err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
 		return 1
 	}
