@@ -22,6 +22,7 @@ import (
 	"strings"
 
 	"tracelift/record"
+	"tracelift/record/atomic"
 )
 
 // DefaultRateHz is the row rate used when Write is given a zero rate (the
@@ -188,4 +189,10 @@ func appendField(b []byte, s string) []byte {
 		b = append(b, s[i])
 	}
 	return append(b, '"')
+}
+
+// WriteFile writes rec as CSV at path through atomic.WriteFile, so a
+// reader or a crash never sees half a file.
+func WriteFile(path string, rec *record.Record, rateHz float64) error {
+	return atomic.WriteFile(path, func(w io.Writer) error { return Write(w, rec, rateHz) }, 0o644)
 }

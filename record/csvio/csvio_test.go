@@ -357,3 +357,27 @@ func BenchmarkRead12x10s(b *testing.B) {
 		Read(bytes.NewReader(buf.Bytes()))
 	}
 }
+
+func TestWriteFile(t *testing.T) {
+	t.Parallel()
+	p := filepath.Join(t.TempDir(), "a.csv")
+	rec := ptb12(t, 1)
+	if err := WriteFile(p, rec, 500); err != nil {
+		t.Fatal(err)
+	}
+	f, err := os.Open(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	got, err := Read(f)
+	if err != nil || len(got.Signals) != 12 || got.Signals[0].Len() != 500 {
+		t.Fatalf("%v %v", err, got)
+	}
+	if err := WriteFile(p, &record.Record{}, 500); err == nil {
+		t.Fatal("empty record written")
+	}
+	if b, _ := os.ReadFile(p); len(b) == 0 {
+		t.Fatal("failed write clobbered the file")
+	}
+}

@@ -53,7 +53,8 @@ type Options struct {
 // Write writes rec as EDF+C (continuous) with data records of 1 s (or the
 // shortest of 2, 5, 10, 20, 50, 100 s that gives every lead a whole number
 // of samples per record). Each lead is labelled "ECG <lead>" (EDF+
-// standard texts: signal type "ECG" and the lead), in mV, with its
+// standard texts: signal type "ECG" and the lead; a lead name of 13 to 16
+// bytes goes without the prefix, a longer one is cut), in mV, with its
 // physical minimum and maximum taken from its own data (padded by 1% of
 // the range, at least 0.01 mV, rounded outward to fit the 8-character
 // field). Leads starting later than the earliest are padded with gaps.
@@ -206,9 +207,13 @@ func build(rec *record.Record, opt Options) (*file, error) {
 func (f *file) recordOnset(k int) float64 { return f.t0 + float64(k)*f.durS }
 
 // label spells a lead as an EDF+ ECG label, printable ASCII, 16 bytes at
-// most.
+// most: "ECG <lead>", or the lead alone when the prefix would not fit (a
+// name beyond 16 bytes is cut).
 func label(lead string) string {
 	b := []byte("ECG " + lead)
+	if len(b) > 16 && len(lead) <= 16 && !hasTypePrefix(lead) {
+		b = []byte(lead)
+	}
 	for i, c := range b {
 		if c < 32 || c > 126 {
 			b[i] = '_'
@@ -218,6 +223,10 @@ func label(lead string) string {
 		b = b[:16]
 	}
 	return strings.TrimRight(string(b), " ")
+}
+
+func hasTypePrefix(s string) bool {
+	return strings.HasPrefix(s, "ECG ") || strings.HasPrefix(s, "EKG ")
 }
 
 // physRange returns the padded physical range of the data, formatted

@@ -220,7 +220,7 @@ func TestWriteErrors(t *testing.T) {
 		"empty": {},
 		"rate":  {Signals: []record.Signal{{Lead: "I", RateHz: 333.3333, MV: []float64{1}}}},
 		"huge":  {Signals: []record.Signal{{Lead: "I", RateHz: 500, MV: []float64{1e12}}}},
-		"label": {Signals: []record.Signal{{Lead: "rhythm strip one", RateHz: 500, MV: []float64{1}}, {Lead: "rhythm strip two", RateHz: 500, MV: []float64{1}}}},
+		"label": {Signals: []record.Signal{{Lead: "rhythm strip number one", RateHz: 500, MV: []float64{1}}, {Lead: "rhythm strip number two", RateHz: 500, MV: []float64{1}}}},
 		"far":   {Signals: []record.Signal{{Lead: "I", RateHz: 500, MV: []float64{1}}, {Lead: "II", RateHz: 500, StartS: 1e9, MV: []float64{1}}}},
 	}
 	for name, rec := range cases {

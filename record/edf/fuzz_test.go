@@ -37,6 +37,12 @@ func FuzzRead(f *testing.F) {
 			}
 			return
 		}
+		for _, s := range r1.Signals {
+			n := s.Lead
+			if len(n) > 16 || (len(n) > 12 && hasTypePrefix(n)) || strings.ContainsFunc(n, func(r rune) bool { return r < 32 || r > 126 }) {
+				return // labels of 16 printable ASCII bytes cannot carry it
+			}
+		}
 		var out bytes.Buffer
 		if err := Write(&out, r1, Options{}); err != nil {
 			msg := err.Error()

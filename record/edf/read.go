@@ -135,8 +135,8 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 			return nil, nil, bad("data record duration 0 with signal %s", s.label)
 		}
 		name := s.label
-		for _, p := range []string{"ECG ", "EKG "} { // EDF+ standard texts: type, space, lead
-			name = strings.TrimPrefix(name, p)
+		if hasTypePrefix(name) { // EDF+ standard texts: type, space, lead
+			name = name[4:]
 		}
 		name = strings.TrimSpace(name)
 		if name == "" {

@@ -34,7 +34,7 @@ type Annotation struct {
 // 16-bit word carries these instead of an annotation code (WFDB
 // Programmer's Guide, "annot(5)" format description).
 const (
-	codeSkip = 59 // the next 4 bytes hold a 32-bit time step
+	codeSkip = 59 // the next 4 bytes hold a 32-bit time step (high 16-bit word first; from memory)
 	codeNum  = 60 // the 10-bit field sets num
 	codeSub  = 61 // the 10-bit field sets subtyp
 	codeChn  = 62 // the 10-bit field sets chan

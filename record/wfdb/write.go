@@ -196,10 +196,10 @@ func writeFrames(w io.Writer, frames [][]int16) error {
 // (record line, one line per signal, then comments).
 func FormatHeader(w io.Writer, h *Header) error {
 	bw := bufio.NewWriter(w)
-	fmt.Fprintf(bw, "%s %d %s %d\n", h.Name, len(h.Signals), strconv.FormatFloat(h.FreqHz, 'g', -1, 64), h.NSamples)
+	fmt.Fprintf(bw, "%s %d %s %d\n", h.Name, len(h.Signals), strconv.FormatFloat(h.FreqHz, 'f', -1, 64), h.NSamples)
 	for _, s := range h.Signals {
 		fmt.Fprintf(bw, "%s %d %s(%d)/%s %d %d %d %d %d", s.File, s.Format,
-			strconv.FormatFloat(s.Gain, 'g', -1, 64), s.Baseline, s.Units,
+			strconv.FormatFloat(s.Gain, 'f', -1, 64), s.Baseline, s.Units,
 			s.ADCRes, s.ADCZero, s.InitVal, s.Checksum, s.BlockSize)
 		if s.Description != "" {
 			fmt.Fprintf(bw, " %s", s.Description)
