@@ -15,8 +15,8 @@ import (
 
 // BenchmarkBatch300dpi runs the real command-line batch on copies of the
 // 300-dpi demo printout (A4, 3508 × 2480 px) with 1 and 2 workers, in the
-// default child-process mode and in-process, and reports pages per minute
-// and the largest peak resident memory of one page worker (child mode).
+// default worker-process mode and in-process, and reports pages per minute
+// and the largest peak resident memory of one page worker (worker mode).
 //
 //	go test -run '^$' -bench Batch300dpi -benchtime 1x ./batch
 func BenchmarkBatch300dpi(b *testing.B) {
@@ -34,7 +34,7 @@ func BenchmarkBatch300dpi(b *testing.B) {
 	if out, err := exec.Command("go", "build", "-o", cli, "tracelift/cmd/tracelift-cli").CombinedOutput(); err != nil {
 		b.Fatalf("building the command-line tool: %v\n%s", err, out)
 	}
-	const pages = 6
+	const pages = 12
 	in := filepath.Join(tmp, "in")
 	os.MkdirAll(in, 0o755)
 	for i := 0; i < pages; i++ {
@@ -42,7 +42,7 @@ func BenchmarkBatch300dpi(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
-	for _, mode := range []string{"child", "in-process"} {
+	for _, mode := range []string{"workers", "in-process"} {
 		for _, jobs := range []int{1, 2} {
 			b.Run(fmt.Sprintf("%s/jobs=%d", mode, jobs), func(b *testing.B) {
 				var elapsed time.Duration
@@ -63,7 +63,7 @@ func BenchmarkBatch300dpi(b *testing.B) {
 					peak, cpu = max(peak, p), cpu+c
 				}
 				b.ReportMetric(float64(pages*b.N)/elapsed.Minutes(), "pages/min")
-				if mode == "child" {
+				if mode == "workers" {
 					b.ReportMetric(peak, "peakMB/worker")
 					b.ReportMetric(cpu/float64(pages*b.N), "cpu-s/page")
 				}
