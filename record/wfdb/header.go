@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 )
@@ -201,7 +202,7 @@ func parseSignalLine(txt string) (SignalSpec, error) {
 			g = g[:i]
 		}
 		gv, err := strconv.ParseFloat(g, 64)
-		if err != nil || gv < 0 || gv != gv {
+		if err != nil || gv < 0 || math.IsNaN(gv) || math.IsInf(gv, 0) {
 			return s, fmt.Errorf("bad gain %q", f[2])
 		}
 		if gv > 0 {
