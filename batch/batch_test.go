@@ -147,6 +147,21 @@ func TestCollectWalk(t *testing.T) {
 	if strings.Join(got, " ") != strings.Join(want, " ") {
 		t.Errorf("walk found %v, want %v", got, want)
 	}
+	// WFDB record names allow letters, digits, _ - . only (wfdb.WriteRecord,
+	// after the WFDB header format); two names that meet after the change
+	// are told apart (extension first, then a counter).
+	writeTree(t, src, map[string]string{"scan 1 (ward).png": "", "scan_1__ward_.png": "", "Bäcker.png": ""})
+	ins, err = Collect(src, CollectOptions{PlainStems: true, Skip: []string{filepath.Join(src, "out")}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	stems := map[string]string{}
+	for _, in := range ins {
+		stems[in.Rel] = in.Stem
+	}
+	if stems["scan 1 (ward).png"] != "scan_1__ward__png" || stems["scan_1__ward_.png"] != "scan_1__ward__png-2" || stems["Bäcker.png"] != "B_cker" {
+		t.Errorf("plain stems %v", stems)
+	}
 }
 
 func TestCollectList(t *testing.T) {

@@ -38,6 +38,9 @@ type CollectOptions struct {
 	// Skip lists folders the walk never enters (the output folder when it
 	// lies inside the input folder).
 	Skip []string
+	// PlainStems limits output stems to letters, digits, '_', '-' and '.'
+	// (others become '_'), as WFDB record names must be.
+	PlainStems bool
 }
 
 // Collect returns the inputs named by src: every image file below a folder
@@ -60,7 +63,7 @@ func Collect(src string, opt CollectOptions) ([]Input, error) {
 		return nil, err
 	}
 	sort.Slice(ins, func(a, b int) bool { return ins[a].Rel < ins[b].Rel })
-	assignStems(ins)
+	assignStems(ins, opt.PlainStems)
 	return ins, nil
 }
 
@@ -214,16 +217,28 @@ func cleanComponent(c string) string {
 // extension, made unique within its folder (case-insensitively, for file
 // systems that fold case) by adding the extension, then a counter. The
 // inputs are sorted, so every shard computes the same stems.
-func assignStems(ins []Input) {
+func assignStems(ins []Input, plain bool) {
 	key := func(dir, stem string) string { return strings.ToLower(dir + "/" + stem) }
 	count := map[string]int{}
+	stemOf := func(rel string) string {
+		s := plainStem(rel)
+		if plain {
+			s = strings.Map(func(r rune) rune {
+				if r == '_' || r == '-' || r == '.' || r >= '0' && r <= '9' || r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' {
+					return r
+				}
+				return '_'
+			}, s)
+		}
+		return s
+	}
 	for i := range ins {
-		count[key(path.Dir(ins[i].Rel), plainStem(ins[i].Rel))]++
+		count[key(path.Dir(ins[i].Rel), stemOf(ins[i].Rel))]++
 	}
 	used := map[string]bool{}
 	for i := range ins {
 		dir := path.Dir(ins[i].Rel)
-		stem := plainStem(ins[i].Rel)
+		stem := stemOf(ins[i].Rel)
 		if count[key(dir, stem)] > 1 {
 			if ext := strings.TrimPrefix(path.Ext(ins[i].Rel), "."); ext != "" {
 				stem += "_" + strings.ToLower(ext)

@@ -105,7 +105,11 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	formats, _ := pipeline.ParseFormats(b.common.formats)
 	formats = jsonLast(formats)
 
-	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}})
+	plain := false
+	for _, f := range formats {
+		plain = plain || f == pipeline.FormatWFDB // WFDB record names are plain
+	}
+	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}, PlainStems: plain})
 	if err != nil {
 		return usageErr(err.Error() + "; give a folder of images or a text file listing them")
 	}
