@@ -239,7 +239,7 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	}
 	if ctx.Err() != nil && len(rep.Results) < len(ins) {
 		rep.Interrupted = true
-		return rep, fmt.Errorf("batch: stopped after %d of %d files: %w", len(rep.Results), len(ins), ctx.Err())
+		return rep, fmt.Errorf("batch: interrupted after %d of %d files (%w); run the same command again to go on: finished files are kept", len(rep.Results), len(ins), ctx.Err())
 	}
 	return rep, logErr
 }
@@ -278,7 +278,7 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 		return r
 	}
 	if err := ctx.Err(); err != nil {
-		r.Error = "batch: stopped before " + in.Path + " was digitized; run the batch again to finish"
+		r.Error = "batch: interrupted before " + in.Path + " was digitized; run the batch again to finish it"
 		return r
 	}
 	dir, err := outDir(w.root, in.Rel)
@@ -312,6 +312,10 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 		defer os.RemoveAll(scratch)
 	}
 	r.TimingsMS, r.PeakRSSMB, r.CPUSecond = fr.TimingsMS, fr.PeakRSSMB, fr.CPUSecond
+	if err != nil && ctx.Err() != nil {
+		r.Error = "batch: interrupted before " + in.Path + " was finished; run the batch again to finish it"
+		return r
+	}
 	if err != nil {
 		r.Error = err.Error()
 		return r
