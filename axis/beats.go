@@ -111,6 +111,9 @@ func DetectBeats(s *record.Signal) ([]float64, error) {
 	return out, nil
 }
 
+// edgeS is half a normal QRS duration (about 50–60 ms, common practice).
+const edgeS = 0.06
+
 func detectLead(s *record.Signal) (*leadDetections, error) {
 	if s == nil || len(s.MV) == 0 {
 		return nil, ErrNoLead
@@ -128,7 +131,14 @@ func detectLead(s *record.Signal) (*leadDetections, error) {
 	var scoreSum, scoreW float64
 	for ri, r := range rs {
 		idx, score := panTompkins(x[r[0]:r[1]], fs)
+		// A complex cut by the edge of a stretch (a printout's column
+		// boundary, a gap) has no reliable R fiducial: its peak is where
+		// the cut is. Drop detections within edgeS of a cut.
+		edge := int(edgeS * fs)
 		for _, d := range idx {
+			if d.i < edge || d.i >= r[1]-r[0]-edge {
+				continue
+			}
 			out.beats = append(out.beats, detection{t: s.StartS + float64(r[0]+d.i)/fs, run: ri, peak: d.peak})
 		}
 		w := float64(r[1] - r[0])

@@ -164,6 +164,19 @@ func Measure(rec *record.Record, opt Options) (*Findings, error) {
 
 	f := &Findings{Record: rec.Name, Caution: Caution, BeatLead: rec.Signals[cands[0].si].Lead}
 	m := &measurer{rec: rec, qual: qual, beats: beats}
+	// RR intervals come from one lead where one lead covers most of the
+	// record and agrees with the others (a rhythm strip): R fiducials of
+	// different leads differ by tens of ms, so intervals between beats
+	// found on different leads would carry that offset.
+	rrLead := -1
+	for ci, c := range cands {
+		if c.cov >= 0.8*maxCov && c.d.agree >= 0.8 && c.d.rank > 0 && (rrLead < 0 || c.cov > cands[rrLead].cov) {
+			rrLead = ci
+		}
+	}
+	if rrLead >= 0 {
+		m.rrFrom = cands[rrLead].d
+	}
 	m.rhythm(f)
 	if err := m.templates(); err != nil {
 		return nil, err
@@ -190,6 +203,9 @@ type measurer struct {
 	tpl  [][]float64
 	fid  fid
 	fidS [2]fid // threshold sensitivity runs
+	// rrFrom, when set, is the single lead whose beats give the RR
+	// intervals.
+	rrFrom *leadDetections
 }
 
 func (m *measurer) rhythm(f *Findings) {
@@ -199,6 +215,17 @@ func (m *measurer) rhythm(f *Findings) {
 		if i > 0 && m.beats[i].seg == m.beats[i-1].seg {
 			m.beats[i].rr = m.beats[i].t - m.beats[i-1].t
 			rrs = append(rrs, m.beats[i].rr)
+		}
+	}
+	if d := m.rrFrom; d != nil {
+		var own []float64
+		for i := 1; i < len(d.beats); i++ {
+			if d.beats[i].run == d.beats[i-1].run {
+				own = append(own, d.beats[i].t-d.beats[i-1].t)
+			}
+		}
+		if len(own) >= len(rrs)/2 && len(own) > 0 {
+			rrs = own
 		}
 	}
 	f.HeartRateBPM, f.HeartRateSD, f.RRMeanS, f.RRSDS = NaN(), NaN(), NaN(), NaN()
