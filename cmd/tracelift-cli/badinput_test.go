@@ -10,9 +10,11 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/binary"
 	"encoding/csv"
 	"encoding/json"
 	"fmt"
+	"hash/crc32"
 	"image"
 	"image/color"
 	"image/draw"
@@ -213,6 +215,23 @@ func tiffOf(t *testing.T, m image.Image) []byte {
 
 func half(b []byte) []byte { return append([]byte(nil), b[:len(b)/2]...) }
 
+// pngClaiming is a tiny PNG whose header claims w × h pixels (a
+// decompression bomb's shape): the IHDR chunk is rewritten and its CRC-32
+// recomputed (PNG specification, ISO/IEC 15948, §5.3 and §11.2.2).
+func pngClaiming(t *testing.T, w, h uint32) []byte {
+	b := encodePNG(t, uniform(1, 1, color.White))
+	// 8-byte signature, then IHDR: length(4) "IHDR"(4) width(4) height(4) …
+	binary.BigEndian.PutUint32(b[16:], w)
+	binary.BigEndian.PutUint32(b[20:], h)
+	binary.BigEndian.PutUint32(b[29:], crc32.ChecksumIEEE(b[12:29]))
+	// The standard library's reader checks the chunk CRC: the header is
+	// well formed and says what we wrote.
+	if c, err := png.DecodeConfig(bytes.NewReader(b)); err != nil || c.Width != int(w) || c.Height != int(h) {
+		t.Fatalf("crafted header reads as %v, %v", c, err)
+	}
+	return b
+}
+
 // Outcomes a case may have.
 const (
 	mustFail = iota // exit 1 with a clear message
@@ -252,6 +271,7 @@ func TestBadInput(t *testing.T) {
 		{"blank page", "blank.png", func() []byte { return encodePNG(t, uniform(1240, 1754, color.White)) }, nil, mustFail},
 		{"photo with no ECG", "holiday.jpg", func() []byte { return photo(t) }, nil, mustFail},
 		{"over the pixel limit", "big.png", func() []byte { return cleanPNG }, []string{"--max-megapixels", "1"}, mustFail},
+		{"header claiming 60000x60000 pixels", "bomb.png", func() []byte { return pngClaiming(t, 60000, 60000) }, nil, mustFail},
 		{"over the byte limit", "heavy.png", func() []byte { return cleanPNG }, []string{"--max-megabytes", "0.01"}, mustFail},
 		{"PNG named .tif", "misnamed.tif", func() []byte { return faxPNG }, nil, either},
 		{"upside-down page", "upside_down.png", func() []byte { return encodePNG(t, imaging.Rotate180(decode(t, cleanPNG))) }, nil, either},
