@@ -346,6 +346,10 @@ func TestResume(t *testing.T) {
 	if _, err := Run(context.Background(), ins, fk.process, opt); err != nil {
 		t.Fatal(err)
 	}
+	// A run killed while writing the log leaves half a line.
+	lf, _ := os.OpenFile(filepath.Join(out, LogName(0, 0)), os.O_WRONLY|os.O_APPEND, 0)
+	lf.WriteString(`{"time":"2026-`)
+	lf.Close()
 	// Change a's image, remove b's CSV, spoil c's JSON; d stays as it was.
 	writeTree(t, src, map[string]string{"a.png": "hr=65"})
 	os.Remove(filepath.Join(out, "b.csv"))
@@ -374,9 +378,20 @@ func TestResume(t *testing.T) {
 			t.Errorf("skipped row %+v", r)
 		}
 	}
-	// The log grows: two runs, five lines each.
-	if n := len(readLog(t, rep.LogPath)); n != 10 {
-		t.Errorf("log has %d lines after two runs", n)
+	// The log grows: two runs, five whole lines each, and the broken line
+	// stays on a line of its own.
+	b, _ := os.ReadFile(rep.LogPath)
+	good, broken := 0, 0
+	for _, l := range strings.Split(strings.TrimSpace(string(b)), "\n") {
+		var r Result
+		if json.Unmarshal([]byte(l), &r) == nil {
+			good++
+		} else {
+			broken++
+		}
+	}
+	if good != 10 || broken != 1 {
+		t.Errorf("log has %d whole and %d broken lines after two runs, want 10 and 1", good, broken)
 	}
 	// NoResume digitizes everything.
 	fk.calls.Store(0)

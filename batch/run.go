@@ -164,11 +164,14 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	if err := refuseLink(rep.LogPath); err != nil {
 		return nil, err
 	}
-	logf, err := os.OpenFile(rep.LogPath, os.O_WRONLY|os.O_APPEND|os.O_CREATE, 0o644)
+	logf, err := os.OpenFile(rep.LogPath, os.O_RDWR|os.O_APPEND|os.O_CREATE, 0o644)
 	if err != nil {
 		return nil, fmt.Errorf("batch: opening the log: %w", err)
 	}
 	defer logf.Close()
+	if err := endLine(logf); err != nil {
+		return nil, fmt.Errorf("batch: the log: %w", err)
+	}
 	work, err := os.MkdirTemp(root, ".tracelift-work-")
 	if err != nil {
 		return nil, fmt.Errorf("batch: %w", err)
@@ -436,4 +439,21 @@ func hashFile(p string) (string, error) {
 		return "", fmt.Errorf("batch: cannot read %s: %s", p, errText(err))
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// endLine ends a log cut short by a killed run with a line break, so the
+// next run's lines stay whole (the broken line is left for a reader to skip).
+func endLine(f *os.File) error {
+	fi, err := f.Stat()
+	if err != nil || fi.Size() == 0 {
+		return err
+	}
+	last := make([]byte, 1)
+	if _, err := f.ReadAt(last, fi.Size()-1); err != nil {
+		return err
+	}
+	if last[0] != '\n' {
+		_, err = f.Write([]byte{'\n'})
+	}
+	return err
 }
