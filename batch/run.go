@@ -46,7 +46,8 @@ type ProcessFunc func(ctx context.Context, in, dir, stem string) (FileResult, er
 // Options for Run. The zero value of each field is a documented default.
 type Options struct {
 	Out string // output folder (required); created when missing
-	// Jobs is the number of pages digitized at once; 0 = the CPU count.
+	// Jobs is the number of pages digitized at once; 0 = GOMAXPROCS (the
+	// CPUs this process may use, container limits included).
 	Jobs int
 	// ShardK of ShardN name the log and summary files (summary-K-of-N.csv);
 	// the caller does the split with Shard. 0 or 1 for N: not sharded.
@@ -147,7 +148,7 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	}
 	jobs := opt.Jobs
 	if jobs <= 0 {
-		jobs = runtime.NumCPU()
+		jobs = runtime.GOMAXPROCS(0)
 	}
 	timeout := opt.PageTimeout
 	if timeout == 0 {
