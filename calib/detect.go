@@ -30,7 +30,10 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	theta, _ := gridAngle(wk)
+	theta, coh := gridAngle(wk, 1)
+	if coh < 0.3 {
+		theta, _ = gridAngle(wk, 3)
+	}
 	var gm gridModel
 	found := false
 	if !opt.ForceUser {
@@ -44,13 +47,16 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	}
 	// No grid: the traces' own direction deskews the page (their long
 	// baselines stand out in the 2-D spectrum as a grid's lines do).
-	theta, coh := gridAngle(wk)
+	theta, coh = gridAngle(wk, 3)
 	if coh < 0.2 {
 		if t2, c2 := coarseAngle(wk); c2 >= 0.1 {
 			theta = t2
 		} else {
 			theta = 0
 		}
+	}
+	if dbgGrid != nil {
+		dbgGrid("no grid: theta %.3f° coherence %.2f", theta*180/math.Pi, coh)
 	}
 	return withoutGrid(ctx, pg, wk, theta, opt)
 }
@@ -259,7 +265,7 @@ func inkPlausible(ink *image.Gray) bool {
 		return false
 	}
 	f := float64(on) / float64(n)
-	return f > 0.0003 && f < 0.3
+	return f > 0.0003 && f < 0.15
 }
 
 // withoutGrid: the page is only deskewed by the traces' own direction and
@@ -383,7 +389,9 @@ func consistentPulses(ps []Pulse, guess, gain float64) []Pulse {
 				xs[int(q.Box[0]/(0.02*guess*280))] = true
 			}
 		}
-		s := float64(len(grp)) + float64(len(grp)-len(xs))*0.5 + p.HeightMM*1e-6
+		// More members, stacked at one x (one per row), and taller (text
+		// glyphs are a few mm; a pulse is usually 10 mm) score higher.
+		s := (float64(len(grp)) + float64(len(grp)-len(xs))) * math.Log(p.HeightMM)
 		if s > bestScore {
 			best, bestScore = grp, s
 		}

@@ -274,7 +274,7 @@ func parabolic(a, b, c float64) float64 {
 type tileMeasure struct {
 	ok   bool
 	q    float64 // grid coordinate (fundamental periods) at the centroid; mod 1 until unwrapped
-	u    float64 // centroid coordinate along the axis, work px
+	u    float64 // coordinate along the axis where q holds (the window's effective centre), work px
 	F    float64 // local fundamental frequency
 	snr  float64 // grid harmonics over their spectral surroundings
 	frac float64 // weight for fitting
@@ -320,7 +320,7 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 	out := make([]tileMeasure, len(g.tiles))
 	for i := range g.tiles {
 		t := &g.tiles[i]
-		if t.n < 0.3*float64(g.ts*g.ts) {
+		if t.n < 0.45*float64(g.ts*g.ts) {
 			continue
 		}
 		x, y := t.sx/t.n, t.sy/t.n
@@ -331,6 +331,16 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 			uc = g.c*x + g.s*y
 		}
 		mean := weightedMean(p, w)
+		// The phase refers to the window's effective centre over the data
+		// (a tile cut by the image edge has its data off-centre).
+		var se, sw0 float64
+		for b, v := range p {
+			se += w[b] * float64(v) * float64(b)
+			sw0 += w[b] * float64(v)
+		}
+		if sw0 > 0 {
+			uc = off + se/sw0
+		}
 		// Coarse then fine search of the local fundamental.
 		hc := float64(coarse[len(coarse)-1])
 		step := 0.35 / (fts * hc)
@@ -639,11 +649,12 @@ func alignFundamentals(a, b *axisFit) {
 		if five.m != 5 || one.m == 5 {
 			return
 		}
-		r := one.F / (five.F * 5)
+		f1 := one.F * float64(one.m) // its strongest peak: the 1 mm lines
+		r := f1 / (five.F * 5)
 		if r < 0.4 || r > 2.6 {
 			return
 		}
-		one.F /= 5
+		one.F = f1 / 5
 		one.m = 5
 		hs := []int{5}
 		for _, h := range one.harm {

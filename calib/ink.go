@@ -38,38 +38,37 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 		s = float64(max(w, h)) / 280
 	}
 	bsz := max(8, int(4*s))
-	paper, isPaper := paperLevel(m, w, h, bsz)
+	paper, paperRow := paperLevel(m, w, h, bsz)
 	// The page's outline: the bounding box of paper blocks.
 	box := image.Rectangle{}
 	for y := bsz / 2; y < h; y += bsz {
+		pm := paperRow(y)
 		for x := bsz / 2; x < w; x += bsz {
-			if isPaper(x, y) {
+			if pm[x] {
 				box = box.Union(image.Rect(x-bsz/2, y-bsz/2, x+bsz/2, y+bsz/2))
 			}
 		}
 	}
 	box = box.Intersect(image.Rect(0, 0, w, h))
+	// ink = 1.4·(P − m)/P·255 clamped, by table on (P, m); P = 0 marks
+	// background (no ink).
+	lut := make([]uint8, 256*256)
+	for p := 1; p < 256; p++ {
+		for v := 0; v < p; v++ {
+			lut[p<<8|v] = uint8(min(255, float64(p-v)/float64(p)*255*1.4))
+		}
+	}
 	out := image.NewGray(image.Rect(0, 0, w, h))
 	for y := 0; y < h; y++ {
 		pr := paper(y)
+		pm := paperRow(y)
 		o := out.Pix[y*out.Stride : y*out.Stride+w]
 		mr := m[y*w : y*w+w]
-		for x := range o {
-			if !isPaper(x, y) {
-				o[x] = 0 // background around a photographed page
-				continue
-			}
-			p := pr[x]
-			d := p - float32(mr[x])
-			if d <= 0 {
-				o[x] = 0
-				continue
-			}
-			v := d / p * (255 * 1.4)
-			if v >= 255 {
-				o[x] = 255
-			} else {
-				o[x] = uint8(v)
+		pr = pr[:len(o)]
+		pm = pm[:len(o)]
+		for x, v := range mr {
+			if pm[x] {
+				o[x] = lut[int(pr[x])<<8|int(v)]
 			}
 		}
 	}
@@ -86,7 +85,7 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 // function giving one row of levels, and one that tells paper from the
 // darker background around a photographed page (blocks under half the
 // bright blocks' level).
-func paperLevel(m []uint8, w, h, b int) (func(y int) []float32, func(x, y int) bool) {
+func paperLevel(m []uint8, w, h, b int) (func(y int) []uint8, func(y int) []bool) {
 	bw, bh := (w+b-1)/b, (h+b-1)/b
 	lev := make([]float32, bw*bh)
 	var hist [256]int
@@ -118,32 +117,71 @@ func paperLevel(m []uint8, w, h, b int) (func(y int) []float32, func(x, y int) b
 	sorted := append([]float32(nil), lev...)
 	sort.Slice(sorted, func(i, j int) bool { return sorted[i] < sorted[j] })
 	bright := sorted[len(sorted)*9/10]
-	isPaper := func(x, y int) bool { return lev[(y/b)*bw+x/b] >= 0.5*bright }
-	row := make([]float32, w)
+	paperBlk := make([]bool, len(lev))
+	allPaper := true
+	for i, v := range lev {
+		paperBlk[i] = v >= 0.5*bright
+		allPaper = allPaper && paperBlk[i]
+	}
+	mask := make([]bool, w)
+	maskBY := -1
+	maskRow := func(y int) []bool {
+		by := min(y/b, bh-1)
+		if by == maskBY {
+			return mask
+		}
+		maskBY = by
+		for x := range mask {
+			mask[x] = paperBlk[by*bw+min(x/b, bw-1)]
+		}
+		return mask
+	}
+	row := make([]uint8, w)
 	if hi-lo < 12 {
 		// Even light (a scan): one level for the page, from the median block.
-		c := medianF32(lev)
+		c := uint8(medianF32(lev))
 		for x := range row {
 			row[x] = c
 		}
-		return func(int) []float32 { return row }, func(int, int) bool { return true }
+		if allPaper {
+			for x := range mask {
+				mask[x] = true
+			}
+			maskRow = func(int) []bool { return mask }
+		}
+		return func(int) []uint8 { return row }, maskRow
 	}
-	return func(y int) []float32 {
+	// Bilinear weights per column, computed once.
+	x0c := make([]int, w)
+	x1c := make([]int, w)
+	tx := make([]float32, w)
+	for x := range tx {
+		fx := (float64(x)+0.5)/float64(b) - 0.5
+		x0 := int(math.Floor(fx))
+		tx[x] = float32(fx - float64(x0))
+		x0c[x], x1c[x] = clampI(x0, 0, bw-1), clampI(x0+1, 0, bw-1)
+	}
+	// The level changes slowly: one row of levels serves b/4 rows.
+	step := max(1, b/4)
+	lastY := -1
+	return func(y int) []uint8 {
+		if lastY >= 0 && y/step == lastY/step {
+			return row
+		}
+		lastY = y
 		fy := (float64(y)+0.5)/float64(b) - 0.5
 		y0 := int(math.Floor(fy))
 		ty := float32(fy - float64(y0))
-		y0c, y1c := clampI(y0, 0, bh-1), clampI(y0+1, 0, bh-1)
+		r0 := lev[clampI(y0, 0, bh-1)*bw:]
+		r1 := lev[clampI(y0+1, 0, bh-1)*bw:]
 		for x := range row {
-			fx := (float64(x)+0.5)/float64(b) - 0.5
-			x0 := int(math.Floor(fx))
-			tx := float32(fx - float64(x0))
-			x0c, x1c := clampI(x0, 0, bw-1), clampI(x0+1, 0, bw-1)
-			a := lev[y0c*bw+x0c]*(1-tx) + lev[y0c*bw+x1c]*tx
-			c := lev[y1c*bw+x0c]*(1-tx) + lev[y1c*bw+x1c]*tx
-			row[x] = a*(1-ty) + c*ty
+			t := tx[x]
+			a := r0[x0c[x]]*(1-t) + r0[x1c[x]]*t
+			c := r1[x0c[x]]*(1-t) + r1[x1c[x]]*t
+			row[x] = uint8(a*(1-ty) + c*ty)
 		}
 		return row
-	}, isPaper
+	}, maskRow
 }
 
 func medianF32(a []float32) float32 {
@@ -231,26 +269,28 @@ func lineProfile(g *image.Gray, gl gridLines, vertical bool) (hw int, contrast f
 // each 48 px segment along it, the line is located within ±2 px, its level
 // is taken as the median ink on its centre, and each band pixel keeps only
 // what exceeds that level or what ink on both sides of the line carries
-// across it.
+// across it. A segment much darker than the family's usual line is a
+// trace lying along the line; the usual level is used there.
 func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 	hw, contrast := lineProfile(g, gl, vertical)
 	if contrast < 6 || hw <= 0 {
 		return
 	}
 	hw = min(hw, int(gl.s/3)+1)
+	if vertical {
+		suppressVertical(g, gl, hw)
+		return
+	}
 	w, h := g.Rect.Dx(), g.Rect.Dy()
 	st := g.Stride
+	pix := g.Pix
 	along, across := h, w
+	stepA, stepC := st, 1
 	off := gl.offX
 	if !vertical {
 		along, across = w, h
+		stepA, stepC = 1, st
 		off = gl.offY
-	}
-	at := func(a, c int) *uint8 { // a along the line, c across
-		if vertical {
-			return &g.Pix[a*st+c]
-		}
-		return &g.Pix[c*st+a]
 	}
 	const seg = 48
 	type segLine struct {
@@ -262,32 +302,24 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 	nLines := int(float64(across)/gl.s) + 2
 	for n := -1; n <= nLines; n++ {
 		c0 := int(math.Round((float64(n) + off) * gl.s))
-		if c0 < -hw || c0 >= across+hw {
+		if c0 < 0 || c0 >= across {
 			continue
 		}
 		for a0 := 0; a0 < along; a0 += seg {
 			a1 := min(along, a0+seg)
-			// Locate the line within ±2 px.
 			best, bestS := c0, -1
-			for d := -2; d <= 2; d++ {
-				c := c0 + d
-				if c < 0 || c >= across {
-					continue
-				}
+			for c := max(0, c0-2); c <= min(across-1, c0+2); c++ {
 				sum := 0
-				for a := a0; a < a1; a++ {
-					sum += int(*at(a, c))
+				for i, e := a0*stepA+c*stepC, a1*stepA+c*stepC; i < e; i += 2 * stepA {
+					sum += int(pix[i])
 				}
 				if sum > bestS {
 					best, bestS = c, sum
 				}
 			}
-			if bestS < 0 {
-				continue
-			}
 			hist = [256]int{}
-			for a := a0; a < a1; a++ {
-				hist[*at(a, best)]++
+			for i, e := a0*stepA+best*stepC, a1*stepA+best*stepC; i < e; i += stepA {
+				hist[pix[i]]++
 			}
 			lv, acc := 0, 0
 			for lv = 0; lv < 255; lv++ {
@@ -302,8 +334,6 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 	if len(segs) == 0 {
 		return
 	}
-	// A segment whose centre is much darker than the family's usual line
-	// is a trace lying along the line: use the usual level there.
 	lvs := make([]float64, len(segs))
 	for i, sg := range segs {
 		lvs[i] = float64(sg.lv)
@@ -313,30 +343,130 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 		return
 	}
 	for _, sg := range segs {
-		lv := float64(sg.lv)
-		if lv > 1.3*usual+15 {
-			lv = usual
+		l := sg.lv
+		if float64(l) > 1.3*usual+15 {
+			l = int(usual)
 		}
-		gl := float32(lv)
-		lo, hi := sg.c-hw, sg.c+hw
-		cl, cr := lo-1, hi+1
+		rec := (255 << 16) / (256 - l) // (v − l)·255/(256 − l) by multiply-shift
+		lo, hi := max(sg.c-hw, 0), min(sg.c+hw, across-1)
+		cl, cr := sg.c-hw-1, sg.c+hw+1
 		for a := sg.a0; a < sg.a1; a++ {
+			base := a * stepA
 			var vl, vr uint8
 			if cl >= 0 {
-				vl = *at(a, cl)
+				vl = pix[base+cl*stepC]
 			}
 			if cr < across {
-				vr = *at(a, cr)
+				vr = pix[base+cr*stepC]
 			}
 			carry := min(vl, vr)
-			for c := max(lo, 0); c <= min(hi, across-1); c++ {
-				p := at(a, c)
-				v := (float32(*p) - gl) / (255 - gl + 1) * 255
-				nv := uint8(0)
-				if v > 0 {
-					nv = uint8(min(v, 255))
+			for i, e := base+lo*stepC, base+hi*stepC; i <= e; i += stepC {
+				v := (int(pix[i]) - l) * rec >> 16
+				pix[i] = max(uint8(max(0, min(255, v))), carry)
+			}
+		}
+	}
+}
+
+// suppressVertical is suppressLines for the vertical lines, walking the
+// image row by row (the column-wise walk thrashes the cache on a page).
+func suppressVertical(g *image.Gray, gl gridLines, hw int) {
+	w, h := g.Rect.Dx(), g.Rect.Dy()
+	st, pix := g.Stride, g.Pix
+	var c0s []int
+	for n := -1; n <= int(float64(w)/gl.s)+2; n++ {
+		c := int(math.Round((float64(n) + gl.offX) * gl.s))
+		if c >= 0 && c < w {
+			c0s = append(c0s, c)
+		}
+	}
+	nl := len(c0s)
+	if nl == 0 {
+		return
+	}
+	const seg = 48
+	nb := (h + seg - 1) / seg
+	best := make([]int, nb*nl)
+	lv := make([]int, nb*nl)
+	sums := make([]int32, w)
+	buf := make([]uint8, nl*seg)
+	var hist [256]int
+	for bi := 0; bi < nb; bi++ {
+		a0, a1 := bi*seg, min(h, bi*seg+seg)
+		clear(sums)
+		for y := a0; y < a1; y += 2 {
+			for x, v := range pix[y*st : y*st+w] {
+				sums[x] += int32(v)
+			}
+		}
+		bs := best[bi*nl : bi*nl+nl]
+		for li, c0 := range c0s {
+			b, bv := c0, int32(-1)
+			for c := max(0, c0-2); c <= min(w-1, c0+2); c++ {
+				if sums[c] > bv {
+					b, bv = c, sums[c]
 				}
-				*p = max(nv, carry)
+			}
+			bs[li] = b
+		}
+		n := a1 - a0
+		for y := a0; y < a1; y++ {
+			row := pix[y*st : y*st+w]
+			for li, c := range bs {
+				buf[li*seg+y-a0] = row[c]
+			}
+		}
+		for li := range bs {
+			vals := buf[li*seg : li*seg+n]
+			for _, v := range vals {
+				hist[v]++
+			}
+			m, acc := 0, 0
+			for m = 0; m < 255; m++ {
+				acc += hist[m]
+				if 2*acc >= n {
+					break
+				}
+			}
+			for _, v := range vals {
+				hist[v] = 0
+			}
+			lv[bi*nl+li] = m
+		}
+	}
+	all := make([]float64, len(lv))
+	for i, v := range lv {
+		all[i] = float64(v)
+	}
+	usual := median(all)
+	if usual < 8 {
+		return
+	}
+	for i, v := range lv {
+		if float64(v) > 1.3*usual+15 {
+			lv[i] = int(usual)
+		}
+	}
+	for y := 0; y < h; y++ {
+		bi := y / seg
+		row := pix[y*st : y*st+w]
+		for li := 0; li < nl; li++ {
+			c := best[bi*nl+li]
+			l := lv[bi*nl+li]
+			lo, hi := max(c-hw, 0), min(c+hw, w-1)
+			var vl, vr uint8
+			if c-hw-1 >= 0 {
+				vl = row[c-hw-1]
+			}
+			if c+hw+1 < w {
+				vr = row[c+hw+1]
+			}
+			carry := min(vl, vr)
+			rec := (255 << 16) / (256 - l)
+			for x := lo; x <= hi; x++ {
+				v := (int(row[x]) - l) * rec >> 16
+				nv := uint8(max(0, min(255, v)))
+				row[x] = max(nv, carry)
 			}
 		}
 	}

@@ -40,23 +40,35 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 	// Vertical runs per column, grouped into strokes across neighbouring
 	// columns with the same extent.
 	tol := int(math.Max(2, 0.4*sHi))
-	var open, strokes []stroke
-	for x := 0; x < w; x++ {
-		var runs []stroke
-		y := 0
-		for y < h {
-			if !on(x, y) {
-				y++
+	// Vertical runs, collected row by row (cache-friendly).
+	runsByCol := make([][]stroke, w)
+	start := make([]int32, w)
+	for i := range start {
+		start[i] = -1
+	}
+	for y := 0; y <= h; y++ {
+		var row []uint8
+		if y < h {
+			row = ink.Pix[y*ink.Stride : y*ink.Stride+w]
+		}
+		for x := 0; x < w; x++ {
+			if y < h && row[x] >= 128 {
+				if start[x] < 0 {
+					start[x] = int32(y)
+				}
 				continue
 			}
-			y0 := y
-			for y < h && on(x, y) {
-				y++
-			}
-			if l := y - y0; l >= minRun && l <= maxRun {
-				runs = append(runs, stroke{x, x, y0, y - 1})
+			if s := int(start[x]); s >= 0 {
+				if l := y - s; l >= minRun && l <= maxRun {
+					runsByCol[x] = append(runsByCol[x], stroke{x, x, s, y - 1})
+				}
+				start[x] = -1
 			}
 		}
+	}
+	var open, strokes []stroke
+	for x := 0; x < w; x++ {
+		runs := runsByCol[x]
 		var next []stroke
 		used := make([]bool, len(runs))
 		for _, s := range open {

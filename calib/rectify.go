@@ -61,12 +61,9 @@ func warpPage(src image.Image, m mat3, w, h int) (*image.NRGBA, error) {
 	}
 	out := image.NewNRGBA(image.Rect(0, 0, w, h))
 	if ch == 4 {
+		// Decoded scans and photos are opaque, and the border is opaque
+		// white, so alpha stays 255 through the interpolation.
 		copy(out.Pix, data)
-		// RGBA sources with alpha < 255 would be premultiplied; ours are
-		// opaque scans, so alpha is forced opaque.
-		for i := 3; i < len(out.Pix); i += 4 {
-			out.Pix[i] = 255
-		}
 	} else {
 		for i, v := range data[:w*h] {
 			j := 4 * i

@@ -109,7 +109,7 @@ func powerSpectrum(p []float32, w []float64, n int, buf []complex128) []float64 
 // through the origin at all its harmonics, while ink spreads broadly. The
 // spectrum is whitened by its radial mean and folded into 0.1° bins.
 // It returns the angle and the peak's share of the folded energy.
-func gridAngle(wk *work) (float64, float64) {
+func gridAngle(wk *work, patches int) (float64, float64) {
 	n := 512
 	for n > 64 && (n > wk.w || n > wk.h) {
 		n /= 2
@@ -119,7 +119,8 @@ func gridAngle(wk *work) (float64, float64) {
 	}
 	var centres [][2]int
 	cy := wk.h/2 - n/2
-	for _, fx := range []float64{0.5, 0.2, 0.8} {
+	// One central patch; two more only on request (weak grid).
+	for _, fx := range []float64{0.5, 0.2, 0.8}[:patches] {
 		cx := int(fx*float64(wk.w)) - n/2
 		cx = clampI(cx, 0, wk.w-n)
 		centres = append(centres, [2]int{cx, cy})

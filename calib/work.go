@@ -88,12 +88,18 @@ func makeWork(src image.Image, k int) *work {
 }
 
 func rgbaRow(row []byte, w, k int, mn, mx []int32) {
-	n := w * k
-	for x := 0; x < n; x++ {
-		p := row[4*x : 4*x+3 : 4*x+3]
-		r, g, b := int32(p[0]), int32(p[1]), int32(p[2])
-		mn[x/k] += min3(r, g, b)
-		mx[x/k] += max3(r, g, b)
+	row = row[:4*w*k]
+	i := 0
+	for ox := 0; ox < w; ox++ {
+		var lo, hi int32
+		for j := 0; j < k; j++ {
+			r, g, b := int32(row[i]), int32(row[i+1]), int32(row[i+2])
+			lo += min(r, g, b)
+			hi += max(r, g, b)
+			i += 4
+		}
+		mn[ox] += lo
+		mx[ox] += hi
 	}
 }
 
