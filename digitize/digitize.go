@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"os"
 	"sort"
 	"strings"
 
@@ -82,6 +83,8 @@ type Result struct {
 	Check      []Place
 }
 
+var debugDigitize = os.Getenv("TRACELIFT_DIGITIZE_DEBUG") != ""
+
 // Expected failures.
 var (
 	ErrInput   = errors.New("digitize: calibration result is missing its image, scale, gain or speed")
@@ -90,6 +93,14 @@ var (
 )
 
 // Run finds the layout, traces every panel and assembles the signals.
+//
+// Run may correct cal in place, and then says so in cal.Warnings: when
+// the calibration pulses lead the rows from the right, the page is upside
+// down and Run turns cal's images half a turn (updating Turned,
+// RectToImage and Pulses); when calib's scale is not from a confident grid
+// and the traces span within 6 % of a standard 10 s (or 5 s) page, the
+// scale is taken from the span (PxPerMM, PxPerMMX, PxPerMMY). Everything
+// derived later from cal (Signals, overlays) then agrees with the traces.
 func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if cal == nil || (cal.Ink == nil && cal.Rectified == nil) {
 		return nil, ErrInput
@@ -131,6 +142,39 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if len(rows) == 0 {
 		return nil, ErrNoTrace
 	}
+	// A page left upside down shows its calibration pulses at the right.
+	left, right := pulseSides(g, rows, rowPitch(rows, g, p), cal)
+	if debugDigitize {
+		fmt.Printf("digitize: rows %d pulses left %d right %d\n", len(rows), left, right)
+	}
+	if right >= 2 && right > left {
+		turnResultHalf(cal)
+		g = turnedGray(g)
+		rows = findRows(g, p)
+		if len(rows) == 0 {
+			return nil, ErrNoTrace
+		}
+	}
+	if opt.Layout == "" {
+		rows = trimRows(rows)
+	}
+	if gn := pulseGain(g, rows, rowPitch(rows, g, p), cal); gn > 0 && gn != cal.GainMMPerMV {
+		if debugDigitize {
+			fmt.Printf("digitize: pulse gain %.1f, calib %.1f\n", gn, cal.GainMMPerMV)
+		}
+		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the calibration pulses at the row starts show %g mm/mV (not %g); that gain is used", gn, cal.GainMMPerMV))
+		cal.GainMMPerMV = gn
+	} else if gn == 0 && cal.Source != "user" && !isStandardGain(cal.GainMMPerMV) {
+		// calib read something as a pulse that no standard setting
+		// explains, and the row starts show none: the common 10 mm/mV.
+		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: %.3g mm/mV is not a standard gain and no calibration pulse leads the rows; 10 mm/mV is assumed", cal.GainMMPerMV))
+		cal.GainMMPerMV = 10
+	}
+	if debugDigitize {
+		for _, r := range rows {
+			fmt.Printf("  row base %.1f x %d-%d\n", r.base, r.x0, r.x1)
+		}
+	}
 	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
 		rows = fitRows(rows, layoutRows[opt.Layout])
 		if rows == nil {
@@ -142,6 +186,10 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		return nil, fmt.Errorf("%w (found %d rows)", ErrLayout, len(rows))
 	}
 	pg := newPage(g, rows, cal)
+	if k, spanS, want := spanScale(float64(pg.x1)-pg.x0f, cal); k != 1 {
+		rescale(cal, k, spanS, want)
+		pg.pxPerMM, pg.pxPerS = cal.PxPerMM, cal.PxPerMM*cal.SpeedMMPerS
+	}
 	// Trace every row in as many equal segments as the finest layout
 	// among the candidates has columns.
 	nseg := 1
@@ -217,18 +265,22 @@ type page struct {
 	pxPerMM float64
 }
 
+// rowPitch is the median spacing of the rows, px.
+func rowPitch(rows []rowInfo, g *gray, pxPerMM float64) float64 {
+	if len(rows) < 2 {
+		return math.Min(float64(g.h)/2, 60*pxPerMM)
+	}
+	var gaps []float64
+	for i := 1; i < len(rows); i++ {
+		gaps = append(gaps, rows[i].base-rows[i-1].base)
+	}
+	sort.Float64s(gaps)
+	return gaps[len(gaps)/2]
+}
+
 func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	pg := &page{g: g, rows: rows, pxPerMM: cal.PxPerMM, pxPerS: cal.PxPerMM * cal.SpeedMMPerS}
-	if len(rows) > 1 {
-		var gaps []float64
-		for i := 1; i < len(rows); i++ {
-			gaps = append(gaps, rows[i].base-rows[i-1].base)
-		}
-		sort.Float64s(gaps)
-		pg.pitch = gaps[len(gaps)/2]
-	} else {
-		pg.pitch = math.Min(float64(g.h)/2, 60*cal.PxPerMM)
-	}
+	pg.pitch = rowPitch(rows, g, cal.PxPerMM)
 	pg.halfLn = strokeHalfWidth(g, rows)
 	var starts, ends []int
 	for i := range rows {

@@ -308,3 +308,42 @@ func leadGrid(h hypothesis) (names []string, rows, cols []int, rhythm []bool) {
 	}
 	return
 }
+
+// validRowCount reports whether some layout draws n rows.
+func validRowCount(n int) bool {
+	for _, r := range layoutRows {
+		if r == n {
+			return true
+		}
+	}
+	return false
+}
+
+// trimRows drops rows found at the top or bottom of the page that break
+// the rows' regular spacing (a header or footer line of text, a fold)
+// while their count fits no layout. Trace rows of every layout we read
+// are evenly spaced; a text line sits at its own distance.
+func trimRows(rows []rowInfo) []rowInfo {
+	for len(rows) > 3 && !validRowCount(len(rows)) {
+		var gaps []float64
+		for i := 1; i < len(rows); i++ {
+			gaps = append(gaps, rows[i].base-rows[i-1].base)
+		}
+		s := append([]float64(nil), gaps...)
+		sort.Float64s(s)
+		med := s[len(s)/2]
+		dFirst := math.Abs(gaps[0]-med) / med
+		dLast := math.Abs(gaps[len(gaps)-1]-med) / med
+		// 15 %: rows drawn on a grid keep their spacing to a fraction of
+		// a millimetre; a text line rarely lands that close to it.
+		switch {
+		case dFirst >= dLast && dFirst > 0.15:
+			rows = rows[1:]
+		case dLast > dFirst && dLast > 0.15:
+			rows = rows[:len(rows)-1]
+		default:
+			return rows
+		}
+	}
+	return rows
+}

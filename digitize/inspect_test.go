@@ -1,0 +1,191 @@
+package digitize
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"image"
+	"image/color"
+	"image/jpeg"
+	"image/png"
+	"math"
+	"math/rand"
+	"os"
+	"strconv"
+	"strings"
+	"testing"
+
+	"tracelift/calib"
+	"tracelift/record"
+	"tracelift/record/wfdb"
+	"tracelift/samples"
+	"tracelift/samples/dipole"
+)
+
+// benchPrintout renders case i of the CLI bench's suite for a seed the
+// same way the bench does (same draws in the same order), so a case the
+// bench scores badly can be looked at here.
+func benchPrintout(t testing.TB, seed int64, i int) (*samples.Printout, string, []byte) {
+	t.Helper()
+	conds := []string{"clean", "rotated", "photocopy", "photo", "fax"}
+	rng := rand.New(rand.NewSource(seed*1000003 + int64(i)))
+	cond := conds[i%len(conds)]
+	var rec *record.Record
+	if i%4 == 3 {
+		real, err := wfdb.ReadRecord("../../shared/data/ptb-s0010_re/s0010_re.hea")
+		if err != nil {
+			t.Fatal(err)
+		}
+		off := rng.Float64() * 25
+		rec = &record.Record{Name: real.Name}
+		for _, l := range record.Standard12 {
+			s := real.Lead(l)
+			r := s.Resample(500)
+			i0 := int(off * 500)
+			i1 := i0 + 5000
+			if i1 > len(r.MV) {
+				i0, i1 = len(r.MV)-5000, len(r.MV)
+			}
+			rec.Signals = append(rec.Signals, record.Signal{Lead: l, RateHz: 500, MV: append([]float64(nil), r.MV[i0:i1]...)})
+		}
+	} else {
+		p := dipole.Params{
+			HeartRateBPM:   50 + rng.Float64()*60,
+			QRSAxisDeg:     -90 + rng.Float64()*270,
+			PAxisDeg:       20 + rng.Float64()*50,
+			TAxisDeg:       10 + rng.Float64()*60,
+			QRSms:          75 + rng.Float64()*40,
+			PRms:           130 + rng.Float64()*70,
+			TransitionLead: 2 + rng.Float64()*3,
+			QRSAmpMV:       1 + rng.Float64()*1.2,
+			NoiseMV:        0.005,
+			Seed:           rng.Int63(),
+		}
+		rr := 60 / p.HeartRateBPM
+		p.QTms = 410 * math.Sqrt(rr) * (0.9 + rng.Float64()*0.2)
+		rec = dipole.Generate(p)
+	}
+	st := samples.RandomStyle(rng)
+	po, err := samples.Render(rec, st)
+	if err != nil {
+		t.Fatal(err)
+	}
+	po, err = samples.Degrade(po, samples.Condition(cond, rng))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	name := "case.png"
+	if cond == "photo" {
+		name = "case.jpg"
+		err = jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
+	} else {
+		err = (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&buf, po.Image)
+	}
+	if err != nil {
+		t.Fatal(err)
+	}
+	return po, name, buf.Bytes()
+}
+
+// TestInspectBenchCase runs one bench case end to end and writes the
+// rectified page, both ink maps, the working map and the traces to /tmp.
+//
+//	TRACELIFT_CASE=7 TRACELIFT_CASE_SEED=1 go test -run TestInspectBenchCase -v ./digitize
+func TestInspectBenchCase(t *testing.T) {
+	v := os.Getenv("TRACELIFT_CASE")
+	if v == "" {
+		t.Skip("set TRACELIFT_CASE=N (and TRACELIFT_CASE_SEED) to look at one bench case")
+	}
+	seed := int64(1)
+	if s := os.Getenv("TRACELIFT_CASE_SEED"); s != "" {
+		seed, _ = strconv.ParseInt(s, 10, 64)
+	}
+	for _, f := range strings.Split(v, ",") {
+		i, _ := strconv.Atoi(f)
+		inspectOne(t, seed, i)
+	}
+}
+
+func inspectOne(t *testing.T, seed int64, i int) {
+	po, name, data := benchPrintout(t, seed, i)
+	pg, err := calib.Decode(data, name, calib.LoadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	cal, err := calib.Detect(context.Background(), pg, calib.Options{})
+	if err != nil {
+		t.Logf("case %d: calib: %v", i, err)
+		return
+	}
+	tr := po.Truth
+	t.Logf("case %d: truth px/mm %.3f/%.3f rot %.2f gain %.1f speed %.0f; calib px/mm %.3f (%.3f/%.3f) rot %.2f turned %d gain %.1f speed %.0f src %s conf %.2f warn %v",
+		i, tr.PxPerMMX, tr.PxPerMMY, tr.RotationDeg, tr.GainMMPerMV, tr.SpeedMMPerS,
+		cal.PxPerMM, cal.PxPerMMX, cal.PxPerMMY, cal.RotationDeg, cal.Turned, cal.GainMMPerMV, cal.SpeedMMPerS, cal.Source, cal.Confidence, cal.Warnings)
+	pre := fmt.Sprintf("/tmp/dz/c%d_%d", seed, i)
+	writePNG(t, pre+"_rect.png", cal.Rectified)
+	if cal.Ink != nil {
+		writePNG(t, pre+"_ink.png", cal.Ink)
+	}
+	own := InkFromRGB(cal.Rectified)
+	writePNG(t, pre+"_own.png", own)
+	res, err := Run(context.Background(), cal, Options{})
+	if err != nil {
+		t.Logf("case %d: digitize: %v", i, err)
+		return
+	}
+	acc := scoreLeads(tr.Signals, res.Record)
+	var per []string
+	for _, l := range tr.Signals.Leads() {
+		per = append(per, fmt.Sprintf("%s %.1f", l, acc[l].SNRdB))
+	}
+	t.Logf("case %d: layout %s (truth %s) cabrera %v median %.1f [%s]", i, res.Layout, po.Truth.Layout, res.Cabrera, medianSNR(acc), strings.Join(per, ", "))
+	for _, l := range tr.Signals.Leads() {
+		a := acc[l]
+		ref, e := tr.Signals.Lead(l), res.Record.Lead(l)
+		if e == nil {
+			continue
+		}
+		// Least-squares gain of the estimate against the truth, to tell a
+		// scale error from a shape error.
+		var sre, see float64
+		for k := range ref.MV {
+			tt := ref.StartS + float64(k)/ref.RateHz
+			j := int(math.Round((tt - e.StartS) * e.RateHz))
+			if j >= 0 && j < len(e.MV) && !math.IsNaN(e.MV[j]) {
+				sre += ref.MV[k] * e.MV[j]
+				see += e.MV[j] * e.MV[j]
+			}
+		}
+		t.Logf("  %-4s snr %5.1f r %.3f ls-gain %.3f start %.3f/%.3f", l, a.SNRdB, a.R, sre/see, ref.StartS, e.StartS)
+	}
+	for _, p := range res.Panels {
+		t.Logf("  panel %-4s row %d col %d box %.0f,%.0f-%.0f,%.0f base %.1f t %.2f-%.2f", p.Lead, p.Row, p.Col, p.Box[0], p.Box[1], p.Box[2], p.Box[3], p.BaselineY, p.T0S, p.T1S)
+	}
+	// Traces over the rectified page in red.
+	b := cal.Rectified.Bounds()
+	ov := image.NewNRGBA(b)
+	copy(ov.Pix, cal.Rectified.Pix)
+	for _, trc := range res.Traces {
+		for k, y := range trc.Y {
+			if math.IsNaN(y) {
+				continue
+			}
+			x, yy := trc.X0+k, int(y)
+			if x >= 0 && x < b.Dx() && yy >= 0 && yy < b.Dy() {
+				ov.SetNRGBA(x, yy, color.NRGBA{255, 0, 0, 255})
+			}
+		}
+	}
+	writePNG(t, pre+"_trace.png", ov)
+}
+
+func writePNG(t *testing.T, path string, img image.Image) {
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, img); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}

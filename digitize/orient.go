@@ -1,0 +1,273 @@
+package digitize
+
+import (
+	"fmt"
+	"image"
+	"math"
+	"sort"
+
+	"tracelift/calib"
+)
+
+// Second opinions on what calibration decided, from what only the traces
+// show: which way the rows run (the calibration pulse leads each row) and
+// how long the tracing lasts (a 12-lead printout spans 10 s; common
+// practice). Where they disagree with calib's result, Run corrects the
+// result in place and says so in its Warnings, so that everything drawn
+// or re-derived later from the same result agrees with the traces.
+
+// pulseSides counts the rows that start with a calibration pulse at the
+// left as the page lies, and those that would if it were turned half a
+// turn (the pulse then sits at the right end, upside down).
+func pulseSides(g *gray, rows []rowInfo, pitch float64, cal *calib.Result) (left, right int) {
+	rg := turnedGray(g)
+	for _, r := range rows {
+		if ok, _ := squarePulse(g, r.x0, r.base, pitch, cal.PxPerMM, cal.SpeedMMPerS); ok {
+			left++
+		}
+		if ok, _ := squarePulse(rg, g.w-1-r.x1, float64(g.h)-r.base, pitch, cal.PxPerMM, cal.SpeedMMPerS); ok {
+			right++
+		}
+	}
+	return left, right
+}
+
+// squarePulse reports whether a calibration pulse stands at the start of
+// a row beginning near column x0 with baseline base: two vertical strokes
+// rising from the baseline (and not reaching below it, unlike a grid
+// line left over on a fax), 100–300 ms apart (common practice: a 200 ms
+// pulse; some machines draw it narrower), of equal height of at least
+// 2.5 mm (a 1 mV pulse at 5 mm/mV or more), joined by a flat top.
+func squarePulse(g *gray, x0 int, base, pitch, pxPerMM, speed float64) (ok bool, heightPx float64) {
+	const on = 64
+	ink := func(x, y int) bool { return x >= 0 && y >= 0 && x < g.w && y < g.h && g.pix[y*g.w+x] >= on }
+	yb := int(base)
+	tol := int(math.Ceil(0.6 * pxPerMM))
+	below := int(math.Ceil(1.5 * pxPerMM))
+	minH := 2.5 * pxPerMM
+	maxH := 0.9 * pitch
+	from := max(0, x0-int(5*pxPerMM))
+	lim := min(g.w, x0+int((0.35*speed+6)*pxPerMM))
+	type stroke struct{ x, top int }
+	var st []stroke
+	for x := from; x < lim; x++ {
+		// The lowest inked pixel near the baseline.
+		bot := -1
+		for y := yb + tol; y >= yb-tol; y-- {
+			if ink(x, y) {
+				bot = y
+				break
+			}
+		}
+		if bot < 0 {
+			continue
+		}
+		// Nothing a little below it.
+		clear := true
+		for y := bot + 3; y <= bot+below; y++ {
+			if ink(x, y) || ink(x, y+below) {
+				clear = false
+				break
+			}
+		}
+		if !clear {
+			continue
+		}
+		top, last := bot, bot
+		for y := bot - 1; y >= max(0, bot-int(maxH)); y-- {
+			if ink(x, y) {
+				top, last = y, y
+			} else if last-y > 3 {
+				break
+			}
+		}
+		if float64(bot-top) < minH {
+			continue
+		}
+		if n := len(st); n > 0 && x-st[n-1].x <= 2 {
+			st[n-1].top = min(st[n-1].top, top)
+			continue
+		}
+		st = append(st, stroke{x, top})
+	}
+	for i := range st {
+		for j := i + 1; j < len(st); j++ {
+			d := float64(st[j].x-st[i].x) / (pxPerMM * speed)
+			if d < 0.1 {
+				continue
+			}
+			if d > 0.3 {
+				break
+			}
+			if math.Abs(float64(st[i].top-st[j].top)) > 0.6*pxPerMM {
+				continue
+			}
+			// The flat top: inked (within a couple of px) across.
+			ty := (st[i].top + st[j].top) / 2
+			n, k := 0, 0
+			for x := st[i].x + 2; x < st[j].x-1; x++ {
+				n++
+				for y := ty - 3; y <= ty+3; y++ {
+					if ink(x, y) {
+						k++
+						break
+					}
+				}
+			}
+			if n > 0 && k*10 >= n*7 {
+				bot := base
+				return true, bot - float64(ty)
+			}
+		}
+	}
+	return false, 0
+}
+
+// turnedGray returns g turned half a turn (its raw map too).
+func turnedGray(g *gray) *gray {
+	out := &gray{w: g.w, h: g.h, pix: reversed(g.pix)}
+	if g.raw != nil {
+		out.raw = reversed(g.raw)
+	}
+	return out
+}
+
+func reversed(p []uint8) []uint8 {
+	out := make([]uint8, len(p))
+	n := len(p)
+	for i, v := range p {
+		out[n-1-i] = v
+	}
+	return out
+}
+
+// turnResultHalf turns calib's rectified page and ink map half a turn
+// and updates the quarter-turn count, the map back to the source image
+// and the pulse boxes to match.
+func turnResultHalf(cal *calib.Result) {
+	var w, h float64
+	if cal.Rectified != nil {
+		b := cal.Rectified.Bounds()
+		w, h = float64(b.Dx()), float64(b.Dy())
+		out := image.NewNRGBA(image.Rect(0, 0, b.Dx(), b.Dy()))
+		for y := 0; y < b.Dy(); y++ {
+			src := cal.Rectified.Pix[y*cal.Rectified.Stride : y*cal.Rectified.Stride+4*b.Dx()]
+			dst := out.Pix[(b.Dy()-1-y)*out.Stride:]
+			for x := 0; x < b.Dx(); x++ {
+				copy(dst[4*(b.Dx()-1-x):4*(b.Dx()-x)], src[4*x:4*x+4])
+			}
+		}
+		cal.Rectified = out
+	}
+	if cal.Ink != nil {
+		b := cal.Ink.Bounds()
+		w, h = float64(b.Dx()), float64(b.Dy())
+		out := image.NewGray(image.Rect(0, 0, b.Dx(), b.Dy()))
+		for y := 0; y < b.Dy(); y++ {
+			src := cal.Ink.Pix[y*cal.Ink.Stride : y*cal.Ink.Stride+b.Dx()]
+			dst := out.Pix[(b.Dy()-1-y)*out.Stride:]
+			for x := 0; x < b.Dx(); x++ {
+				dst[b.Dx()-1-x] = src[x]
+			}
+		}
+		cal.Ink = out
+	}
+	cal.Turned = (cal.Turned + 2) % 4
+	// New rectified (x', y') is old (w − x', h − y'): RectToImage·F with
+	// F = [[−1 0 w] [0 −1 h] [0 0 1]].
+	m := cal.RectToImage
+	if m != ([9]float64{}) {
+		var o [9]float64
+		for r := 0; r < 3; r++ {
+			o[3*r+0] = -m[3*r+0]
+			o[3*r+1] = -m[3*r+1]
+			o[3*r+2] = m[3*r+0]*w + m[3*r+1]*h + m[3*r+2]
+		}
+		cal.RectToImage = o
+	}
+	for i, p := range cal.Pulses {
+		b := p.Box
+		cal.Pulses[i].Box = [4]float64{w - b[2], h - b[3], w - b[0], h - b[1]}
+	}
+	cal.Warnings = append(cal.Warnings, "digitize: the calibration pulses sat at the right end of the rows; the page was turned half a turn")
+}
+
+// Trace spans worth snapping to, s: a 10 s page (common practice for a
+// 12-lead printout at 25 mm/s). At 50 mm/s a page holds whatever fits.
+var pageSpansS = []float64{10}
+
+// maxSpanFix is the largest scale error corrected from the trace span:
+// a looser match is more likely a page of another length.
+const maxSpanFix = 0.06
+
+// spanScale returns the factor calib's px/mm is off by, judged from the
+// traced span (px) against the standard page durations, with the span
+// in seconds at calib's scale and the duration matched; k is 1 when the
+// span matches none of them closely, or calib's scale comes from the
+// grid (measured over the whole page, closer than a span under
+// perspective) or from the user.
+func spanScale(spanPx float64, cal *calib.Result) (k, spanS, want float64) {
+	spanS = spanPx / (cal.PxPerMM * cal.SpeedMMPerS)
+	if cal.Source != "pulse" && cal.Source != "file" || cal.SpeedMMPerS != 25 {
+		return 1, spanS, 0
+	}
+	for _, w := range pageSpansS {
+		r := spanS / w
+		// Within 0.3 % (a pixel or two over a page, what the span itself
+		// is measured to) nothing is corrected.
+		if d := math.Abs(r - 1); d <= 0.003 {
+			return 1, spanS, w
+		} else if d < maxSpanFix {
+			return r, spanS, w
+		}
+	}
+	return 1, spanS, 0
+}
+
+// rescale applies a scale correction k to calib's result.
+func rescale(cal *calib.Result, k, spanS, want float64) {
+	old := cal.PxPerMM
+	cal.PxPerMM *= k
+	cal.PxPerMMX *= k
+	cal.PxPerMMY *= k
+	cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the traces span %.2f s at %.3f px/mm; the scale is taken as %.3f px/mm so that they span the standard %.0f s",
+		spanS, old, cal.PxPerMM, want))
+}
+
+// Standard gains, mm/mV (common practice: 10, with 5 and 20 the usual
+// alternatives and 2.5 or 40 on some machines).
+var standardGains = []float64{2.5, 5, 10, 20, 40}
+
+// pulseGain measures the calibration pulses at the starts of the rows
+// (a 1 mV pulse; common practice) and returns the standard gain they
+// show, or 0 when fewer than two rows show a pulse or their heights
+// match no standard gain within 12 %.
+func pulseGain(g *gray, rows []rowInfo, pitch float64, cal *calib.Result) float64 {
+	var hs []float64
+	for _, r := range rows {
+		if ok, h := squarePulse(g, r.x0, r.base, pitch, cal.PxPerMM, cal.SpeedMMPerS); ok {
+			hs = append(hs, h)
+		}
+	}
+	if len(hs) < 2 {
+		return 0
+	}
+	sort.Float64s(hs)
+	mm := hs[len(hs)/2] / cal.PxPerMM
+	for _, s := range standardGains {
+		if math.Abs(mm-s) < 0.12*s {
+			return s
+		}
+	}
+	return 0
+}
+
+// isStandardGain reports whether g is within 3 % of a standard gain.
+func isStandardGain(g float64) bool {
+	for _, s := range standardGains {
+		if math.Abs(g-s) <= 0.03*s {
+			return true
+		}
+	}
+	return false
+}
