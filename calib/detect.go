@@ -155,6 +155,15 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	ink, paperBox := inkMap(rect, gridLines{known: true, s: s})
 	ink0 := ink
 	q, turnConf := decideTurn(ink, s)
+	if q == 2 {
+		// Upside down is rare: also ask the calibration pulses, which rise
+		// from the baseline on an upright page.
+		up := len(findPulses(ink, s, s))
+		down := len(findPulses(turnGray(ink, 2), s, s))
+		if down <= up && !(up == 0 && turnConf > 0.9) {
+			q, turnConf = 0, 0.2
+		}
+	}
 	if q != 0 {
 		P := turnMat(q, W, Hh)
 		rect, ink = turnNRGBA(rect, q), turnGray(ink, q)

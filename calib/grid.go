@@ -232,20 +232,18 @@ func analyzeAxis(g *gridScan, useU bool) axisFit {
 		dbgGrid("peak f %.4f prom %.1f; fifths %.1f", fp, bestP, ps)
 	}
 	m := 1
-	for _, cand := range []int{5, 4, 3, 2} {
-		if fp/float64(cand)*n < 2.5 {
-			continue
-		}
-		all := true
-		for i := 1; i < cand; i++ {
-			if at(fp*float64(i)/float64(cand)) < 3 {
-				all = false
-				break
+	// ECG paper repeats every 5 mm (heavier lines or dots every fifth,
+	// common practice): the strongest peak is the 1 mm lines when at least
+	// three of the four fifths of its frequency stand out too.
+	if fp/5*n >= 2.5 {
+		cnt := 0
+		for i := 1; i < 5; i++ {
+			if at(fp*float64(i)/5) >= 2.5 {
+				cnt++
 			}
 		}
-		if all {
-			m = cand
-			break
+		if cnt >= 3 {
+			m = 5
 		}
 	}
 	af := axisFit{F: fp / float64(m), m: m, prom: bestP, ok: true}
@@ -272,9 +270,10 @@ func parabolic(a, b, c float64) float64 {
 
 // tileMeasure is one tile's grid phase on one axis.
 type tileMeasure struct {
-	ok   bool
+	ok   bool    // usable and unwrapped
+	good bool    // the grid stands out in this tile (before unwrapping)
 	q    float64 // grid coordinate (fundamental periods) at the centroid; mod 1 until unwrapped
-	u    float64 // coordinate along the axis where q holds (the window's effective centre), work px
+	u    float64 // coordinate along the axis where q holds (the window's centre), work px
 	F    float64 // local fundamental frequency
 	snr  float64 // grid harmonics over their spectral surroundings
 	frac float64 // weight for fitting
@@ -320,7 +319,9 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 	out := make([]tileMeasure, len(g.tiles))
 	for i := range g.tiles {
 		t := &g.tiles[i]
-		if t.n < 0.45*float64(g.ts*g.ts) {
+		// Whole tiles only: in a tile cut by the image edge the phase does
+		// not refer to any well-defined point.
+		if t.n < 0.9*float64(g.ts*g.ts) {
 			continue
 		}
 		x, y := t.sx/t.n, t.sy/t.n
@@ -331,16 +332,8 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 			uc = g.c*x + g.s*y
 		}
 		mean := weightedMean(p, w)
-		// The phase refers to the window's effective centre over the data
-		// (a tile cut by the image edge has its data off-centre).
-		var se, sw0 float64
-		for b, v := range p {
-			se += w[b] * float64(v) * float64(b)
-			sw0 += w[b] * float64(v)
-		}
-		if sw0 > 0 {
-			uc = off + se/sw0
-		}
+		// The phase refers to the window's centre.
+		uc = off + float64(len(p)-1)/2
 		// Coarse then fine search of the local fundamental.
 		hc := float64(coarse[len(coarse)-1])
 		step := 0.35 / (fts * hc)
@@ -386,7 +379,7 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 		}
 		q := bestF*uc + psi
 		q -= math.Floor(q)
-		out[i] = tileMeasure{ok: snr > 6, q: q, u: uc, F: bestF, snr: snr, frac: math.Log(snr)}
+		out[i] = tileMeasure{ok: snr > 6, good: snr > 6, q: q, u: uc, F: bestF, snr: snr, frac: math.Log(snr)}
 	}
 	return out
 }

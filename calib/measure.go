@@ -68,40 +68,51 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 		}
 		return (hi - lo + float64(ts)) * F
 	}
-	unitFor := func(af axisFit, n float64) float64 {
+	// Whole-image extent along each axis, in periods.
+	extent := func(useU bool, F float64) float64 {
+		W, H := float64(wk.w), float64(wk.h)
+		if useU {
+			return (W*math.Abs(g.c) + H*math.Abs(g.s)) * F
+		}
+		return (W*math.Abs(g.s) + H*math.Abs(g.c)) * F
+	}
+	// The fundamental is 5 mm when the 1 mm lines were seen beneath it;
+	// otherwise it is 1 mm when there are too many periods across the page
+	// for 5 mm ones (a page is at most about 450 mm).
+	unitFor := func(af axisFit, nValid, nImage float64) float64 {
 		if af.m == 5 {
 			return 5
 		}
-		for _, h := range af.harm {
-			if h == 5 && len(af.harm) >= 3 {
-				return 5
-			}
+		if nValid >= 100 || nImage >= 150 {
+			return 1
 		}
-		if n < 100 {
-			return 5
-		}
-		return 1
+		return 5
 	}
 	nu := spanPeriods(mu, true, au.F)
 	nv := spanPeriods(mv, false, av.F)
-	au.unit = unitFor(au, nu)
-	av.unit = unitFor(av, nv)
+	au.unit = unitFor(au, nu, extent(true, au.F))
+	av.unit = unitFor(av, nv, extent(false, av.F))
+	if au.unit != av.unit && au.m != 5 && av.m != 5 {
+		// One grid on both axes: trust the axis seen over more of the page.
+		if nu >= nv {
+			av.unit = au.unit
+		} else {
+			au.unit = av.unit
+		}
+	}
 	ppu := 1 / (au.F * au.unit)
 	ppv := 1 / (av.F * av.unit)
-	if r := ppu / ppv; r > 2.9 || r < 1/2.9 {
-		// One axis took the wrong unit: trust the one with 5 mm structure.
-		strongU := au.m == 5 || len(au.harm) > len(av.harm)
-		if strongU {
-			av.unit = au.unit * map[bool]float64{true: 1.0 / 5, false: 5}[r < 1]
-			if av.unit != 1 && av.unit != 5 {
-				return gridModel{}, false
-			}
-		} else {
-			au.unit = av.unit * map[bool]float64{true: 5, false: 1.0 / 5}[r < 1]
-			if au.unit != 1 && au.unit != 5 {
-				return gridModel{}, false
-			}
+	// The two axes agree (square pixels) or differ about twofold (fax
+	// 200 × 100 dpi); anything else is a misread grid.
+	r := ppu / ppv
+	if r < 1 {
+		r = 1 / r
+	}
+	if !(r < 1.25 || (r > 1.7 && r < 2.35)) {
+		if dbgGrid != nil {
+			dbgGrid("axes disagree: %.3f vs %.3f px/mm", ppu, ppv)
 		}
+		return gridModel{}, false
 	}
 
 	if dbgGrid != nil {
@@ -116,59 +127,91 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 		}
 		dbgGrid("tiles %d ok u %d v %d; F %.5f %.5f m %d %d units %v %v harm %v %v", len(g.tiles), cu, cv, au.F, av.F, au.m, av.m, au.unit, av.unit, au.harm, av.harm)
 	}
-	var os []obs
-	nBoth := 0
-	for i := range g.tiles {
-		t := &g.tiles[i]
-		x, y := t.sx/t.n, t.sy/t.n
-		// Each observation sits where its phase holds: along its own axis
-		// at the window's effective centre, across it at the centroid.
-		u := g.c*x + g.s*y
-		v := -g.s*x + g.c*y
-		if mu[i].ok {
-			uu := mu[i].u
-			os = append(os, obs{x: g.c*uu - g.s*v, y: g.s*uu + g.c*v, val: au.unit * mu[i].q, axis: 0, w: mu[i].frac})
+	// Observations from the tiles; with a model G the whole periods of
+	// each tile are re-chosen from G's prediction (undoing unwrap slips).
+	build := func(G *mat3, all bool) []obs {
+		var os []obs
+		for i := range g.tiles {
+			t := &g.tiles[i]
+			if t.n == 0 {
+				continue
+			}
+			x, y := t.sx/t.n, t.sy/t.n
+			// Each observation sits where its phase holds: along its own
+			// axis at the window's effective centre, across it at the centroid.
+			u := g.c*x + g.s*y
+			v := -g.s*x + g.c*y
+			for axis, m := range []tileMeasure{mu[i], mv[i]} {
+				if !(m.ok || (all && m.good)) {
+					continue
+				}
+				unit := au.unit
+				ox, oy := g.c*m.u-g.s*v, g.s*m.u+g.c*v
+				if axis == 1 {
+					unit = av.unit
+					ox, oy = g.c*u-g.s*m.u, g.s*u+g.c*m.u
+				}
+				q := m.q
+				if G != nil {
+					X, Y := G.apply(ox, oy)
+					pred := X / unit
+					if axis == 1 {
+						pred = Y / unit
+					}
+					fr := q - math.Floor(q)
+					q = fr + math.Round(pred-fr)
+				}
+				os = append(os, obs{x: ox, y: oy, val: unit * q, axis: axis, w: m.frac})
+			}
 		}
-		if mv[i].ok {
-			vv := mv[i].u
-			os = append(os, obs{x: g.c*u - g.s*vv, y: g.s*u + g.c*vv, val: av.unit * mv[i].q, axis: 1, w: mv[i].frac})
-		}
-		if mu[i].ok && mv[i].ok {
-			nBoth++
-		}
+		return os
 	}
-	affine := len(os) < 24
-	G, ok := fitInverse(os, affine)
+	// Robust fit: drop observations far off (unwrap slips are whole
+	// periods; 0.4 of the fundamental separates them).
+	robust := func(os []obs) (mat3, []obs, bool) {
+		G, ok := fitInverse(os, len(os) < 24)
+		if !ok {
+			return G, os, false
+		}
+		for pass := 0; pass < 3; pass++ {
+			res := make([]float64, len(os))
+			for i, o := range os {
+				res[i] = obsResidual(G, o)
+			}
+			lim := math.Max(3*median(res), 0.1)
+			lim = math.Min(lim, 0.4*math.Min(au.unit, av.unit))
+			kept := os[:0:0]
+			for i, o := range os {
+				if res[i] <= lim {
+					kept = append(kept, o)
+				}
+			}
+			if dbgGrid != nil {
+				dbgGrid("robust pass %d: %d obs, median %.3f, lim %.3f, kept %d", pass, len(os), median(res), lim, len(kept))
+			}
+			if len(kept) == len(os) {
+				break
+			}
+			G2, ok := fitInverse(kept, len(kept) < 24)
+			if !ok {
+				break
+			}
+			os, G = kept, G2
+		}
+		return G, os, true
+	}
+	G, os, ok := robust(build(nil, false))
 	if !ok {
 		return gridModel{}, false
 	}
-	// Robust passes: drop observations far off the fit (unwrap slips are
-	// whole periods; 0.4 of the fundamental separates them).
-	for pass := 0; pass < 3; pass++ {
-		res := make([]float64, len(os))
-		for i, o := range os {
-			res[i] = obsResidual(G, o)
-		}
-		lim := math.Max(3*median(res), 0.1)
-		lim = math.Min(lim, 0.4*math.Min(au.unit, av.unit))
-		kept := os[:0:0]
-		for i, o := range os {
-			if res[i] <= lim {
-				kept = append(kept, o)
-			}
-		}
-		if len(kept) == len(os) {
+	for it := 0; it < 2; it++ {
+		G2, os2, ok := robust(build(&G, true))
+		if !ok || len(os2) < len(os)*3/4 {
 			break
 		}
-		G2, ok := fitInverse(kept, len(kept) < 24)
-		if !ok {
-			break
-		}
-		os, G = kept, G2
+		G, os = G2, os2
 	}
-	// A flat scan: keep the affine model (cheaper resampling, no noise in
-	// the perspective terms) when the perspective terms change the scale
-	// by under 0.3 % across the measured area.
+	affine := len(os) < 24
 	if !affine {
 		X0, X1, Y0, Y1 := math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
 		for _, o := range os {
@@ -199,7 +242,6 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 		r := obsResidual(G, o)
 		ss += r * r
 	}
-	_ = nBoth
 	gm.rmsMM = math.Sqrt(ss / float64(len(os)))
 	// Tile half-size in mm widens the extent to the tiles' edges.
 	halfX := float64(ts) / 2 * au.F * au.unit

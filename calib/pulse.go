@@ -169,7 +169,17 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			}
 			xa := float64(a.x0+a.x1) / 2
 			xb := float64(b.x0+b.x1) / 2
-			hpx := float64(bot-top) - float64(th) + 1
+			// Height between the centre lines of the top and of the baseline,
+			// each thickness measured vertically (with anisotropic pixels,
+			// resampled, the vertical and horizontal strokes differ), to a
+			// fraction of a pixel from the ink levels.
+			mid := (a.x1 + b.x0) / 2
+			thTop := vThick(ink, mid, top, top+3*th+3)
+			thBot := thTop
+			if x := a.x0 - 2; x >= 0 {
+				thBot = vThick(ink, x, bot-3*th-3, bot)
+			}
+			hpx := float64(bot-top+1) - (thTop+thBot)/2
 			out = append(out, Pulse{Box: [4]float64{float64(a.x0), float64(top), float64(b.x1), float64(bot)},
 				HeightMM: hpx, WidthMM: xb - xa})
 			usedR[j] = true
@@ -177,6 +187,16 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 		}
 	}
 	return out
+}
+
+// vThick sums the ink level (0..1) in column x over rows y0..y1: the
+// thickness in px of the horizontal stroke crossing there.
+func vThick(ink *image.Gray, x, y0, y1 int) float64 {
+	var t float64
+	for y := max(0, y0); y <= min(ink.Rect.Dy()-1, y1); y++ {
+		t += float64(ink.Pix[y*ink.Stride+x]) / 255
+	}
+	return math.Max(1, t)
 }
 
 func abs(v int) int {
