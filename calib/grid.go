@@ -137,6 +137,7 @@ type axisFit struct {
 	harm  []int   // harmonics of F that stand out
 	ok    bool
 	unit  float64 // mm per fundamental period (1 or 5), set later
+	oneMM bool    // F is known to be the 1 mm lines (they were seen under a 5 mm period)
 	tileO []float64
 }
 
@@ -252,8 +253,26 @@ func analyzeAxis(g *gridScan, useU bool) axisFit {
 			af.harm = append(af.harm, h)
 		}
 	}
+	if m == 5 {
+		// The 5 mm period is only worth unwrapping on when its own low
+		// harmonics are clear; otherwise measure on the 1 mm lines.
+		low := 0
+		for _, h := range af.harm {
+			if h < 5 {
+				low++
+			}
+		}
+		if low < 2 {
+			af = axisFit{F: fp, m: 1, prom: bestP, ok: true}
+			for h := 1; float64(h)*af.F < 0.45 && h <= 15; h++ {
+				if at(af.F*float64(h)) >= 4 {
+					af.harm = append(af.harm, h)
+				}
+			}
+		}
+	}
 	if len(af.harm) == 0 {
-		af.harm = []int{m}
+		af.harm = []int{1}
 	}
 	return af
 }
@@ -357,26 +376,36 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 			continue
 		}
 		snr := bestC / offC
-		c1 := dtft(p, w, mean, off, bestF)
-		a1 := cmplx.Abs(c1)
-		psi := cmplx.Phase(c1) / (2 * math.Pi)
-		// Refine with a stronger harmonic.
-		bestH, bestA := 0, a1*1.5
-		var bestHC complex128
-		for _, h := range low {
-			if h == 1 {
-				continue
-			}
-			ch := dtft(p, w, mean, off, bestF*float64(h))
-			if a := cmplx.Abs(ch); a > bestA {
-				bestH, bestA, bestHC = h, a, ch
+		// Phase of the whole comb: the offset ψ (in periods) that best
+		// lines the harmonics up, Σ |c_h| cos(arg c_h − 2πhψ); this also
+		// works when the fundamental itself is weak (dot grids, where the
+		// 2nd and 5th harmonics carry the 5 mm period between them).
+		var cs [16]complex128
+		hmax := 1
+		for _, h := range af.harm {
+			if h < len(cs) {
+				cs[h] = dtft(p, w, mean, off, bestF*float64(h))
+				hmax = max(hmax, h)
 			}
 		}
-		if bestH > 0 {
-			ph := cmplx.Phase(bestHC) / (2 * math.Pi * float64(bestH))
-			k := math.Round((psi - ph) * float64(bestH))
-			psi = ph + k/float64(bestH)
+		score := func(psi float64) float64 {
+			var sc float64
+			for h := 1; h <= hmax; h++ {
+				if c := cs[h]; c != 0 {
+					sc += cmplx.Abs(c) * math.Cos(cmplx.Phase(c)-2*math.Pi*float64(h)*psi)
+				}
+			}
+			return sc
 		}
+		nst := 24 * hmax
+		bestPsi, bestSc := 0.0, math.Inf(-1)
+		for k := 0; k < nst; k++ {
+			if sc := score(float64(k) / float64(nst)); sc > bestSc {
+				bestPsi, bestSc = float64(k)/float64(nst), sc
+			}
+		}
+		d := 1 / float64(nst)
+		psi := bestPsi + d*parabolic(score(bestPsi-d), bestSc, score(bestPsi+d))
 		q := bestF*uc + psi
 		q -= math.Floor(q)
 		out[i] = tileMeasure{ok: snr > 6, good: snr > 6, q: q, u: uc, F: bestF, snr: snr, frac: math.Log(snr)}
@@ -631,33 +660,4 @@ func solve(A [8][8]float64, b [8]float64, n int) ([8]float64, bool) {
 		x[r] = s / A[r][r]
 	}
 	return x, true
-}
-
-// alignFundamentals: when one axis shows the 5 mm structure (its strongest
-// peak was the fifth harmonic) and the other found only the 1 mm lines at
-// a similar scale, the other axis is measured at a fifth of its frequency
-// too, so both unwrap on the coarser, safer period.
-func alignFundamentals(a, b *axisFit) {
-	fix := func(five, one *axisFit) {
-		if five.m != 5 || one.m == 5 {
-			return
-		}
-		f1 := one.F * float64(one.m) // its strongest peak: the 1 mm lines
-		r := f1 / (five.F * 5)
-		if r < 0.4 || r > 2.6 {
-			return
-		}
-		one.F = f1 / 5
-		one.m = 5
-		hs := []int{5}
-		for _, h := range one.harm {
-			if 5*h <= 15 && 5*h != 5 {
-				hs = append(hs, 5*h)
-			}
-		}
-		sort.Ints(hs)
-		one.harm = append([]int{1, 2, 3, 4}, hs...)
-	}
-	fix(a, b)
-	fix(b, a)
 }

@@ -42,7 +42,25 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	if !au.ok || !av.ok {
 		return gridModel{}, false
 	}
-	alignFundamentals(&au, &av)
+	// Where the 1 mm lines were seen under the 5 mm period, measure on
+	// the 1 mm lines themselves: their phase is sharp in every tile, while
+	// the 5 mm harmonics are often weak and would pick the wrong line.
+	for _, af := range []*axisFit{&au, &av} {
+		if af.m != 5 || 5*af.F > 0.4 {
+			continue
+		}
+		var hs []int
+		for _, h := range af.harm {
+			if h%5 == 0 {
+				hs = append(hs, h/5)
+			}
+		}
+		if len(hs) == 0 || hs[0] != 1 {
+			hs = append([]int{1}, hs...)
+		}
+		af.F *= 5
+		af.m, af.harm, af.oneMM = 1, hs, true
+	}
 	mu := measureTiles(g, &au, true)
 	mv := measureTiles(g, &av, false)
 	unwrap(g, mu)
@@ -80,6 +98,9 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	// otherwise it is 1 mm when there are too many periods across the page
 	// for 5 mm ones (a page is at most about 450 mm).
 	unitFor := func(af axisFit, nValid, nImage float64) float64 {
+		if af.oneMM {
+			return 1
+		}
 		if af.m == 5 {
 			return 5
 		}
@@ -90,30 +111,57 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	}
 	nu := spanPeriods(mu, true, au.F)
 	nv := spanPeriods(mv, false, av.F)
-	au.unit = unitFor(au, nu, extent(true, au.F))
-	av.unit = unitFor(av, nv, extent(false, av.F))
-	if au.unit != av.unit && au.m != 5 && av.m != 5 {
-		// One grid on both axes: trust the axis seen over more of the page.
-		if nu >= nv {
-			av.unit = au.unit
-		} else {
-			au.unit = av.unit
+	eu, ev := extent(true, au.F), extent(false, av.F)
+	// Choose the units of both axes together: 5 where the 1 mm lines were
+	// seen beneath; the two scales must agree (square pixels) or differ
+	// about twofold (a fax at 200 × 100 dpi); 1 mm periods need enough of
+	// them across the page, 5 mm ones cannot be too many (a page is at
+	// most about 450 mm); otherwise each axis's own reading wins.
+	bestScore := math.Inf(1)
+	var bu, bv float64
+	for _, uu := range []float64{1, 5} {
+		for _, uv := range []float64{1, 5} {
+			if (au.m == 5 && uu != 5) || (av.m == 5 && uv != 5) || (au.oneMM && uu != 1) || (av.oneMM && uv != 1) {
+				continue
+			}
+			r := (1 / (au.F * uu)) / (1 / (av.F * uv))
+			if r < 1 {
+				r = 1 / r
+			}
+			var sc float64
+			switch {
+			case r < 1.25:
+			case r > 1.7 && r < 2.35:
+				sc += 1
+			default:
+				continue
+			}
+			for _, ax := range []struct{ unit, nValid, nImage float64 }{{uu, nu, eu}, {uv, nv, ev}} {
+				if ax.unit == 1 && ax.nImage < 60 {
+					sc += 10
+				}
+				if ax.unit == 5 && ax.nValid > 100 {
+					sc += 10
+				}
+			}
+			if uu != unitFor(au, nu, eu) {
+				sc += 0.5
+			}
+			if uv != unitFor(av, nv, ev) {
+				sc += 0.5
+			}
+			if sc < bestScore {
+				bestScore, bu, bv = sc, uu, uv
+			}
 		}
 	}
-	ppu := 1 / (au.F * au.unit)
-	ppv := 1 / (av.F * av.unit)
-	// The two axes agree (square pixels) or differ about twofold (fax
-	// 200 × 100 dpi); anything else is a misread grid.
-	r := ppu / ppv
-	if r < 1 {
-		r = 1 / r
-	}
-	if !(r < 1.25 || (r > 1.7 && r < 2.35)) {
+	if math.IsInf(bestScore, 1) || bestScore >= 10 {
 		if dbgGrid != nil {
-			dbgGrid("axes disagree: %.3f vs %.3f px/mm", ppu, ppv)
+			dbgGrid("axes disagree: F %.4f %.4f m %d %d", au.F, av.F, au.m, av.m)
 		}
 		return gridModel{}, false
 	}
+	au.unit, av.unit = bu, bv
 
 	if dbgGrid != nil {
 		cu, cv := 0, 0
