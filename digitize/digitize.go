@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"os"
 	"sort"
 	"strings"
 
@@ -83,8 +82,6 @@ type Result struct {
 	Check      []Place
 }
 
-var debugDigitize = os.Getenv("TRACELIFT_DIGITIZE_DEBUG") != ""
-
 // Expected failures.
 var (
 	ErrInput   = errors.New("digitize: calibration result is missing its image, scale, gain or speed")
@@ -144,9 +141,6 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	}
 	// A page left upside down shows its calibration pulses at the right.
 	left, right := pulseSides(g, rows, rowPitch(rows, g, p), cal)
-	if debugDigitize {
-		fmt.Printf("digitize: rows %d pulses left %d right %d\n", len(rows), left, right)
-	}
 	if right >= 2 && right > left {
 		turnResultHalf(cal)
 		g = turnedGray(g)
@@ -159,9 +153,6 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		rows = trimRows(rows)
 	}
 	if gn := pulseGain(g, rows, rowPitch(rows, g, p), cal); gn > 0 && gn != cal.GainMMPerMV {
-		if debugDigitize {
-			fmt.Printf("digitize: pulse gain %.1f, calib %.1f\n", gn, cal.GainMMPerMV)
-		}
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the calibration pulses at the row starts show %g mm/mV (not %g); that gain is used", gn, cal.GainMMPerMV))
 		cal.GainMMPerMV = gn
 	} else if gn == 0 && cal.Source != "user" && !isStandardGain(cal.GainMMPerMV) {
@@ -169,11 +160,6 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		// explains, and the row starts show none: the common 10 mm/mV.
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: %.3g mm/mV is not a standard gain and no calibration pulse leads the rows; 10 mm/mV is assumed", cal.GainMMPerMV))
 		cal.GainMMPerMV = 10
-	}
-	if debugDigitize {
-		for _, r := range rows {
-			fmt.Printf("  row base %.1f x %d-%d\n", r.base, r.x0, r.x1)
-		}
 	}
 	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
 		rows = fitRows(rows, layoutRows[opt.Layout])

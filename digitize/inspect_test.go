@@ -129,6 +129,16 @@ func inspectOne(t *testing.T, seed int64, i int) {
 	}
 	own := InkFromRGB(cal.Rectified)
 	writePNG(t, pre+"_own.png", own)
+	{
+		in := cal.Ink
+		if in == nil {
+			in = own
+		}
+		g := prepare(in, cal.PxPerMM)
+		wm := image.NewGray(image.Rect(0, 0, g.w, g.h))
+		copy(wm.Pix, g.pix)
+		writePNG(t, pre+"_work.png", wm)
+	}
 	res, err := Run(context.Background(), cal, Options{})
 	if err != nil {
 		t.Logf("case %d: digitize: %v", i, err)
@@ -178,6 +188,47 @@ func inspectOne(t *testing.T, seed int64, i int) {
 		}
 	}
 	writePNG(t, pre+"_trace.png", ov)
+	plotLeads(t, pre+"_plot.png", tr.Signals, res.Record)
+}
+
+// plotLeads draws truth (blue) and estimate (red) per lead, 10 s across
+// 2000 px, 100 px per mV, one 240 px strip per lead.
+func plotLeads(t *testing.T, path string, truth, est *record.Record) {
+	leads := truth.Leads()
+	img := image.NewNRGBA(image.Rect(0, 0, 2000, 240*len(leads)))
+	for i := range img.Pix {
+		img.Pix[i] = 255
+	}
+	draw := func(s *record.Signal, row int, c color.NRGBA) {
+		mean, n := 0.0, 0.0
+		for _, v := range s.MV {
+			if !math.IsNaN(v) {
+				mean += v
+				n++
+			}
+		}
+		if n == 0 {
+			return
+		}
+		mean /= n
+		for k, v := range s.MV {
+			if math.IsNaN(v) {
+				continue
+			}
+			x := int((s.StartS + float64(k)/s.RateHz) * 200)
+			y := row*240 + 120 - int((v-mean)*100)
+			if x >= 0 && x < 2000 && y >= row*240 && y < row*240+240 {
+				img.SetNRGBA(x, y, c)
+			}
+		}
+	}
+	for i, l := range leads {
+		draw(truth.Lead(l), i, color.NRGBA{0, 0, 255, 255})
+		if e := est.Lead(l); e != nil {
+			draw(e, i, color.NRGBA{255, 0, 0, 255})
+		}
+	}
+	writePNG(t, path, img)
 }
 
 func writePNG(t *testing.T, path string, img image.Image) {

@@ -197,8 +197,8 @@ func turnResultHalf(cal *calib.Result) {
 var pageSpansS = []float64{10}
 
 // maxSpanFix is the largest scale error corrected from the trace span:
-// a looser match is more likely a page of another length.
-const maxSpanFix = 0.06
+// a looser match is more likely a page of another length (printers fit 9.7 s, say, to the paper).
+const maxSpanFix = 0.03
 
 // spanScale returns the factor calib's px/mm is off by, judged from the
 // traced span (px) against the standard page durations, with the span
