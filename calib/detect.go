@@ -326,6 +326,7 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	fileScale := 0.0
 	if pg.DPIX > 0 && pg.DPIY > 0 {
 		fileScale = pg.DPIX / 25.4 // rect x keeps the file's x resolution
+		guess = fileScale          // a better prior for reading the pulse
 	}
 	user := opt.UserPxPerMM
 	if user == 0 && opt.UserDPI > 0 {
@@ -342,9 +343,6 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	case user > 0 && len(ps) == 0:
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
 		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale given by hand is used")
-	case fileScale > 0:
-		res.Source, res.PxPerMM, res.Confidence = "file", fileScale, 0.4
-		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the resolution the file states (%.0f×%.0f dpi)", pg.DPIX, pg.DPIY))
 	case len(ps) > 0:
 		g, sp := pulseSettings(ps, guess, opt)
 		hs := make([]float64, len(ps))
@@ -358,6 +356,9 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	case user > 0:
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
 		res.Warnings = append(res.Warnings, "no grid found: the scale given by hand is used")
+	case fileScale > 0:
+		res.Source, res.PxPerMM, res.Confidence = "file", fileScale, 0.4
+		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the resolution the file states (%.0f×%.0f dpi)", pg.DPIX, pg.DPIY))
 	default:
 		return nil, fmt.Errorf("calib: %s: %w", stem(pg.Path), ErrNoScale)
 	}
@@ -448,7 +449,7 @@ func pulseSettings(ps []Pulse, guess float64, opt Options) (float64, float64) {
 			ppm := h / (g * pulseMV)
 			e1 := math.Abs(math.Log(pulseS * v * ppm / w))
 			e2 := math.Abs(math.Log(ppm / guess))
-			sc := -e1/0.08 - e2/0.5 + math.Log(gp[i]*sp[j])
+			sc := -e1/0.08 - e2/0.25 + math.Log(gp[i]*sp[j])
 			if sc > best {
 				bg, bs, best = g, v, sc
 			}

@@ -10,6 +10,25 @@
 // geometry at Result.PxPerMM on both axes; Result.RectToImage maps their
 // pixels back to the source picture.
 //
+// How the grid is measured: the picture is reduced to about 1800 px on
+// its long side; the grid's angle comes from the 2-D spectrum of a
+// central patch; the page is cut into square tiles in the grid's frame and
+// each tile is projected onto both grid axes (ink left out). The summed
+// tile spectra give the line period and whether 1 mm lines sit under a
+// 5 mm period; each tile's phase at the local period gives the paper
+// coordinate of the tile modulo one period; the periods are unwrapped
+// from tile to tile and a homography (perspective, rotation and the two
+// axis scales in one) is fitted to all tiles robustly and refitted after
+// re-choosing each tile's whole periods from the model.
+//
+// Result fields beyond the shared contract: RotationDeg is the page's skew
+// in (−45°, 45°]; Turned counts the counter-clockwise quarter turns applied
+// on top to make the traces read left to right; ScaleAt is where under
+// perspective PxPerMMX, PxPerMMY and RotationDeg hold. Source is "grid",
+// "pulse" (no grid: the pulse read at the likeliest standard settings),
+// "user" (a scale given by hand) or "file" (no grid or pulse: the
+// resolution the file states).
+//
 // OpenCV (through gocv) does the resampling; Mats stay inside this package
 // and pixels leave it as Go images.
 package calib

@@ -24,21 +24,12 @@ type gridLines struct {
 // crosses a line.
 func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 	w, h := img.Rect.Dx(), img.Rect.Dy()
-	m := make([]uint8, w*h)
-	for y := 0; y < h; y++ {
-		row := img.Pix[y*img.Stride:]
-		o := m[y*w : y*w+w]
-		for x := range o {
-			p := row[4*x : 4*x+3 : 4*x+3]
-			o[x] = max(p[0], p[1], p[2])
-		}
-	}
 	s := gl.s
 	if s <= 0 {
 		s = float64(max(w, h)) / 280
 	}
 	bsz := max(8, int(4*s))
-	paper, paperRow := paperLevel(m, w, h, bsz)
+	paper, paperRow := paperLevel(img, bsz)
 	// The page's outline: the bounding box of paper blocks.
 	box := image.Rectangle{}
 	for y := bsz / 2; y < h; y += bsz {
@@ -63,11 +54,12 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 		pr := paper(y)
 		pm := paperRow(y)
 		o := out.Pix[y*out.Stride : y*out.Stride+w]
-		mr := m[y*w : y*w+w]
+		src := img.Pix[y*img.Stride : y*img.Stride+4*w]
 		pr = pr[:len(o)]
 		pm = pm[:len(o)]
-		for x, v := range mr {
+		for x := range o {
 			if pm[x] {
+				v := max(src[4*x], src[4*x+1], src[4*x+2])
 				o[x] = lut[int(pr[x])<<8|int(v)]
 			}
 		}
@@ -85,7 +77,8 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 // function giving one row of levels, and one that tells paper from the
 // darker background around a photographed page (blocks under half the
 // bright blocks' level).
-func paperLevel(m []uint8, w, h, b int) (func(y int) []uint8, func(y int) []bool) {
+func paperLevel(img *image.NRGBA, b int) (func(y int) []uint8, func(y int) []bool) {
+	w, h := img.Rect.Dx(), img.Rect.Dy()
 	bw, bh := (w+b-1)/b, (h+b-1)/b
 	lev := make([]float32, bw*bh)
 	var hist [256]int
@@ -95,9 +88,9 @@ func paperLevel(m []uint8, w, h, b int) (func(y int) []uint8, func(y int) []bool
 			hist = [256]int{}
 			n := 0
 			for y := by * b; y < min(h, by*b+b); y += 2 {
-				row := m[y*w:]
+				row := img.Pix[y*img.Stride:]
 				for x := bx * b; x < min(w, bx*b+b); x += 2 {
-					hist[row[x]]++
+					hist[max(row[4*x], row[4*x+1], row[4*x+2])]++
 					n++
 				}
 			}

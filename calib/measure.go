@@ -46,7 +46,8 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	// the 1 mm lines themselves: their phase is sharp in every tile, while
 	// the 5 mm harmonics are often weak and would pick the wrong line.
 	for _, af := range []*axisFit{&au, &av} {
-		if af.m != 5 || 5*af.F > 0.4 {
+		wk5 := af.m == 5
+		if !wk5 || 5*af.F > 0.4 {
 			continue
 		}
 		var hs []int
