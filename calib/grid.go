@@ -383,7 +383,10 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 		var cs [16]complex128
 		hmax := 1
 		for _, h := range af.harm {
-			if h < len(cs) {
+			// Harmonics near the sampling limit are blurred away in photos
+			// and carry JPEG block patterns instead; up to the 1 mm lines'
+			// own (5th of a 5 mm period) is enough.
+			if h < len(cs) && h <= 6 && bestF*float64(h) <= 0.3 {
 				cs[h] = dtft(p, w, mean, off, bestF*float64(h))
 				hmax = max(hmax, h)
 			}

@@ -62,6 +62,41 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 		af.F *= 5
 		af.m, af.harm, af.oneMM = 1, hs, true
 	}
+	gm, ok := fitAxes(wk, g, au, av, ts)
+	// A photo seen at a slant blurs the 1 mm lines' phase across a tile
+	// more than the 5 mm one: when one axis measured on 5 mm and the
+	// other on 1 mm, also try the second on 5 mm and keep the better fit.
+	for _, pair := range [][2]*axisFit{{&au, &av}, {&av, &au}} {
+		five, one := pair[0], pair[1]
+		if five.m == 1 && !five.oneMM && one.m == 1 && !one.oneMM && five.F*5 < one.F*1.3 && five.F*5 > one.F/1.3 && hasHarm(five.harm, 5) {
+			alt := *one
+			alt.F, alt.harm = one.F/5, []int{1, 2, 3, 4, 5}
+			a, b := au, av
+			if one == &av {
+				b = alt
+			} else {
+				a = alt
+			}
+			if gm2, ok2 := fitAxes(wk, g, a, b, ts); ok2 && (!ok || gm2.rmsMM < gm.rmsMM*0.8) {
+				gm, ok = gm2, true
+			}
+		}
+	}
+	return gm, ok
+}
+
+func hasHarm(hs []int, h int) bool {
+	for _, x := range hs {
+		if x == h {
+			return true
+		}
+	}
+	return false
+}
+
+// fitAxes measures the tiles at the two axes' periods, chooses the units,
+// unwraps and fits the homography.
+func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 	mu := measureTiles(g, &au, true)
 	mv := measureTiles(g, &av, false)
 	unwrap(g, mu)
