@@ -1,11 +1,8 @@
 package calib
 
 import (
-	"context"
-	"math"
 	"math/rand"
 	"testing"
-	"time"
 
 	"tracelift/samples"
 	"tracelift/samples/dipole"
@@ -38,32 +35,4 @@ func renderCase(t testing.TB, cond string, i int, base int64) rendered {
 		t.Fatalf("degrade: %v", err)
 	}
 	return rendered{cond: cond, style: st, p: q}
-}
-
-type caseResult struct {
-	errX, errY, errRot float64 // relative scale errors, rotation error in degrees
-	gainOK, speedOK    bool
-	ms                 float64
-	source             string
-	err                error
-}
-
-func runCase(rc rendered) caseResult {
-	pg := &Page{Image: rc.p.Image, Path: "rendered", Format: "png", PageCount: 1}
-	t0 := time.Now()
-	res, err := Detect(context.Background(), pg, Options{})
-	ms := float64(time.Since(t0).Microseconds()) / 1000
-	if err != nil {
-		return caseResult{err: err, ms: ms}
-	}
-	tr := rc.p.Truth
-	return caseResult{
-		errX:    math.Abs(res.PxPerMMX/tr.PxPerMMX - 1),
-		errY:    math.Abs(res.PxPerMMY/tr.PxPerMMY - 1),
-		errRot:  math.Abs(res.RotationDeg - tr.RotationDeg),
-		gainOK:  res.GainMMPerMV == tr.GainMMPerMV,
-		speedOK: res.SpeedMMPerS == tr.SpeedMMPerS,
-		ms:      ms,
-		source:  res.Source,
-	}
 }
