@@ -47,7 +47,8 @@ FUZZTIME ?= 3s
 fuzz:
 	@set -e; for pkg in $$($(GO) list ./...); do \
 	  for f in $$($(GO) test -list '^Fuzz' $$pkg 2>/dev/null | grep '^Fuzz' || true); do \
-	    echo "fuzz $$pkg $$f"; $(GO) test -run '^$$' -fuzz "^$$f$$" -fuzztime $(FUZZTIME) $$pkg >/dev/null || { echo "fuzz $$f failed"; $(GO) test -run '^$$' -fuzz "^$$f$$" -fuzztime $(FUZZTIME) $$pkg | tail -30; exit 1; }; \
+	    echo "fuzz $$pkg $$f ($(FUZZTIME))"; \
+	    $(GO) test -run '^$$' -fuzz "^$$f$$" -fuzztime $(FUZZTIME) $$pkg > /tmp/tracelift-fuzz.log 2>&1 || { tail -40 /tmp/tracelift-fuzz.log; echo "fuzz $$f failed"; exit 1; }; \
 	  done; \
 	done
 
