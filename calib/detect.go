@@ -38,6 +38,9 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	found := false
 	if !opt.ForceUser {
 		gm, found = measureGrid(wk, theta)
+		if found && gm.perspTerms > 0.01 {
+			gm = secondPass(wk, gm)
+		}
 	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
@@ -59,6 +62,46 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 		dbgGrid("no grid: theta %.3f° coherence %.2f", theta*180/math.Pi, coh)
 	}
 	return withoutGrid(ctx, pg, wk, theta, opt)
+}
+
+// secondPass measures the grid again on the work image resampled through
+// the first model (a photo seen at a slant: in the flattened frame every
+// tile's lines run straight, so their phase is sharp) and composes the two
+// models; it keeps the first when the second fits worse.
+func secondPass(wk *work, gm gridModel) gridModel {
+	ex, ey := jacobian(gm.H, (gm.X0+gm.X1)/2, (gm.Y0+gm.Y1)/2)
+	sw := (math.Hypot(ex[0], ex[1]) + math.Hypot(ey[0], ey[1])) / 2
+	W, H := int((gm.X1-gm.X0)*sw), int((gm.Y1-gm.Y0)*sw)
+	if W < 256 || H < 256 || W*H > 3*wk.w*wk.h {
+		return gm
+	}
+	M := gm.H.mul(mat3{1 / sw, 0, gm.X0, 0, 1 / sw, gm.Y0, 0, 0, 1}) // flat px → work px
+	dmin, err1 := warpPlane(wk.dmin, wk.w, wk.h, M, W, H)
+	dmax, err2 := warpPlane(wk.dmax, wk.w, wk.h, M, W, H)
+	if err1 != nil || err2 != nil {
+		return gm
+	}
+	flat := &work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}
+	g2, ok := measureGrid(flat, 0)
+	if !ok || g2.rmsMM >= gm.rmsMM {
+		return gm
+	}
+	g2.H = M.mul(g2.H)
+	// The flattened frame must confirm the first scale (a 1 mm / 5 mm mix-up
+	// fits as well as the truth).
+	fx, fy := jacobian(g2.H, (g2.X0+g2.X1)/2, (g2.Y0+g2.Y1)/2)
+	cx, cy := gm.H.apply((gm.X0+gm.X1)/2, (gm.Y0+gm.Y1)/2)
+	if G1, ok := gm.H.inv(); ok {
+		X, Y := G1.apply(cx, cy)
+		ex, ey = jacobian(gm.H, X, Y)
+	}
+	rx := math.Hypot(fx[0], fx[1]) / math.Hypot(ex[0], ex[1])
+	ry := math.Hypot(fy[0], fy[1]) / math.Hypot(ey[0], ey[1])
+	if math.Abs(rx-1) > 0.15 || math.Abs(ry-1) > 0.15 {
+		return gm
+	}
+	g2.perspTerms = math.Hypot(g2.H[6]*(g2.X1-g2.X0), g2.H[7]*(g2.Y1-g2.Y0))
+	return g2
 }
 
 func checkOptions(opt Options) error {

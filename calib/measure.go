@@ -253,7 +253,7 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 	// Robust fit: drop observations far off (unwrap slips are whole
 	// periods; 0.4 of the fundamental separates them).
 	robust := func(os []obs) (mat3, []obs, bool) {
-		G, ok := fitInverse(os, len(os) < 24)
+		G, ok := fitInverse(os, fewObs(os))
 		if !ok {
 			return G, os, false
 		}
@@ -276,7 +276,7 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 			if len(kept) == len(os) {
 				break
 			}
-			G2, ok := fitInverse(kept, len(kept) < 24)
+			G2, ok := fitInverse(kept, fewObs(kept))
 			if !ok {
 				break
 			}
@@ -295,7 +295,7 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 		}
 		G, os = G2, os2
 	}
-	affine := len(os) < 24
+	affine := fewObs(os)
 	if !affine {
 		X0, X1, Y0, Y1 := math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
 		for _, o := range os {
@@ -372,3 +372,13 @@ func jacobian(h mat3, X, Y float64) (ex, ey [2]float64) {
 
 // dbgGrid, when set by a test, receives a line about each grid search.
 var dbgGrid func(format string, a ...any)
+
+// fewObs says the observations cannot pin the perspective terms: under
+// 24 in all, or under 10 on either axis.
+func fewObs(os []obs) bool {
+	var n [2]int
+	for _, o := range os {
+		n[o.axis]++
+	}
+	return len(os) < 24 || n[0] < 10 || n[1] < 10
+}

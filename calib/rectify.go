@@ -4,6 +4,7 @@ import (
 	"image"
 	"image/color"
 	"runtime"
+	"unsafe"
 
 	"gocv.io/x/gocv"
 )
@@ -75,4 +76,31 @@ func warpPage(src image.Image, m mat3, w, h int) (*image.NRGBA, error) {
 
 func isAffine(m mat3) bool {
 	return m[6] == 0 && m[7] == 0 && m[8] != 0
+}
+
+// warpPlane resamples a float32 plane (w×h) into a dw×dh plane where pixel
+// (x, y) takes the value at M·(x, y, 1) (bilinear, 0 outside).
+func warpPlane(src []float32, w, h int, m mat3, dw, dh int) ([]float32, error) {
+	b := unsafe.Slice((*byte)(unsafe.Pointer(&src[0])), 4*len(src))
+	sm, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV32F, b)
+	if err != nil {
+		return nil, err
+	}
+	defer sm.Close()
+	mm := gocv.NewMatWithSize(3, 3, gocv.MatTypeCV64F)
+	defer mm.Close()
+	for i := 0; i < 9; i++ {
+		mm.SetDoubleAt(i/3, i%3, m[i])
+	}
+	dst := gocv.NewMat()
+	defer dst.Close()
+	gocv.WarpPerspectiveWithParams(sm, &dst, mm, image.Pt(dw, dh), gocv.InterpolationLinear|gocv.WarpInverseMap, gocv.BorderConstant, color.RGBA{})
+	runtime.KeepAlive(src)
+	data, err := dst.DataPtrFloat32()
+	if err != nil {
+		return nil, err
+	}
+	out := make([]float32, dw*dh)
+	copy(out, data)
+	return out, nil
 }
