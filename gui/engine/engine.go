@@ -150,11 +150,14 @@ func (b *Backend) Resignal(a *model.Analysis, panels []model.Panel) (*record.Rec
 	for i, tr := range st.dr.Traces {
 		c := tr
 		c.Y = append([]float64(nil), tr.Y...)
-		if tr.Panel >= 0 && tr.Panel < len(dp) {
+		// A moved box cuts its trace to the box's new time span. The
+		// trace may stray above or below its box (printers let it), so
+		// only x is cut; an unmoved box keeps the digitizer's trace as is.
+		if tr.Panel >= 0 && tr.Panel < len(dp) && dp[tr.Panel].Box != st.dr.Panels[tr.Panel].Box {
 			box := dp[tr.Panel].Box
-			for k, y := range c.Y {
+			for k := range c.Y {
 				x := float64(tr.X0+k) + 0.5
-				if x < box[0] || x >= box[2] || y < box[1] || y >= box[3] {
+				if x < box[0] || x >= box[2] {
 					c.Y[k] = math.NaN()
 				}
 			}
