@@ -172,7 +172,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		return nil, fmt.Errorf("%w (found %d rows)", ErrLayout, len(rows))
 	}
 	pg := newPage(g, rows, cal)
-	if k, spanS, want := spanScale(float64(pg.x1)-pg.x0f, cal); k != 1 {
+	if k, spanS, want := spanScale(pg.span, cal); k != 1 {
 		rescale(cal, k, spanS, want)
 		pg.pxPerMM, pg.pxPerS = cal.PxPerMM, cal.PxPerMM*cal.SpeedMMPerS
 	}
@@ -246,6 +246,8 @@ type page struct {
 	pitch   float64
 	x0, x1  int     // the common trace span of the rows
 	x0f     float64 // the first sample's position, continuous px
+	rowX0   []float64 // per row, the first sample's position, continuous px (one clock: see timeBase)
+	span    float64   // px from the first sample to the last, the same in every row
 	pxPerS  float64
 	halfLn  float64
 	pxPerMM float64
@@ -268,12 +270,14 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	pg := &page{g: g, rows: rows, pxPerMM: cal.PxPerMM, pxPerS: cal.PxPerMM * cal.SpeedMMPerS}
 	pg.pitch = rowPitch(rows, g, cal.PxPerMM)
 	pg.halfLn = strokeHalfWidth(g, rows)
-	var starts, ends []int
+	var starts, ends, falls []int
 	for i := range rows {
 		r := &rows[i]
-		r.x0 = pulseEnd(g, r.x0, r.x1, r.base, pg.pitch, cal.PxPerMM, cal.SpeedMMPerS, cal.GainMMPerMV)
+		var fall int
+		r.x0, fall = pulseEndFall(g, r.x0, r.x1, r.base, pg.pitch, cal.PxPerMM, cal.SpeedMMPerS, cal.GainMMPerMV)
 		starts = append(starts, r.x0)
 		ends = append(ends, r.x1)
+		falls = append(falls, fall)
 	}
 	sort.Ints(starts)
 	sort.Ints(ends)
@@ -283,6 +287,23 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	pg.x1 = ends[len(ends)/2] + 1 - int(math.Round(pg.halfLn))
 	if pg.x1 <= pg.x0+8 {
 		pg.x1 = min(g.w, pg.x0+8)
+	}
+	pg.span = float64(pg.x1) - pg.x0f
+	pg.rowX0 = make([]float64, len(rows))
+	for i := range pg.rowX0 {
+		pg.rowX0[i] = pg.x0f
+	}
+	// One clock for the page, from every row's trace ends.
+	marks := make([]rowMarks, len(rows))
+	for i, r := range rows {
+		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i])
+	}
+	tol := math.Max(1.5, 0.3*cal.PxPerMM)
+	if x0s, L, ok := timeBase(rows, marks, tol); ok && L > 8 {
+		pg.rowX0, pg.span = x0s, L
+		pg.x0f = median(x0s)
+		pg.x0 = int(math.Round(pg.x0f))
+		pg.x1 = int(math.Round(pg.x0f + L))
 	}
 	return pg
 }
@@ -394,27 +415,32 @@ type segTrace struct {
 	conf []float32
 }
 
-// segBounds returns the column edges of n equal segments of the span,
-// in continuous px.
-func (pg *page) segBounds(n int) []float64 {
+// segBounds returns the column edges of n equal segments of row r's
+// span, in continuous px: every row runs on the page's one clock, from
+// its own origin.
+func (pg *page) segBounds(n, r int) []float64 {
 	out := make([]float64, n+1)
-	w := float64(pg.x1) - pg.x0f
-	colPx := w / float64(n)
-	// Snap to 2.5 s per column of a 10 s page when close (common practice).
+	colPx := pg.span / float64(n)
+	// Snap to 2.5 s per column of a 10 s page when the measured span is
+	// that to within 0.2 % (common practice; pages of 9.7–9.9 s are
+	// common too, so a looser snap would misplace every column).
 	if n > 1 {
-		if d := 10.0 / float64(n) * pg.pxPerS; math.Abs(colPx-d) < 0.03*d {
+		if d := 10.0 / float64(n) * pg.pxPerS; math.Abs(colPx-d) < 0.002*d {
 			colPx = d
 		}
 	}
-	for i := range out {
-		out[i] = pg.x0f + float64(i)*colPx
+	x0 := pg.x0f
+	if r >= 0 && r < len(pg.rowX0) {
+		x0 = pg.rowX0[r]
 	}
-	out[n] = math.Max(out[n], float64(pg.x1))
+	for i := range out {
+		out[i] = x0 + float64(i)*colPx
+	}
+	out[n] = math.Max(out[n], x0+pg.span)
 	return out
 }
 
 func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
-	xs := pg.segBounds(n)
 	margin := int(math.Ceil(pg.halfLn + 0.3*pg.pxPerMM)) // clear of separator ticks at a boundary
 	out := make([][]segTrace, len(pg.rows))
 	for r, row := range pg.rows {
@@ -422,8 +448,12 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 			return nil, err
 		}
 		out[r] = make([]segTrace, n)
+		xs := pg.segBounds(n, r)
 		for s := 0; s < n; s++ {
 			a, b := int(math.Round(xs[s])), int(math.Round(xs[s+1]))
+			if s == n-1 {
+				b = min(pg.g.w, int(math.Ceil(xs[s+1]))+1) // the column holding the last sample
+			}
 			ta, tb := a, b
 			if s > 0 {
 				ta += margin
@@ -458,8 +488,7 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 	names, prow, pcol, rhythm := leadGrid(h)
 	ncols := layoutCols[h.layout]
 	per := nseg / ncols
-	xs := pg.segBounds(nseg)
-	colDur := (xs[per] - xs[0]) / pg.pxPerS
+	colDur := (pg.segBounds(nseg, -1)[per] - pg.x0f) / pg.pxPerS
 	var panels []Panel
 	var traces []Trace
 	for i, name := range names {
@@ -471,6 +500,7 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 		if rhythm[i] {
 			s0, s1 = 0, nseg
 		}
+		xs := pg.segBounds(nseg, r)
 		bx0, bx1 := xs[s0], xs[s1]
 		base := pg.rows[r].base
 		tr := Trace{Lead: name, Panel: len(panels), X0: segs[r][s0].x0}

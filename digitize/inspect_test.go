@@ -167,7 +167,18 @@ func inspectOne(t *testing.T, seed int64, i int) {
 				see += e.MV[j] * e.MV[j]
 			}
 		}
-		t.Logf("  %-4s snr %5.1f r %.3f ls-gain %.3f start %.3f/%.3f", l, a.SNRdB, a.R, sre/see, ref.StartS, e.StartS)
+		sh, shr := wideShift(ref, e)
+		t.Logf("  %-4s snr %5.1f r %.3f ls-gain %.3f start %.3f/%.3f best shift %+.0f ms (r %.3f)", l, a.SNRdB, a.R, sre/see, ref.StartS, e.StartS, 1000*sh, shr)
+	}
+	// Where the truth's panels landed on the rectified page.
+	if inv, ok := inv3x3(cal.RectToImage); ok {
+		for _, tp := range tr.Panels {
+			ix, iy := samples.Apply(tr.PageToImage, tp.Box[0], tp.BaselineYPx)
+			rx, ry := samples.Apply(inv, ix, iy)
+			ix, iy = samples.Apply(tr.PageToImage, tp.Box[2], tp.BaselineYPx)
+			rx1, ry1 := samples.Apply(inv, ix, iy)
+			t.Logf("  truth %-4s row %d col %d x %.1f-%.1f base %.1f-%.1f t %.2f-%.2f", tp.Lead, tp.Row, tp.Col, rx, rx1, ry, ry1, tp.T0S, tp.T1S)
+		}
 	}
 	for _, p := range res.Panels {
 		t.Logf("  panel %-4s row %d col %d box %.0f,%.0f-%.0f,%.0f base %.1f t %.2f-%.2f", p.Lead, p.Row, p.Col, p.Box[0], p.Box[1], p.Box[2], p.Box[3], p.BaselineY, p.T0S, p.T1S)
@@ -239,4 +250,52 @@ func writePNG(t *testing.T, path string, img image.Image) {
 	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
 		t.Fatal(err)
 	}
+}
+
+// wideShift finds the shift of est against ref within ±300 ms (1 ms
+// steps) that maximises their correlation: est(t+shift) ≈ ref(t).
+func wideShift(ref, est *record.Signal) (shift, r float64) {
+	best, bestR := 0.0, math.Inf(-1)
+	for k := -300; k <= 300; k++ {
+		sh := float64(k) / 1000
+		var sa, sb, saa, sbb, sab, n float64
+		for i, rv := range ref.MV {
+			tt := ref.StartS + float64(i)/ref.RateHz + sh
+			j := int(math.Round((tt - est.StartS) * est.RateHz))
+			if j < 0 || j >= len(est.MV) || math.IsNaN(est.MV[j]) || math.IsNaN(rv) {
+				continue
+			}
+			ev := est.MV[j]
+			sa += rv
+			sb += ev
+			saa += rv * rv
+			sbb += ev * ev
+			sab += rv * ev
+			n++
+		}
+		if n < 50 {
+			continue
+		}
+		va, vb := saa-sa*sa/n, sbb-sb*sb/n
+		if va <= 0 || vb <= 0 {
+			continue
+		}
+		if c := (sab - sa*sb/n) / math.Sqrt(va*vb); c > bestR {
+			best, bestR = sh, c
+		}
+	}
+	return best, bestR
+}
+
+// inv3x3 inverts a row-major 3×3 matrix.
+func inv3x3(m [9]float64) ([9]float64, bool) {
+	a, b, c, d, e, f, g, h, i := m[0], m[1], m[2], m[3], m[4], m[5], m[6], m[7], m[8]
+	A, B, C := e*i-f*h, -(d*i - f*g), d*h-e*g
+	det := a*A + b*B + c*C
+	if math.Abs(det) < 1e-12 {
+		return m, false
+	}
+	return [9]float64{A / det, -(b*i - c*h) / det, (b*f - c*e) / det,
+		B / det, (a*i - c*g) / det, -(a*f - c*d) / det,
+		C / det, -(a*h - b*g) / det, (a*e - b*d) / det}, true
 }

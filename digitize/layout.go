@@ -159,6 +159,13 @@ func gaussSmooth(v []float64, sigma float64) []float64 {
 // stretch of the row (common practice: a 1 mV, 200 ms square pulse). It
 // returns x0 when none is found.
 func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) int {
+	x, _ := pulseEndFall(g, x0, x1, base, pitch, pxPerMM, speed, gain)
+	return x
+}
+
+// pulseEndFall is pulseEnd that also returns the last column of the
+// pulse's falling stroke (−1 when no pulse is found).
+func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) (int, int) {
 	tall := 0.6 * gain * pxPerMM
 	ya, yb := max(0, int(base-0.9*pitch)), min(g.h, int(base+0.4*pitch))
 	// The pulse's flat top may sit outside the band the row's span was
@@ -219,10 +226,10 @@ func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) in
 			for x+2 < x1 && !(inkedAt(x) && inkedAt(x+1) && inkedAt(x+2)) {
 				x++
 			}
-			return max(x, x0)
+			return max(x, x0), strokes[i+1]
 		}
 	}
-	return x0
+	return x0, -1
 }
 
 // hypothesis is one reading of the page: a layout and a lead order.
