@@ -244,8 +244,8 @@ type page struct {
 	g       *gray
 	rows    []rowInfo
 	pitch   float64
-	x0, x1  int     // the common trace span of the rows
-	x0f     float64 // the first sample's position, continuous px
+	x0, x1  int       // the common trace span of the rows
+	x0f     float64   // the first sample's position, continuous px
 	rowX0   []float64 // per row, the first sample's position, continuous px (one clock: see timeBase)
 	span    float64   // px from the first sample to the last, the same in every row
 	pxPerS  float64
