@@ -338,6 +338,12 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	if aniso < 0.2 || aniso > 5 {
 		aniso = 1
 	}
+	if t, ok := profileAngle(wk, aniso, 10); ok {
+		if dbgGrid != nil {
+			dbgGrid("no grid: profile angle %.3f° (spectrum %.3f°)", t*180/math.Pi, theta*180/math.Pi)
+		}
+		theta = t
+	}
 	c, s := math.Cos(theta), math.Sin(theta)
 	// Rect px → image px: undo the y stretch, then rotate about the centre.
 	Wr, Hr := b.Dx(), int(math.Ceil(H*aniso))
@@ -364,12 +370,22 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	if !inkPlausible(ink) {
 		return nil, fmt.Errorf("calib: %s: no ECG grid or trace in this picture: %w", stem(pg.Path), ErrNotECG)
 	}
-	res := &Result{Rectified: rect, Ink: ink, RectToImage: M, RotationDeg: -theta * 180 / math.Pi,
+	res := &Result{Rectified: rect, Ink: ink, RectToImage: M, RotationDeg: -math.Atan2(math.Sin(theta)/aniso, math.Cos(theta)) * 180 / math.Pi, // as seen in the (squashed) picture
 		ScaleAt: [2]float64{cxi, cyi}}
 	fileScale := 0.0
 	if pg.DPIX > 0 && pg.DPIY > 0 {
 		fileScale = pg.DPIX / 25.4 // rect x keeps the file's x resolution
 		guess = fileScale          // a better prior for reading the pulse
+	}
+	// When the paper fills the picture (a fax, a flatbed scan of the whole
+	// sheet), the picture's size over the paper's is a scale of its own.
+	bilevel, paperBorder := pageLook(pg.Image)
+	var pages []float64
+	if bilevel || paperBorder {
+		pages, _ = pagePrior(float64(Wr), float64(Hr), theta, 0.015)
+	}
+	if fileScale > 0 {
+		pages = append([]float64{fileScale}, pages...)
 	}
 	user := opt.UserPxPerMM
 	if user == 0 && opt.UserDPI > 0 {
@@ -377,9 +393,33 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	}
 	var ps []Pulse
 	if !opt.ForceUser {
-		ps = findPulses(ink, guess/5, guess*2.5)
-		ps = consistentPulses(ps, guess, 10*pulseMV)
+		lo, hi := guess/5, guess*2.5
+		if len(pages) > 0 {
+			lo, hi = math.Min(lo, pages[0]/1.3), math.Max(hi, pages[0]*1.3)
+		}
+		ps = findPulses(ink, lo, hi)
+		g0 := guess
+		if len(pages) > 0 {
+			g0 = pages[0]
+		}
+		if len(pages) > 0 {
+			// The sheet's size bounds what can be a pulse: 1 mV at 5 to
+			// 20 mm/mV, 200 ms at 12.5 to 50 mm/s, with room for error.
+			var keep []Pulse
+			for _, p := range ps {
+				hmm, wmm := p.HeightMM/pages[0], p.WidthMM/pages[0]
+				if hmm >= 3.5 && hmm <= 45 && wmm >= 1.5 && wmm <= 13 {
+					keep = append(keep, p)
+				}
+			}
+			ps = keep
+		}
+		ps = consistentPulses(ps, g0, 10*pulseMV)
 	}
+	if dbgGrid != nil {
+		dbgGrid("no grid: bilevel %v border %v pages %v (rect %d×%d, aniso %.2f) pulses %d guess %.3f", bilevel, paperBorder, pages, Wr, Hr, aniso, len(ps), guess)
+	}
+	var fit scaleFit
 	switch {
 	case opt.ForceUser && user > 0:
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
@@ -387,25 +427,59 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
 		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale given by hand is used")
 	case len(ps) > 0:
-		g, sp := pulseSettings(ps, guess, opt)
 		hs := make([]float64, len(ps))
+		ws := make([]float64, len(ps))
 		for i, p := range ps {
-			hs[i] = p.HeightMM
+			hs[i], ws[i] = p.HeightMM, p.WidthMM
 		}
-		res.PxPerMM = median(hs) / (g * pulseMV)
+		h, w := median(hs), median(ws)
+		// Edges found to about ±0.5 px each, in the picture's own pixels
+		// (the height's are aniso rect px tall).
+		n := math.Sqrt(float64(len(ps)))
+		hErr := math.Max(0.012, 0.7*math.Max(1, aniso)/h/n)
+		wErr := math.Max(0.012, 0.7/w/n)
+		fit = fuseScale(h, w, hErr, wErr, pages, 0.01, guess, opt)
+		if dbgGrid != nil {
+			dbgGrid("pulse h %.2f w %.2f (±%.3f ±%.3f): %+v", h, w, hErr, wErr, fit)
+		}
+		if fit.paper < 0 && len(pages) > 0 && bilevel {
+			// A fax whose "pulse" the sheet's size cannot explain at any
+			// standard setting: the sheet is the better witness.
+			res.Source, res.PxPerMM, res.Confidence = "page", pages[0], 0.25
+			res.Warnings = append(res.Warnings, "no grid found, and what looks like a calibration pulse fits no standard setting at this sheet's size: the scale assumes the fax holds a whole A4 or Letter sheet; check it against a known distance")
+			ps = nil
+			break
+		}
+		res.PxPerMM = fit.s
 		res.Source = "pulse"
 		res.Confidence = math.Min(0.6, 0.3+0.1*float64(len(ps)))
-		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s (the likeliest standard settings for its shape and the page size)", g, sp))
+		how := "its height and width"
+		if fit.paper >= 0 {
+			res.Confidence = math.Min(0.75, res.Confidence+0.15)
+			how = "its height and width and the page's size"
+		}
+		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s (the standard settings that best explain %s)", fit.gain, fit.spd, how))
+		if fit.paper < 0 && len(pages) > 0 {
+			res.Confidence *= 0.6
+			res.Warnings = append(res.Warnings, "the calibration pulse and the sheet's size disagree; the pulse is used")
+		}
+		if fit.margin < 3 {
+			res.Confidence *= 0.5
+			res.Warnings = append(res.Warnings, "the calibration pulse fits other standard settings almost as well: check the gain, the speed and the scale against the printed settings")
+		}
 	case user > 0:
 		res.Source, res.PxPerMM, res.Confidence = "user", user, 0.5
 		res.Warnings = append(res.Warnings, "no grid found: the scale given by hand is used")
 	case fileScale > 0:
 		res.Source, res.PxPerMM, res.Confidence = "file", fileScale, 0.4
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the resolution the file states (%.0f×%.0f dpi)", pg.DPIX, pg.DPIY))
+	case bilevel && len(pages) > 0:
+		// A fax with neither grid nor pulse: the sheet fills the scan.
+		res.Source, res.PxPerMM, res.Confidence = "page", pages[0], 0.25
+		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale assumes the fax holds a whole A4 or Letter sheet; check it against a known distance")
 	default:
 		return nil, fmt.Errorf("calib: %s: %w", stem(pg.Path), ErrNoScale)
 	}
-	rawPulses := append([]Pulse(nil), ps...)
 	res.PxPerMMX, res.PxPerMMY = res.PxPerMM, res.PxPerMM/aniso
 	if math.Abs(theta) > 0.25 {
 		// The page lies across: the squash applies to the rotated frame only
@@ -419,8 +493,8 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	}
 	res.Pulses = ps
 	if res.Source == "pulse" {
-		// The height defined the scale; only the speed is measured.
-		res.GainMMPerMV, res.SpeedMMPerS = pulseSettings(rawPulses, guess, opt)
+		// The pulse's settings came with the scale.
+		res.GainMMPerMV, res.SpeedMMPerS = fit.gain, fit.spd
 	} else {
 		res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, ps, opt)
 	}
@@ -461,44 +535,6 @@ func consistentPulses(ps []Pulse, guess, gain float64) []Pulse {
 		return nil
 	}
 	return best
-}
-
-// pulseSettings picks the standard gain and speed that best explain a
-// pulse measured in px when nothing else gives the scale: its width over
-// height is 0.2 s·speed / (1 mV·gain), and the implied scale should be
-// near the page-size guess. Priors: 10 mm/mV and 25 mm/s are the
-// standard (Kligfield et al. 2007); the others are less common (the
-// weights are from memory).
-func pulseSettings(ps []Pulse, guess float64, opt Options) (float64, float64) {
-	hs := make([]float64, len(ps))
-	ws := make([]float64, len(ps))
-	for i, p := range ps {
-		hs[i], ws[i] = p.HeightMM, p.WidthMM
-	}
-	h, w := median(hs), median(ws)
-	gains := []float64{10, 5, 20}
-	gp := []float64{0.7, 0.15, 0.15}
-	speeds := []float64{25, 50}
-	sp := []float64{0.85, 0.15}
-	if opt.StatedGainMMPerMV > 0 {
-		gains, gp = []float64{opt.StatedGainMMPerMV}, []float64{1}
-	}
-	if opt.StatedSpeedMMPerS > 0 {
-		speeds, sp = []float64{opt.StatedSpeedMMPerS}, []float64{1}
-	}
-	bg, bs, best := 10.0, 25.0, math.Inf(-1)
-	for i, g := range gains {
-		for j, v := range speeds {
-			ppm := h / (g * pulseMV)
-			e1 := math.Abs(math.Log(pulseS * v * ppm / w))
-			e2 := math.Abs(math.Log(ppm / guess))
-			sc := -e1/0.08 - e2/0.25 + math.Log(gp[i]*sp[j])
-			if sc > best {
-				bg, bs, best = g, v, sc
-			}
-		}
-	}
-	return bg, bs
 }
 
 // UserScaleFromPoints gives px/mm from two points a known distance apart

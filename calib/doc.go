@@ -26,8 +26,9 @@
 // on top to make the traces read left to right; ScaleAt is where under
 // perspective PxPerMMX, PxPerMMY and RotationDeg hold. Source is "grid",
 // "pulse" (no grid: the pulse read at the likeliest standard settings),
-// "user" (a scale given by hand) or "file" (no grid or pulse: the
-// resolution the file states).
+// "user" (a scale given by hand), "file" (no grid or pulse: the
+// resolution the file states) or "page" (a fax with neither: the picture's
+// size over an A4 or Letter sheet's).
 //
 // OpenCV (through gocv) does the resampling; Mats stay inside this package
 // and pixels leave it as Go images.

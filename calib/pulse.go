@@ -244,7 +244,13 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 	g, okG := snap(hm/pulseMV, stdGains, 0.1)
 	gain = g
 	if !okG {
-		warn = append(warn, fmt.Sprintf("calibration pulse is %.2f mm tall: gain %.2f mm/mV is not a standard setting", hm, g))
+		// What looked like a pulse is no standard one (a box of text, a
+		// lead-switch mark): not a gain to trust.
+		gain = 10
+		if statedG > 0 {
+			gain = statedG
+		}
+		warn = append(warn, fmt.Sprintf("a calibration pulse candidate is %.2f mm tall, which is no standard gain; %.4g mm/mV is assumed, not measured", hm, gain))
 	}
 	sp, okS := snap(wm/pulseS, stdSpeeds, 0.15)
 	speed = sp
@@ -257,7 +263,7 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 		}
 		warn = append(warn, fmt.Sprintf("calibration pulse is %.2f mm wide, which is not 200 ms at a standard speed; speed %.4g mm/s is assumed", wm, speed))
 	}
-	if statedG > 0 && math.Abs(statedG-gain)/statedG > 0.1 {
+	if statedG > 0 && okG && math.Abs(statedG-gain)/statedG > 0.1 {
 		warn = append(warn, fmt.Sprintf("calibration pulse says %.4g mm/mV but %.4g mm/mV was stated; the pulse is used", gain, statedG))
 	}
 	if statedS > 0 && okS && math.Abs(statedS-speed)/statedS > 0.1 {

@@ -53,7 +53,7 @@ type Result struct {
 
 	GainMMPerMV float64
 	SpeedMMPerS float64
-	Source      string  // "grid", "pulse", "user", or "file" (no grid or pulse; the file's stated dpi): where the scale came from
+	Source      string  // "grid", "pulse", "user", "file" (no grid or pulse; the file's stated dpi) or "page" (a fax with no grid or pulse; the sheet's size): where the scale came from
 	Confidence  float64 // 0..1
 	Pulses      []Pulse
 

@@ -57,7 +57,11 @@ func pct(a []float64, p float64) float64 {
 // sweep renders n cases per condition and measures them.
 func sweep(t *testing.T, n int, base int64) map[string]*sweepRow {
 	rows := map[string]*sweepRow{}
+	only := os.Getenv("TRACELIFT_SWEEP_COND") // one condition, for a quicker look
 	for _, cond := range samples.Conditions {
+		if only != "" && cond != only {
+			continue
+		}
 		r := &sweepRow{cond: cond, sources: map[string]int{}}
 		rows[cond] = r
 		for i := 0; i < n; i++ {
@@ -103,7 +107,10 @@ func sweep(t *testing.T, n int, base int64) map[string]*sweepRow {
 func printSweep(t *testing.T, rows map[string]*sweepRow, w *strings.Builder) {
 	fmt.Fprintf(w, "%-10s %5s %5s %7s %9s %9s %9s %8s %8s %8s %7s  %s\n", "condition", "cases", "fail", "noscale", "med px/mm", "p95 px/mm", "max", "p95 rot", "gain ok", "speed ok", "ms med", "sources")
 	for _, cond := range samples.Conditions {
-		r := rows[cond]
+		r, ok := rows[cond]
+		if !ok {
+			continue
+		}
 		fmt.Fprintf(w, "%-10s %5d %5d %7d %8.3f%% %8.3f%% %8.3f%% %7.3f° %4d/%-3d %4d/%-3d %7.0f  %v\n", cond, len(r.ms), r.fails, r.noScale,
 			100*pct(r.errs, 0.5), 100*pct(r.errs, 0.95), 100*pct(r.errs, 1), pct(r.rot, 0.95), r.gainOK, r.gainN, r.spOK, r.speedN, pct(r.ms, 0.5), r.sources)
 	}
@@ -138,7 +145,10 @@ func TestScaleSweep(t *testing.T) {
 		return // a benchmark table, not a pass/fail test
 	}
 	for _, cond := range samples.Conditions {
-		r := rows[cond]
+		r, ok := rows[cond]
+		if !ok {
+			continue
+		}
 		if cond == "fax" {
 			continue // the renderer's faxes often lose the grid; the pulse sets the scale (checked in TestPulseFallbackFax)
 		}

@@ -1,0 +1,81 @@
+package calib
+
+import (
+	"context"
+	"math"
+	"math/rand"
+	"strings"
+	"testing"
+
+	"tracelift/samples"
+	"tracelift/samples/dipole"
+)
+
+// A fax with neither grid nor pulse: the sheet fills the scan, so its
+// size (A4, 297 × 210 mm, ISO 216) gives the scale along the fine axis
+// (the renderer faxes at 200 × 100 dpi; its truth is the reference).
+func TestFaxScaleFromSheet(t *testing.T) {
+	rec := dipole.Generate(dipole.Params{Seed: 4})
+	st := samples.DefaultStyle()
+	st.Grid = samples.GridNone
+	st.Pulses = false
+	p, err := samples.Render(rec, st)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d := samples.Condition("fax", rand.New(rand.NewSource(11)))
+	d.RotationDeg = 0.8
+	if p, err = samples.Degrade(p, d); err != nil {
+		t.Fatal(err)
+	}
+	res, err := Detect(context.Background(), &Page{Image: p.Image}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := p.Truth
+	if res.Source != "page" || math.Abs(res.PxPerMMX/tr.PxPerMMX-1) > 0.01 || math.Abs(res.PxPerMMY/tr.PxPerMMY-1) > 0.015 {
+		t.Errorf("source %q px/mm %.3f×%.3f, truth %.3f×%.3f", res.Source, res.PxPerMMX, res.PxPerMMY, tr.PxPerMMX, tr.PxPerMMY)
+	}
+	if math.Abs(res.RotationDeg-tr.RotationDeg) > 0.1 {
+		t.Errorf("rotation %.3f°, truth %.3f°", res.RotationDeg, tr.RotationDeg)
+	}
+	if res.Confidence > 0.4 || len(res.Warnings) == 0 {
+		t.Errorf("a scale from the sheet's size alone: confidence %.2f, warnings %q", res.Confidence, res.Warnings)
+	}
+}
+
+// A "pulse" of no standard height (3 mm: not 2.5, 5, 10, 20 or 40 mm/mV,
+// Kligfield et al. 2007) is not taken as a gain: 10 mm/mV, the standard,
+// is assumed with a warning.
+func TestNonStandardPulseGain(t *testing.T) {
+	g, sp, warn := settleSettings([]Pulse{{HeightMM: 3.05, WidthMM: 5}}, Options{})
+	if g != 10 || sp != 25 {
+		t.Errorf("gain %v speed %v, want 10 and 25", g, sp)
+	}
+	if len(warn) == 0 || !strings.Contains(warn[0], "assumed") {
+		t.Errorf("warnings %q", warn)
+	}
+	g, _, _ = settleSettings([]Pulse{{HeightMM: 3.05, WidthMM: 5}}, Options{StatedGainMMPerMV: 20})
+	if g != 20 {
+		t.Errorf("stated 20 mm/mV, got %v", g)
+	}
+}
+
+// The sheet sizes behind pagePrior: an A4 landscape sheet (297 × 210 mm,
+// ISO 216) scanned at 8 px/mm, straight and turned 1° inside a canvas
+// grown around it.
+func TestPagePrior(t *testing.T) {
+	s, _ := pagePrior(297*8, 210*8, 0, 0.015)
+	if len(s) == 0 || math.Abs(s[0]-8) > 1e-9 {
+		t.Fatalf("straight A4: %v", s)
+	}
+	th := math.Pi / 180
+	c, sn := math.Cos(th), math.Sin(th)
+	s, _ = pagePrior(8*(297*c+210*sn), 8*(297*sn+210*c), th, 0.015)
+	if len(s) == 0 || math.Abs(s[0]/8-1) > 1e-6 {
+		t.Fatalf("turned A4: %v", s)
+	}
+	if s, _ := pagePrior(4000, 3000, 0, 0.015); len(s) != 0 {
+		t.Errorf("a 4:3 photo frame is no sheet: %v", s)
+	}
+}
