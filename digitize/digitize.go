@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"image"
 	"math"
 	"sort"
 	"strings"
@@ -172,6 +173,31 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		return nil, fmt.Errorf("%w (found %d rows)", ErrLayout, len(rows))
 	}
 	pg := newPage(g, rows, cal)
+	if deg := math.Abs(math.Atan(pg.shear)) * 180 / math.Pi; pg.shearFitted && deg >= minDeskewDeg && deg <= maxDeskewDeg && zeroOrigin(cal) {
+		// Turn the page straight and find the rows again; keep the turn
+		// only when the same rows come back.
+		saved := *cal
+		saved.Pulses = append([]calib.Pulse(nil), cal.Pulses...)
+		saved.Warnings = append([]string(nil), cal.Warnings...)
+		deskew(cal, pg.shear, pg.x0f+pg.span/2, meanBase(rows))
+		ink2 := cal.Ink
+		if ink2 == nil {
+			ink2 = InkFromRGB(cal.Rectified)
+		}
+		g2 := prepare(ink2, p)
+		rows2 := findRows(g2, p)
+		if opt.Layout == "" {
+			rows2 = trimRows(rows2)
+		} else if layoutRows[opt.Layout] != len(rows2) {
+			rows2 = fitRows(rows2, layoutRows[opt.Layout])
+		}
+		if len(rows2) == len(rows) {
+			g, rows = g2, rows2
+			pg = newPage(g, rows, cal)
+		} else {
+			*cal = saved
+		}
+	}
 	if k, spanS, want := spanScale(pg.span, cal); k != 1 {
 		rescale(cal, k, spanS, want)
 		pg.pxPerMM, pg.pxPerS = cal.PxPerMM, cal.PxPerMM*cal.SpeedMMPerS
@@ -241,16 +267,18 @@ func fitRows(rows []rowInfo, n int) []rowInfo {
 
 // page holds what every hypothesis shares.
 type page struct {
-	g       *gray
-	rows    []rowInfo
-	pitch   float64
-	x0, x1  int       // the common trace span of the rows
-	x0f     float64   // the first sample's position, continuous px
-	rowX0   []float64 // per row, the first sample's position, continuous px (one clock: see timeBase)
-	span    float64   // px from the first sample to the last, the same in every row
-	pxPerS  float64
-	halfLn  float64
-	pxPerMM float64
+	g           *gray
+	rows        []rowInfo
+	pitch       float64
+	x0, x1      int       // the common trace span of the rows
+	x0f         float64   // the first sample's position, continuous px
+	rowX0       []float64 // per row, the first sample's position, continuous px (one clock: see timeBase)
+	span        float64   // px from the first sample to the last, the same in every row
+	shear       float64   // d(row origin x)/dy from the time base fit
+	shearFitted bool      // shear was fitted (three or more rows' ends agree)
+	pxPerS      float64
+	halfLn      float64
+	pxPerMM     float64
 }
 
 // rowPitch is the median spacing of the rows, px.
@@ -295,12 +323,19 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	}
 	// One clock for the page, from every row's trace ends.
 	marks := make([]rowMarks, len(rows))
+	capHW := strokeHalfWidthQ(g, rows, 0.2)
+	// The coarse extents err outward at the ends (specks within 3 mm
+	// of the trace join it) and inward at the starts (a pulse's lead-out
+	// is skipped with the gap): the shortest of them is the safe guard.
+	startRef := starts[len(starts)-1]
+	endRef := ends[0]
 	for i, r := range rows {
-		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i])
+		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i], capHW, startRef, endRef)
 	}
 	tol := math.Max(1.5, 0.3*cal.PxPerMM)
-	if x0s, L, ok := timeBase(rows, marks, tol); ok && L > 8 {
+	if x0s, L, b, fitted, ok := timeBase(rows, marks, tol); ok && L > 8 {
 		pg.rowX0, pg.span = x0s, L
+		pg.shear, pg.shearFitted = b, fitted
 		pg.x0f = median(x0s)
 		pg.x0 = int(math.Round(pg.x0f))
 		pg.x1 = int(math.Round(pg.x0f + L))
@@ -312,6 +347,13 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 // of a pixel: across a flat stretch of line the ink coverage summed down
 // a column is the line's width (the blur keeps sums).
 func strokeHalfWidth(g *gray, rows []rowInfo) float64 {
+	return strokeHalfWidthQ(g, rows, 0.5)
+}
+
+// strokeHalfWidthQ is strokeHalfWidth at quantile q of the columns
+// sampled: a slope only thickens a line down a column, so a low quantile
+// is the width across the line itself.
+func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
 	pix := g.raw
 	if pix == nil {
 		pix = g.pix
@@ -364,7 +406,7 @@ func strokeHalfWidth(g *gray, rows []rowInfo) float64 {
 		return 1
 	}
 	sort.Float64s(ws)
-	return math.Max(0.5, ws[len(ws)/2]/2)
+	return math.Max(0.5, ws[int(q*float64(len(ws)-1))]/2)
 }
 
 // startEdge returns the left edge of the ink where the traces begin, to
@@ -539,28 +581,34 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 }
 
 // nameRhythms names each rhythm strip after the panel it matches over
-// that panel's window (the same lead drawn twice correlates almost
-// perfectly); strips that match nothing keep their default name.
+// that panel's window: the same lead drawn twice matches in shape and in
+// size, so the match is the residual of the strip less the panel (means
+// removed) relative to the panel's own spread. Correlation alone cannot
+// tell II from aVF when the axis lies between them. Strips that match
+// nothing keep their default name.
 func nameRhythms(panels []Panel, traces []Trace) {
 	for i := range panels {
 		if !panels[i].Rhythm {
 			continue
 		}
-		bestR, bestJ := 0.0, -1
+		best, bestJ, bestSign := math.Inf(1), -1, 1.0
 		for j := range panels {
 			if panels[j].Rhythm {
 				continue
 			}
-			r := corrOver(traces[i], traces[j])
-			if math.Abs(r) > math.Abs(bestR) {
-				bestR, bestJ = r, j
+			for _, sg := range []float64{1, -1} {
+				if e := relResidual(traces[i], traces[j], sg); e < best {
+					best, bestJ, bestSign = e, j, sg
+				}
 			}
 		}
-		if bestJ < 0 || math.Abs(bestR) < 0.9 {
+		// 0.45: a relative residual of 0.45 is a correlation near 0.9
+		// for a same-sized lead.
+		if bestJ < 0 || best > 0.45 {
 			continue
 		}
 		name := panels[bestJ].Lead
-		if bestR < 0 {
+		if bestSign < 0 {
 			if strings.HasPrefix(name, "-") {
 				name = strings.TrimPrefix(name, "-")
 			} else {
@@ -571,11 +619,12 @@ func nameRhythms(panels []Panel, traces []Trace) {
 	}
 }
 
-// corrOver is the Pearson correlation of two traces over their common
-// columns (the same columns are the same instants on the tracing clock).
-func corrOver(a, b Trace) float64 {
+// relResidual is the RMS of a − sign·b over their common columns (means
+// removed), relative to b's RMS about its mean; +Inf when they share too
+// little.
+func relResidual(a, b Trace, sign float64) float64 {
 	lo, hi := max(a.X0, b.X0), min(a.X0+len(a.Y), b.X0+len(b.Y))
-	var sa, sb, saa, sbb, sab, n float64
+	var sa, sb, n float64
 	for x := lo; x < hi; x++ {
 		u, v := a.Y[x-a.X0], b.Y[x-b.X0]
 		if math.IsNaN(u) || math.IsNaN(v) {
@@ -583,19 +632,26 @@ func corrOver(a, b Trace) float64 {
 		}
 		sa += u
 		sb += v
-		saa += u * u
-		sbb += v * v
-		sab += u * v
 		n++
 	}
 	if n < 10 {
-		return 0
+		return math.Inf(1)
 	}
-	va, vb := saa-sa*sa/n, sbb-sb*sb/n
-	if va <= 0 || vb <= 0 {
-		return 0
+	ma, mb := sa/n, sb/n
+	var ee, bb float64
+	for x := lo; x < hi; x++ {
+		u, v := a.Y[x-a.X0], b.Y[x-b.X0]
+		if math.IsNaN(u) || math.IsNaN(v) {
+			continue
+		}
+		d := (u - ma) - sign*(v-mb)
+		ee += d * d
+		bb += (v - mb) * (v - mb)
 	}
-	return (sab - sa*sb/n) / math.Sqrt(va*vb)
+	if bb <= 0 {
+		return math.Inf(1)
+	}
+	return math.Sqrt(ee / bb)
 }
 
 // windowsOf returns the column windows of simultaneous panels.
@@ -651,4 +707,19 @@ func lawScore(rec *record.Record, wins []window) float64 {
 		return 0
 	}
 	return er / es
+}
+
+// zeroOrigin reports whether cal's images start at (0, 0).
+func zeroOrigin(cal *calib.Result) bool {
+	return (cal.Ink == nil || cal.Ink.Rect.Min == (image.Point{})) &&
+		(cal.Rectified == nil || cal.Rectified.Rect.Min == (image.Point{}))
+}
+
+// meanBase is the mean baseline of the rows, px.
+func meanBase(rows []rowInfo) float64 {
+	s := 0.0
+	for _, r := range rows {
+		s += r.base
+	}
+	return s / float64(max(1, len(rows)))
 }

@@ -181,7 +181,7 @@ func inspectOne(t *testing.T, seed int64, i int) {
 		}
 	}
 	for _, p := range res.Panels {
-		t.Logf("  panel %-4s row %d col %d box %.0f,%.0f-%.0f,%.0f base %.1f t %.2f-%.2f", p.Lead, p.Row, p.Col, p.Box[0], p.Box[1], p.Box[2], p.Box[3], p.BaselineY, p.T0S, p.T1S)
+		t.Logf("  panel %-4s row %d col %d box %.1f,%.0f-%.1f,%.0f base %.1f t %.2f-%.2f", p.Lead, p.Row, p.Col, p.Box[0], p.Box[1], p.Box[2], p.Box[3], p.BaselineY, p.T0S, p.T1S)
 	}
 	// Traces over the rectified page in red.
 	b := cal.Rectified.Bounds()
@@ -298,4 +298,50 @@ func inv3x3(m [9]float64) ([9]float64, bool) {
 	return [9]float64{A / det, -(b*i - c*h) / det, (b*f - c*e) / det,
 		B / det, (a*i - c*g) / det, -(a*f - c*d) / det,
 		C / det, -(a*h - b*g) / det, (a*e - b*d) / det}, true
+}
+
+// TestInspectDemo digitizes the embedded demo printout whose name holds
+// TRACELIFT_DEMO and logs per-lead SNR and the best wide shift, and
+// plots truth against traces to /tmp/dz/demo_plot.png.
+//
+//	TRACELIFT_DEMO=clean go test -run TestInspectDemo -v ./digitize
+func TestInspectDemo(t *testing.T) {
+	want := os.Getenv("TRACELIFT_DEMO")
+	if want == "" {
+		t.Skip("set TRACELIFT_DEMO to part of a demo's name")
+	}
+	for _, d := range samples.Demo() {
+		if !strings.Contains(d.Name, want) {
+			continue
+		}
+		pg, err := calib.Decode(d.Data, d.Name, calib.LoadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		cal, err := calib.Detect(context.Background(), pg, calib.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		res, err := Run(context.Background(), cal, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		truth, err := d.TruthRecord()
+		if err != nil {
+			t.Fatal(err)
+		}
+		acc := scoreLeads(truth, res.Record)
+		t.Logf("%s: layout %s px/mm %.3f median %.1f warn %v", d.Name, res.Layout, cal.PxPerMM, medianSNR(acc), cal.Warnings)
+		for _, l := range truth.Leads() {
+			if e := res.Record.Lead(l); e != nil {
+				sh, r := wideShift(truth.Lead(l), e)
+				t.Logf("  %-4s snr %5.1f best shift %+.0f ms (r %.4f)", l, acc[l].SNRdB, 1000*sh, r)
+			}
+		}
+		for _, p := range res.Panels {
+			t.Logf("  panel %-4s row %d col %d box %.1f,%.0f-%.1f,%.0f base %.1f t %.3f-%.3f", p.Lead, p.Row, p.Col, p.Box[0], p.Box[1], p.Box[2], p.Box[3], p.BaselineY, p.T0S, p.T1S)
+		}
+		os.MkdirAll("/tmp/dz", 0o755)
+		plotLeads(t, "/tmp/dz/demo_plot.png", truth, res.Record)
+	}
 }

@@ -24,17 +24,17 @@ type rowMarks struct {
 	okStart, okEnd bool
 }
 
-// inkOn is the working-map level counted as ink when following a trace
-// to its ends.
+// inkOn is the highest working-map level needed to count as ink when
+// following a trace to its ends.
 const inkOn = 64
 
 // runAt returns the run of ink in column x of [ya, yb) that overlaps
 // [lo−slack, hi+slack], extended along contiguous ink; ok is false when
 // no ink overlaps.
-func runAt(g *gray, x, ya, yb, lo, hi, slack int) (a, z int, ok bool) {
+func runAt(g *gray, x, ya, yb, lo, hi, slack int, on uint8) (a, z int, ok bool) {
 	a, z = -1, -1
 	for y := max(ya, lo-slack); y <= min(yb-1, hi+slack); y++ {
-		if g.pix[y*g.w+x] >= inkOn {
+		if g.pix[y*g.w+x] >= on {
 			if a < 0 {
 				a = y
 			}
@@ -44,10 +44,10 @@ func runAt(g *gray, x, ya, yb, lo, hi, slack int) (a, z int, ok bool) {
 	if a < 0 {
 		return 0, 0, false
 	}
-	for a > ya && g.pix[(a-1)*g.w+x] >= inkOn {
+	for a > ya && g.pix[(a-1)*g.w+x] >= on {
 		a--
 	}
-	for z < yb-1 && g.pix[(z+1)*g.w+x] >= inkOn {
+	for z < yb-1 && g.pix[(z+1)*g.w+x] >= on {
 		z++
 	}
 	return a, z, true
@@ -57,8 +57,9 @@ func runAt(g *gray, x, ya, yb, lo, hi, slack int) (a, z int, ok bool) {
 // near y) in direction dir (−1 left, +1 right) until no ink continues it
 // for more than gap columns, and returns the last inked column reached
 // and the y range of the run there. Steep strokes are followed since a
-// stroke's run overlaps its neighbours'. stop bounds the walk.
-func walkTrace(g *gray, x, y, ya, yb, dir, gap, stop int) (last, lo, hi int, ok bool) {
+// stroke's run overlaps its neighbours'. Ink found after a break counts
+// only when it goes on for solid columns. stop bounds the walk.
+func walkTrace(g *gray, x, y, ya, yb, dir, gap, solid, stop int, on uint8) (last, lo, hi int, ok bool) {
 	// Find the trace near y in column x, or in a few columns beside it.
 	lo, hi = -1, -1
 	for d := 0; d < 12 && lo < 0; d++ {
@@ -68,10 +69,10 @@ func walkTrace(g *gray, x, y, ya, yb, dir, gap, stop int) (last, lo, hi int, ok 
 		}
 		best := math.MaxInt
 		for yy := ya; yy < yb; yy++ {
-			if g.pix[yy*g.w+xx] >= inkOn {
+			if g.pix[yy*g.w+xx] >= on {
 				if dd := abs(yy - y); dd < best {
 					best = dd
-					if a, z, f := runAt(g, xx, ya, yb, yy, yy, 0); f {
+					if a, z, f := runAt(g, xx, ya, yb, yy, yy, 0, on); f {
 						lo, hi = a, z
 					}
 				}
@@ -84,8 +85,22 @@ func walkTrace(g *gray, x, y, ya, yb, dir, gap, stop int) (last, lo, hi int, ok 
 	}
 	last = x
 	miss := 0
-	for xx := x + dir; xx >= 0 && xx < g.w && (dir < 0 && xx >= stop || dir > 0 && xx <= stop); xx += dir {
-		a, z, f := runAt(g, xx, ya, yb, lo, hi, 2+miss)
+	inside := func(xx int) bool {
+		return xx >= 0 && xx < g.w && (dir < 0 && xx >= stop || dir > 0 && xx <= stop)
+	}
+	for xx := x + dir; inside(xx); xx += dir {
+		a, z, f := runAt(g, xx, ya, yb, lo, hi, 2+min(miss, 2), on)
+		if f && miss > 0 {
+			// Across a break the trace goes on for a while; a speck
+			// beside the end does not.
+			pa, pz := a, z
+			for d := 1; d <= solid && f; d++ {
+				if !inside(xx + d*dir) {
+					break
+				}
+				pa, pz, f = runAt(g, xx+d*dir, ya, yb, pa, pz, 2, on)
+			}
+		}
 		if !f {
 			miss++
 			if miss > gap {
@@ -107,99 +122,171 @@ func abs(v int) int {
 }
 
 // capEdge refines the trace end at column last (the outermost inked
-// column reached walking in direction dir) to the position of the first
-// or last sample, to a fraction of a pixel. Over a window inside the end
-// the column sums of the ink across the line give the line's full
-// column sum; the area of ink from a reference column outward, in units
-// of that full sum, is the length of line beyond the reference, which
-// for a round cap of half width hw reaches π·hw/4 beyond the sample
-// (half a disk's area over the line's width 2·hw).
-func capEdge(g *gray, last, lo, hi, dir int, pxPerMM float64) float64 {
+// column of the working map reached walking in direction dir) to the
+// position of the first or last sample, to a fraction of a pixel. A
+// round cap reaches half a line width hw beyond the sample in every
+// direction of travel, so the sample stands hw inside the outermost ink;
+// the outermost column's strongest pixel, as a fraction of the line's
+// core level, says how far into that column the ink reaches.
+func capEdge(g *gray, last, lo, hi, dir int, pxPerMM, hw float64) float64 {
 	pix := g.raw
 	if pix == nil {
 		pix = g.pix
 	}
 	k := max(3, int(math.Round(0.5*pxPerMM)))
-	ya, yb := max(0, lo-k), min(g.h, hi+k+1)
-	colSum := func(x int) (s, core float64) {
+	// The working map's blur already widens the run by a pixel; a wider
+	// window would let specks beside the cap in.
+	ya, yb := max(0, lo-1), min(g.h, hi+2)
+	colMax := func(x int) float64 {
 		if x < 0 || x >= g.w {
-			return 0, 0
+			return 0
 		}
+		m := 0.0
 		for y := ya; y < yb; y++ {
-			v := float64(pix[y*g.w+x])
-			s += v
-			core = math.Max(core, v)
+			m = math.Max(m, float64(pix[y*g.w+x]))
 		}
-		return s, core
+		return m
 	}
-	// Full column sum: the median over columns well inside the end.
-	var fulls, cores []float64
+	// The line's core level: the median column maximum well inside.
+	var cores []float64
 	for d := k; d < 3*k; d++ {
-		s, c := colSum(last - dir*d)
-		fulls = append(fulls, s)
-		cores = append(cores, c)
+		cores = append(cores, colMax(last-dir*d))
 	}
-	sort.Float64s(fulls)
-	sort.Float64s(cores)
-	full, core := fulls[len(fulls)/2], cores[len(cores)/2]
-	if full <= 0 || core <= 0 {
+	core := median(cores)
+	if core <= 0 {
 		return float64(last) + 0.5
 	}
-	// Reference column k inside the end; area outward of it.
-	ref := last - dir*k
-	area := 0.0
-	for x := ref; x != last+dir*(k+1); x += dir {
-		s, _ := colSum(x)
-		area += math.Min(1, s/full)
+	// Outermost column holding a tenth of the core or more, searched a
+	// couple of columns either side of where the working map's ink ends
+	// (its blur spreads the ink by a pixel).
+	out := last - 2*dir
+	for x := last - 2*dir; x != last+4*dir; x += dir {
+		if colMax(x) < 0.25*core {
+			break
+		}
+		out = x
 	}
-	// The reference column's outer edge in continuous px.
+	f := math.Min(1, colMax(out)/core)
 	var edge float64
 	if dir > 0 {
-		edge = float64(ref) + area
+		edge = float64(out) + f
 	} else {
-		edge = float64(ref+1) - area
+		edge = float64(out+1) - f
 	}
-	hw := full / core / 2
-	hw = math.Min(hw, 0.6*pxPerMM)
-	return edge - float64(dir)*math.Pi/4*hw
+	return edge - float64(dir)*hw
 }
 
 // measureRow finds one row's trace ends. fallX is the last column of
 // the falling stroke of the row's calibration pulse (−1 when there is
 // none): a start walk that reaches it has run along the pulse's lead-out
 // into the trace, and the start is then unknown.
-func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int) rowMarks {
+//
+// startRef and endRef are where the rows' ink coarsely starts and ends
+// (after any pulse): a walk that stops more than 3 mm inside them lost
+// the trace at a break.
+func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float64, startRef, endRef int) rowMarks {
 	var m rowMarks
 	ya, yb := max(0, int(r.base-0.95*pitch)), min(g.h, int(r.base+0.95*pitch))
 	span := r.x1 - r.x0
 	if span < 20 {
 		return m
 	}
-	gap := max(2, int(math.Round(0.25*pxPerMM)))
+	// Breaks up to 1 mm are bridged (a removed grid line across a faint
+	// trace, fax dropouts); what follows a break must run on 0.3 mm.
+	gap := max(2, int(math.Round(1.0*pxPerMM)))
+	solid := max(3, int(math.Round(0.3*pxPerMM)))
+	// Ink is what reaches a third of the trace's usual strength in this
+	// row (the median over columns of the column maximum): a faint trace
+	// on a dark grid stays below a fixed level in places.
+	var cm []int
+	for x := r.x0; x < r.x1; x += 3 {
+		m := 0
+		for yy := ya; yy < yb; yy++ {
+			m = max(m, int(g.pix[yy*g.w+x]))
+		}
+		cm = append(cm, m)
+	}
+	sort.Ints(cm)
+	on := uint8(inkOn)
+	if len(cm) > 0 {
+		on = uint8(min(inkOn, max(24, cm[len(cm)/2]/3)))
+	}
 	y := int(r.base)
 	// End: walk right from well inside.
-	if last, lo, hi, ok := walkTrace(g, r.x1-span/8, y, ya, yb, +1, gap, g.w-1); ok {
-		m.end = capEdge(g, last, lo, hi, +1, pxPerMM)
-		m.okEnd = last < g.w-2 // a trace cut by the image edge has no end
+	if last, lo, hi, ok := walkTrace(g, r.x1-span/8, y, ya, yb, +1, gap, solid, g.w-1, on); ok {
+		m.end = capEdge(g, last, lo, hi, +1, pxPerMM, hw)
+		// A trace cut by the image edge has no end; a walk that stopped
+		// well short of where the row's ink ends lost the trace.
+		m.okEnd = last < g.w-2 && last >= endRef-int(3*pxPerMM)
 	}
 	// Start: walk left from well inside, not into the pulse.
 	stop := 0
 	if fallX >= 0 {
 		stop = fallX + 1
 	}
-	if last, lo, hi, ok := walkTrace(g, r.x0+span/8, y, ya, yb, -1, gap, stop); ok {
-		m.start = capEdge(g, last, lo, hi, -1, pxPerMM)
-		m.okStart = last > 1 && (fallX < 0 || last > stop+gap)
+	if last, lo, hi, ok := walkTrace(g, r.x0+span/8, y, ya, yb, -1, gap, solid, stop, on); ok {
+		merged := fallX >= 0 && last <= stop+gap
+		if merged {
+			// The walk ran along the pulse's lead-out: the trace starts
+			// after the first dip in the ink along that level.
+			c := min(g.w-1, stop+max(3, int(0.4*pxPerMM)))
+			if a, z, ok := runAt(g, c, ya, yb, y, y, max(3, int(pxPerMM)), on); ok && z-a < int(2*pxPerMM) {
+				if x, ok := afterDip(g, c, a, z, int(6*pxPerMM)); ok {
+					last, lo, hi, merged = x, a, z, false
+				}
+			}
+		}
+		m.start = capEdge(g, last, lo, hi, -1, pxPerMM, hw)
+		m.okStart = last > 1 && !merged && last <= startRef+int(3*pxPerMM)
 	}
 	return m
+}
+
+// afterDip scans right from column x over rows [lo−1, hi+1] of the
+// unblurred ink for the first column whose ink falls below a quarter of
+// the level where the scan starts and returns the first column after it
+// where the ink is back; false when none within n columns.
+func afterDip(g *gray, x, lo, hi, n int) (int, bool) {
+	pix := g.raw
+	if pix == nil {
+		pix = g.pix
+	}
+	// Column sums rather than maxima: a speck of dither beside the gap
+	// does not fill it.
+	ya, yb := max(0, lo-1), min(g.h, hi+2)
+	colMax := func(x int) float64 {
+		m := 0.0
+		for y := ya; y < yb; y++ {
+			m += float64(pix[y*g.w+x])
+		}
+		return m
+	}
+	core := 0.0
+	for d := 0; d < 3 && x+d < g.w; d++ {
+		core = math.Max(core, colMax(x+d))
+	}
+	if core <= 0 {
+		return 0, false
+	}
+	dip := false
+	for xx := x; xx < min(g.w, x+n); xx++ {
+		v := colMax(xx)
+		switch {
+		case !dip && v < 0.25*core:
+			dip = true
+		case dip && v >= 0.25*core:
+			return xx, true
+		}
+	}
+	return 0, false
 }
 
 // timeBase fits x0(y) = a + b·(y − ym) and the span L to the rows' marks
 // and returns each row's first-sample position and L. Rows whose marks
 // are missing or disagree with the fit by more than tol px are left out;
-// the shear b is only fitted with three or more rows of agreeing ends
-// and is limited to what a residual rotation of 1.5° gives.
-func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L float64, ok bool) {
+// the shear b is only fitted with three or more rows holding an agreeing
+// mark and is limited to what a residual rotation of 1.5° gives.
+func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L, shear float64, fitted, ok bool) {
 	n := len(rows)
 	ym := 0.0
 	for _, r := range rows {
@@ -211,8 +298,29 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L f
 	for i, m := range marks {
 		useS[i], useE[i] = m.okStart, m.okEnd
 	}
+	// A robust start: the shear as the median slope over pairs of rows
+	// (Theil–Sen) of either kind of mark, so that one wild mark does not
+	// pull the first least-squares fit and get every row rejected.
+	var slopes []float64
+	for i := range marks {
+		for j := i + 1; j < n; j++ {
+			dy := rows[j].base - rows[i].base
+			if math.Abs(dy) < 1 {
+				continue
+			}
+			if marks[i].okStart && marks[j].okStart {
+				slopes = append(slopes, (marks[j].start-marks[i].start)/dy)
+			}
+			if marks[i].okEnd && marks[j].okEnd {
+				slopes = append(slopes, (marks[j].end-marks[i].end)/dy)
+			}
+		}
+	}
 	var a, b float64
-	for iter := 0; iter < 4; iter++ {
+	if len(slopes) > 0 {
+		b = median(slopes)
+	}
+	for iter := 0; iter < 5; iter++ {
 		// Robust first guesses from medians, then least squares.
 		var ss, es []float64
 		for i, m := range marks {
@@ -224,10 +332,19 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L f
 			}
 		}
 		if len(ss) == 0 || len(es) == 0 {
-			return nil, 0, false
+			return nil, 0, 0, false, false
 		}
-		a = median(ss)
-		L = median(es) - a
+		if iter == 0 {
+			// Reject from the robust fit first.
+			a = median(ss)
+			L = median(es) - a
+			for i, m := range marks {
+				d := rows[i].base - ym
+				useS[i] = m.okStart && math.Abs(m.start-(a+b*d)) <= tol
+				useE[i] = m.okEnd && math.Abs(m.end-(a+L+b*d)) <= tol
+			}
+			continue
+		}
 		// Least squares over the unknowns a, L, b on the kept marks:
 		// start_i = a + b·d_i, end_i = a + L + b·d_i.
 		var A [3][3]float64
@@ -240,7 +357,7 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L f
 				v[p] += row[p] * obs
 			}
 		}
-		ne := 0
+		nr := 0 // rows with a kept mark
 		for i, m := range marks {
 			d := rows[i].base - ym
 			if useS[i] {
@@ -248,10 +365,13 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L f
 			}
 			if useE[i] {
 				add([3]float64{1, 1, d}, m.end)
-				ne++
+			}
+			if useS[i] || useE[i] {
+				nr++
 			}
 		}
-		fitB := ne >= 3
+		fitB := nr >= 3
+		fitted = fitB
 		if !fitB {
 			// Hold b at zero: a weak prior row.
 			A[2][2] += 1e6
@@ -263,28 +383,30 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L f
 			}
 		}
 		changed := false
+		nS, nE := 0, 0
+		newS, newE := make([]bool, n), make([]bool, n)
 		for i, m := range marks {
 			d := rows[i].base - ym
-			if m.okStart {
-				keep := math.Abs(m.start-(a+b*d)) <= tol
-				changed = changed || keep != useS[i]
-				useS[i] = keep
+			newS[i] = m.okStart && math.Abs(m.start-(a+b*d)) <= tol
+			newE[i] = m.okEnd && math.Abs(m.end-(a+L+b*d)) <= tol
+			changed = changed || newS[i] != useS[i] || newE[i] != useE[i]
+			if newS[i] {
+				nS++
 			}
-			if m.okEnd {
-				keep := math.Abs(m.end-(a+L+b*d)) <= tol
-				changed = changed || keep != useE[i]
-				useE[i] = keep
+			if newE[i] {
+				nE++
 			}
 		}
-		if !changed {
+		if !changed || nS == 0 || nE == 0 {
 			break
 		}
+		useS, useE = newS, newE
 	}
 	x0s = make([]float64, n)
 	for i := range rows {
 		x0s[i] = a + b*(rows[i].base-ym)
 	}
-	return x0s, L, L > 0
+	return x0s, L, b, fitted, L > 0
 }
 
 func median(v []float64) float64 {
