@@ -197,14 +197,54 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	// Grid lines in the rectified frame lie at whole mm (extent snapped).
 	ink, paperBox := inkMap(rect, gridLines{known: true, s: s})
 	ink0 := ink
-	q, turnConf := decideTurn(ink, s)
-	if q == 2 {
-		// Upside down is rare: also ask the calibration pulses, which rise
-		// from the baseline on an upright page.
-		up := len(findPulses(ink, s, s))
-		down := len(findPulses(turnGray(ink, 2), s, s))
-		if down <= up && !(up == 0 && turnConf > 0.9) {
+	// The turn is judged well inside the measured grid: a photographed
+	// sheet's edges are long straight lines in the ink map that read as
+	// traces.
+	gr := image.Rect(int((gm.X0-X0)*s), int((gm.Y0-Y0)*s), int((gm.X1-X0)*s), int((gm.Y1-Y0)*s))
+	gr = gr.Inset(min(gr.Dx(), gr.Dy()) / 10).Intersect(paperBox.Inset(int(3 * s)))
+	if dbgGrid != nil {
+		dbgGrid("turn: rect %d×%d paper box %v grid %v", W, Hh, paperBox, gr)
+	}
+	q, turnConf := decideTurn(cropGray(ink, gr), s)
+	// The calibration pulses stand upright (a step up from the baseline)
+	// only on an upright page: a second opinion on the turn.
+	upPs := findPulses(ink, s, s)
+	up := len(upPs)
+	count := func(q int) int { return len(findPulses(turnGray(ink, q), s, s)) }
+	switch {
+	case q == 2:
+		// Upside down is rare.
+		if down := count(2); down <= up && !(up == 0 && turnConf > 0.9) {
 			q, turnConf = 0, 0.2
+		}
+	case q != 0:
+		// A page on its side. Twelve leads recorded at once (12x1) with
+		// tall complexes line up their QRS from row to row and ink whole
+		// columns, so the pulses may overrule the ink's direction.
+		side, other := count(q), count(4-q)
+		if dbgGrid != nil {
+			dbgGrid("turn: %d pulses upright, %d after turning %d, %d the other way", up, side, q, other)
+		}
+		if other >= 2 && other > side {
+			q, side = 4-q, other
+		}
+		if up >= 2 && up > side {
+			q, turnConf = 0, 0.25
+		} else if up > 0 && up >= side {
+			turnConf = math.Min(turnConf, 0.25)
+		}
+	case up == 0 && turnConf < 0.8:
+		// Upright by the ink's direction, not clearly, and no upright
+		// pulse: a page on its side shows its pulses after the turn.
+		s1, s3 := count(1), count(3)
+		if dbgGrid != nil {
+			dbgGrid("turn: no upright pulse; %d after one turn, %d after three", s1, s3)
+		}
+		if max(s1, s3) >= 2 && s1 != s3 {
+			q, turnConf = 1, 0.4
+			if s3 > s1 {
+				q = 3
+			}
 		}
 	}
 	if q != 0 {
@@ -250,7 +290,10 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	if !inkPlausible(ink) {
 		return nil, fmt.Errorf("calib: %s: a grid but no traces: %w", stem(pg.Path), ErrNotECG)
 	}
-	ps := findPulses(ink, s, s)
+	ps := upPs
+	if q != 0 {
+		ps = findPulses(ink, s, s)
+	}
 	for i := range ps {
 		ps[i].HeightMM /= s
 		ps[i].WidthMM /= s
@@ -279,6 +322,20 @@ func checkHint(pg *Page, res *Result) {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the file states %.0f×%.0f dpi but the grid measures %.1f×%.1f dpi (the grid is used)",
 			pg.DPIX, pg.DPIY, res.PxPerMMX*25.4, res.PxPerMMY*25.4))
 	}
+}
+
+// cropGray copies the part of g inside r (all of g when r leaves too
+// little of it), with its origin at (0, 0).
+func cropGray(g *image.Gray, r image.Rectangle) *image.Gray {
+	r = r.Intersect(g.Rect)
+	if r.Dx()*r.Dy() < g.Rect.Dx()*g.Rect.Dy()/4 {
+		return g
+	}
+	out := image.NewGray(image.Rect(0, 0, r.Dx(), r.Dy()))
+	for y := 0; y < r.Dy(); y++ {
+		copy(out.Pix[y*out.Stride:y*out.Stride+r.Dx()], g.Pix[(y+r.Min.Y)*g.Stride+r.Min.X:])
+	}
+	return out
 }
 
 // inkCentroid is the mean position of strong ink (rect px).
@@ -459,6 +516,13 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 			how = "its height and width and the page's size"
 		}
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s (the standard settings that best explain %s)", fit.gain, fit.spd, how))
+		if !bilevel && !paperBorder {
+			// A picture of a sheet (a table or a lid around it): the pulse
+			// is measured where it lies, and the sheet may be seen at a
+			// slant, so its scale need not hold across the page.
+			res.Confidence = math.Min(res.Confidence, 0.3)
+			res.Warnings = append(res.Warnings, "the sheet does not fill the picture: if it was photographed at a slant, the pulse gives the scale only near the pulse")
+		}
 		if fit.paper < 0 && len(pages) > 0 {
 			res.Confidence *= 0.6
 			res.Warnings = append(res.Warnings, "the calibration pulse and the sheet's size disagree; the pulse is used")

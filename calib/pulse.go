@@ -235,6 +235,17 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 		warn = append(warn, fmt.Sprintf("no calibration pulse found: gain %.4g mm/mV and speed %.4g mm/s are assumed, not measured", gain, speed))
 		return
 	}
+	// Candidates of a standard height speak for the page; the others are
+	// boxes of text or lead-switch marks.
+	var std []Pulse
+	for _, p := range ps {
+		if _, ok := snap(p.HeightMM/pulseMV, stdGains, 0.1); ok {
+			std = append(std, p)
+		}
+	}
+	if len(std) > 0 {
+		ps = std
+	}
 	hs := make([]float64, len(ps))
 	ws := make([]float64, len(ps))
 	for i, p := range ps {
@@ -244,13 +255,17 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 	g, okG := snap(hm/pulseMV, stdGains, 0.1)
 	gain = g
 	if !okG {
-		// What looked like a pulse is no standard one (a box of text, a
-		// lead-switch mark): not a gain to trust.
-		gain = 10
+		// What looked like a pulse is no standard one: neither its height
+		// nor its width is a setting to trust.
+		gain, speed = 10, 25
 		if statedG > 0 {
 			gain = statedG
 		}
-		warn = append(warn, fmt.Sprintf("a calibration pulse candidate is %.2f mm tall, which is no standard gain; %.4g mm/mV is assumed, not measured", hm, gain))
+		if statedS > 0 {
+			speed = statedS
+		}
+		warn = append(warn, fmt.Sprintf("a calibration pulse candidate is %.2f mm tall, which is no standard gain; %.4g mm/mV and %.4g mm/s are assumed, not measured", hm, gain, speed))
+		return
 	}
 	sp, okS := snap(wm/pulseS, stdSpeeds, 0.15)
 	speed = sp
