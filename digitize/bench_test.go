@@ -24,3 +24,18 @@ func BenchmarkRun300dpi(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkDeskew300dpi turns a 300-dpi A4 page and its ink map by a
+// residual 0.5° (done only when the rows show such a turn). Run with
+// go test -run XXX -bench Deskew300dpi -benchmem -cpu 1 ./digitize
+func BenchmarkDeskew300dpi(b *testing.B) {
+	p := render(b, dipoleRecord(1), samples.DefaultStyle())
+	cal := truthCal(p)
+	rect, ink := cal.Rectified, InkFromRGB(cal.Rectified)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		cal.Rectified, cal.Ink = rect, ink
+		deskew(cal, 0.0087, 1700, 1200)
+	}
+}

@@ -322,6 +322,9 @@ func TestInspectDemo(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		if os.Getenv("TRACELIFT_OWN_INK") != "" {
+			cal.Ink = nil // digitize's own ink map instead of calib's
+		}
 		res, err := Run(context.Background(), cal, Options{})
 		if err != nil {
 			t.Fatal(err)
@@ -343,5 +346,16 @@ func TestInspectDemo(t *testing.T) {
 		}
 		os.MkdirAll("/tmp/dz", 0o755)
 		plotLeads(t, "/tmp/dz/demo_plot.png", truth, res.Record)
+		b := cal.Rectified.Bounds()
+		ov := image.NewNRGBA(b)
+		copy(ov.Pix, cal.Rectified.Pix)
+		for _, trc := range res.Traces {
+			for k, y := range trc.Y {
+				if x, yy := trc.X0+k, int(y); !math.IsNaN(y) && x >= 0 && x < b.Dx() && yy >= 0 && yy < b.Dy() {
+					ov.SetNRGBA(x, yy, color.NRGBA{0, 160, 255, 255})
+				}
+			}
+		}
+		writePNG(t, "/tmp/dz/demo_trace.png", ov)
 	}
 }
