@@ -1,0 +1,98 @@
+package digitize
+
+import (
+	"math"
+	"testing"
+
+	"tracelift/samples"
+)
+
+// The rows of a printout share one clock (common practice: every row
+// of a 3x4 page spans the same 10 s and the columns switch leads at the
+// same instants), so one origin line and one span must come back from
+// row marks built on a known line, with a row whose start ran into the
+// calibration pulse and a row whose end a speck extended left out.
+func TestTimeBaseOneClock(t *testing.T) {
+	const a, b, L = 300.0, -0.01, 2950.0 // origin at the mean row, shear px/px, span px
+	bases := []float64{500, 1000, 1500, 2000}
+	ym := 1250.0
+	rows := make([]rowInfo, len(bases))
+	marks := make([]rowMarks, len(bases))
+	for i, y := range bases {
+		rows[i] = rowInfo{base: y}
+		x0 := a + b*(y-ym)
+		marks[i] = rowMarks{start: x0, end: x0 + L, okStart: true, okEnd: true}
+	}
+	marks[1].start += 15 // merged into the pulse's lead-out
+	marks[3].end += 30   // a speck beyond the end
+	x0s, span, shear, fitted, ok := timeBase(rows, marks, 2)
+	if !ok || !fitted {
+		t.Fatalf("fit failed: ok %v fitted %v", ok, fitted)
+	}
+	if math.Abs(span-L) > 0.01 || math.Abs(shear-b) > 1e-5 {
+		t.Errorf("span %.3f (want %.0f), shear %.5f (want %.3f)", span, L, shear, b)
+	}
+	for i, y := range bases {
+		if want := a + b*(y-ym); math.Abs(x0s[i]-want) > 0.01 {
+			t.Errorf("row %d origin %.3f, want %.3f", i, x0s[i], want)
+		}
+	}
+}
+
+// A page left turned by a fraction of a degree after calibration: the
+// rows' origins drift down the page and the baselines climb across it.
+// Run must find the turn (the angle applied here, to 0.05°), turn the
+// page straight, and place every panel's time origin within a pixel of
+// where the renderer put it.
+func TestResidualTurnStraightened(t *testing.T) {
+	p := render(t, dipoleRecord(3), samples.DefaultStyle())
+	cal := truthCal(p)
+	const deg = 0.4
+	w, h := float64(p.Image.Rect.Dx()), float64(p.Image.Rect.Dy())
+	// Turn the page about its centre: the new page shows the old at
+	// (x − s·(y−yc), y + s·(x−xc)), s = tan(deg).
+	s := math.Tan(deg * math.Pi / 180)
+	m := [9]float64{1, -s, s * h / 2, s, 1, -s * w / 2, 0, 0, 1}
+	cal.Rectified = warpNRGBA(p.Image, m)
+	cal.Ink = InkFromRGB(cal.Rectified)
+	cal.RectToImage = [9]float64{1, 0, 0, 0, 1, 0, 0, 0, 1}
+	cal.Pulses = nil
+	res := runOn(t, cal, Options{})
+	if math.Abs(cal.RotationDeg-deg) > 0.05 {
+		t.Errorf("residual turn found %.3f°, applied %.1f°", cal.RotationDeg, deg)
+	}
+	// Truth panel origins carried through the turn and back: the
+	// straightened page maps to the clean one by cal.RectToImage then
+	// the inverse of m.
+	worst := 0.0
+	for _, tp := range p.Truth.Panels {
+		i := -1
+		for j, pn := range res.Panels {
+			if pn.Row == tp.Row && pn.Col == tp.Col {
+				i = j
+			}
+		}
+		if i < 0 || res.Panels[i].Lead != tp.Lead {
+			t.Fatalf("no panel %s at row %d col %d", tp.Lead, tp.Row, tp.Col)
+		}
+		// Where the straightened page shows the truth's origin: apply
+		// the forward turn (old → turned) then the inverse of RectToImage.
+		tx := tp.Box[0] + s*(tp.BaselineYPx-h/2)
+		ty := tp.BaselineYPx - s*(tp.Box[0]-w/2)
+		inv, ok := inv3x3(cal.RectToImage)
+		if !ok {
+			t.Fatal("RectToImage not invertible")
+		}
+		rx, _ := samples.Apply(inv, tx, ty)
+		worst = math.Max(worst, math.Abs(res.Panels[i].Box[0]-rx))
+		if d := res.Panels[i].Box[0] - rx; math.Abs(d) > 1 {
+			t.Errorf("panel %s origin %.2f px, truth %.2f px", tp.Lead, res.Panels[i].Box[0], rx)
+		}
+	}
+	t.Logf("turn found %.3f°, worst panel origin error %.2f px", cal.RotationDeg, worst)
+	acc := scoreLeads(p.Truth.Signals, res.Record)
+	// The goal for rotated pages is 20 dB median per lead.
+	if med := medianSNR(acc); med < 20 {
+		t.Errorf("median SNR %.1f dB after straightening, want ≥ 20", med)
+	}
+}
