@@ -202,10 +202,28 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	// traces.
 	gr := image.Rect(int((gm.X0-X0)*s), int((gm.Y0-Y0)*s), int((gm.X1-X0)*s), int((gm.Y1-Y0)*s))
 	gr = gr.Inset(min(gr.Dx(), gr.Dy()) / 10).Intersect(paperBox.Inset(int(3 * s)))
+	if gr.Dx()*gr.Dy() < W*Hh/4 {
+		gr = image.Rect(0, 0, W, Hh) // too little grid to judge by
+	}
 	if dbgGrid != nil {
 		dbgGrid("turn: rect %d×%d paper box %v grid %v", W, Hh, paperBox, gr)
 	}
-	q, turnConf := decideTurn(cropGray(ink, gr), s)
+	// When the grid covers only part of the sheet the crop may hold too
+	// few rows: both views must agree before a page is turned.
+	pool := poolInk(ink, s)
+	bs := pool.bs
+	q, turnConf := pool.decide(image.Rect(gr.Min.X/bs, gr.Min.Y/bs, gr.Max.X/bs, gr.Max.Y/bs))
+	if qf, _ := pool.decide(image.Rect(0, 0, pool.w, pool.h)); qf != q {
+		if dbgGrid != nil {
+			dbgGrid("turn: %d inside the grid, %d over the whole page", q, qf)
+		}
+		switch {
+		case q == 0 || qf == 0:
+			q, turnConf = 0, math.Min(turnConf, 0.2)
+		default:
+			turnConf = math.Min(turnConf, 0.3) // sideways: the pulses pick the side
+		}
+	}
 	// The calibration pulses stand upright (a step up from the baseline)
 	// only on an upright page: a second opinion on the turn.
 	upPs := findPulses(ink, s, s)
@@ -322,20 +340,6 @@ func checkHint(pg *Page, res *Result) {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("the file states %.0f×%.0f dpi but the grid measures %.1f×%.1f dpi (the grid is used)",
 			pg.DPIX, pg.DPIY, res.PxPerMMX*25.4, res.PxPerMMY*25.4))
 	}
-}
-
-// cropGray copies the part of g inside r (all of g when r leaves too
-// little of it), with its origin at (0, 0).
-func cropGray(g *image.Gray, r image.Rectangle) *image.Gray {
-	r = r.Intersect(g.Rect)
-	if r.Dx()*r.Dy() < g.Rect.Dx()*g.Rect.Dy()/4 {
-		return g
-	}
-	out := image.NewGray(image.Rect(0, 0, r.Dx(), r.Dy()))
-	for y := 0; y < r.Dy(); y++ {
-		copy(out.Pix[y*out.Stride:y*out.Stride+r.Dx()], g.Pix[(y+r.Min.Y)*g.Stride+r.Min.X:])
-	}
-	return out
 }
 
 // inkCentroid is the mean position of strong ink (rect px).

@@ -41,7 +41,19 @@ func warpPage(src image.Image, m mat3, w, h int) (*image.NRGBA, error) {
 	for i := 0; i < 9; i++ {
 		mm.SetDoubleAt(i/3, i%3, m[i])
 	}
-	dst := gocv.NewMat()
+	// Colour pages are resampled straight into the Go image (OpenCV keeps
+	// a destination of the right size and type), which saves a copy.
+	out := image.NewNRGBA(image.Rect(0, 0, w, h))
+	var dst gocv.Mat
+	direct := ch == 4 && w > 0 && h > 0
+	if direct {
+		dst, err = gocv.NewMatFromBytes(h, w, gocv.MatTypeCV8UC4, out.Pix)
+		if err != nil {
+			return nil, err
+		}
+	} else {
+		dst = gocv.NewMat()
+	}
 	defer dst.Close()
 	white := color.RGBA{255, 255, 255, 255}
 	flags := gocv.InterpolationLinear | gocv.WarpInverseMap
@@ -60,11 +72,13 @@ func warpPage(src image.Image, m mat3, w, h int) (*image.NRGBA, error) {
 	if err != nil {
 		return nil, err
 	}
-	out := image.NewNRGBA(image.Rect(0, 0, w, h))
+	runtime.KeepAlive(out.Pix)
 	if ch == 4 {
 		// Decoded scans and photos are opaque, and the border is opaque
 		// white, so alpha stays 255 through the interpolation.
-		copy(out.Pix, data)
+		if !direct || len(data) == 0 || &data[0] != &out.Pix[0] {
+			copy(out.Pix, data) // OpenCV chose its own buffer after all
+		}
 	} else {
 		for i, v := range data[:w*h] {
 			j := 4 * i

@@ -1,6 +1,7 @@
 package calib
 
 import (
+	"encoding/binary"
 	"image"
 	"math"
 	"sort"
@@ -15,9 +16,56 @@ import (
 // leads are predominantly upright; aVR and some others are not, which the
 // sum over all rows outweighs).
 func decideTurn(ink *image.Gray, s float64) (int, float64) {
+	p := poolInk(ink, s)
+	return p.decide(image.Rect(0, 0, p.w, p.h))
+}
+
+// pooledInk marks the blocks of bs×bs ink pixels that hold strong ink.
+type pooledInk struct {
+	on   []bool
+	w, h int
+	bs   int
+}
+
+// poolInk pools the ink map to about 4 px/mm. Strong ink (≥ 128) has its
+// top bit set, so eight pixels are tested at once.
+func poolInk(ink *image.Gray, s float64) *pooledInk {
 	bs := max(1, int(math.Round(s/4)))
 	W, H := ink.Rect.Dx(), ink.Rect.Dy()
 	w, h := W/bs, H/bs
+	p := &pooledInk{on: make([]bool, w*h), w: w, h: h, bs: bs}
+	if w < 1 || h < 1 {
+		return p
+	}
+	const hi = 0x8080808080808080
+	n := w * bs
+	for y := 0; y < h*bs; y++ {
+		row := ink.Pix[y*ink.Stride : y*ink.Stride+n]
+		on := p.on[(y/bs)*w : (y/bs)*w+w]
+		x := 0
+		for ; x+8 <= n; x += 8 {
+			if binary.LittleEndian.Uint64(row[x:x+8])&hi == 0 {
+				continue
+			}
+			for j := x; j < x+8; j++ {
+				if row[j] >= 128 {
+					on[j/bs] = true
+				}
+			}
+		}
+		for ; x < n; x++ {
+			if row[x] >= 128 {
+				on[x/bs] = true
+			}
+		}
+	}
+	return p
+}
+
+// decide is decideTurn over the pooled blocks inside r (block units).
+func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
+	r = r.Intersect(image.Rect(0, 0, p.w, p.h))
+	w, h := r.Dx(), r.Dy()
 	if w < 8 || h < 8 {
 		return 0, 0
 	}
@@ -25,19 +73,10 @@ func decideTurn(ink *image.Gray, s float64) (int, float64) {
 	rows := make([]float64, h)
 	cols := make([]float64, w)
 	for j := 0; j < h; j++ {
-		for i := 0; i < w; i++ {
-			hit := false
-			for y := j * bs; y < j*bs+bs && !hit; y++ {
-				row := ink.Pix[y*ink.Stride+i*bs : y*ink.Stride+i*bs+bs]
-				for _, v := range row {
-					if v >= 128 {
-						hit = true
-						break
-					}
-				}
-			}
-			if hit {
-				on[j*w+i] = true
+		src := p.on[(j+r.Min.Y)*p.w+r.Min.X : (j+r.Min.Y)*p.w+r.Max.X]
+		copy(on[j*w:j*w+w], src)
+		for i, v := range src {
+			if v {
 				rows[j]++
 				cols[i]++
 			}
