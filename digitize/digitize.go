@@ -96,8 +96,11 @@ var (
 // the calibration pulses lead the rows from the right, the page is upside
 // down and Run turns cal's images half a turn (updating Turned,
 // RectToImage and Pulses); when calib's scale is not from a confident grid
-// and the traces span within 6 % of a standard 10 s (or 5 s) page, the
-// scale is taken from the span (PxPerMM, PxPerMMX, PxPerMMY). Everything
+// and the traces span within 1 % of a standard 10 s page, the
+// scale is taken from the span (PxPerMM, PxPerMMX, PxPerMMY); when the
+// rows show the page still turned by 0.1–1.5° (their time origins drift
+// down the page), the images are turned straight (Rectified, Ink,
+// RectToImage, Pulses, RotationDeg). Everything
 // derived later from cal (Signals, overlays) then agrees with the traces.
 func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if cal == nil || (cal.Ink == nil && cal.Rectified == nil) {
@@ -329,8 +332,20 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	// is skipped with the gap): the shortest of them is the safe guard.
 	startRef := starts[len(starts)-1]
 	endRef := ends[0]
+	minFall := math.MaxInt
+	for _, f := range falls {
+		if f >= 0 {
+			minFall = min(minFall, f)
+		}
+	}
 	for i, r := range rows {
 		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i], capHW, startRef, endRef)
+		// The pulses stand before time 0 in every row: a start found left
+		// of another row's pulse is a walk along something else (a pulse
+		// not recognised in this row, a label, the margin).
+		if minFall != math.MaxInt && marks[i].start <= float64(minFall) {
+			marks[i].okStart = false
+		}
 	}
 	tol := math.Max(1.5, 0.3*cal.PxPerMM)
 	if x0s, L, b, fitted, ok := timeBase(rows, marks, tol); ok && L > 8 {
@@ -596,7 +611,11 @@ func nameRhythms(panels []Panel, traces []Trace) {
 			if panels[j].Rhythm {
 				continue
 			}
-			for _, sg := range []float64{1, -1} {
+			signs := []float64{1}
+			if strings.HasPrefix(panels[j].Lead, "-") {
+				signs = append(signs, -1) // Cabrera's −aVR is aVR turned over
+			}
+			for _, sg := range signs {
 				if e := relResidual(traces[i], traces[j], sg); e < best {
 					best, bestJ, bestSign = e, j, sg
 				}
@@ -609,11 +628,7 @@ func nameRhythms(panels []Panel, traces []Trace) {
 		}
 		name := panels[bestJ].Lead
 		if bestSign < 0 {
-			if strings.HasPrefix(name, "-") {
-				name = strings.TrimPrefix(name, "-")
-			} else {
-				continue
-			}
+			name = strings.TrimPrefix(name, "-")
 		}
 		panels[i].Lead, traces[i].Lead = name, name
 	}

@@ -197,8 +197,11 @@ func turnResultHalf(cal *calib.Result) {
 var pageSpansS = []float64{10}
 
 // maxSpanFix is the largest scale error corrected from the trace span:
-// a looser match is more likely a page of another length (printers fit 9.7 s, say, to the paper).
-const maxSpanFix = 0.03
+// a looser match is more likely a page of another length (printers fit
+// 9.7–9.9 s, say, to the paper). 1 %: calib's scale from the pulse and
+// the sheet is good to about 0.7 % (its fax sweep, p95), and the span
+// from the one-clock fit to a pixel or two.
+const maxSpanFix = 0.01
 
 // spanScale returns the factor calib's px/mm is off by, judged from the
 // traced span (px) against the standard page durations, with the span

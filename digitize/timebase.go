@@ -226,12 +226,16 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 	}
 	if last, lo, hi, ok := walkTrace(g, r.x0+span/8, y, ya, yb, -1, gap, solid, stop, on); ok {
 		merged := fallX >= 0 && last <= stop+gap
-		if merged {
-			// The walk ran along the pulse's lead-out: the trace starts
-			// after the first dip in the ink along that level.
+		if fallX >= 0 {
+			// A walk that bridged the gap ran along the pulse's lead-out:
+			// the trace starts after the first dip in the ink along the
+			// lead-out's level.
 			c := min(g.w-1, stop+max(3, int(0.4*pxPerMM)))
 			if a, z, ok := runAt(g, c, ya, yb, y, y, max(3, int(pxPerMM)), on); ok && z-a < int(2*pxPerMM) {
-				if x, ok := afterDip(g, c, a, z, int(6*pxPerMM)); ok {
+				// Only a walk that ended before the dip went along the
+				// lead-out; one that ended after it found a trace that
+				// starts off the lead-out's level.
+				if x, d, ok := afterDip(g, c, a, z, int(6*pxPerMM)); ok && last < d {
 					last, lo, hi, merged = x, a, z, false
 				}
 			}
@@ -245,8 +249,9 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 // afterDip scans right from column x over rows [lo−1, hi+1] of the
 // unblurred ink for the first column whose ink falls below a quarter of
 // the level where the scan starts and returns the first column after it
-// where the ink is back; false when none within n columns.
-func afterDip(g *gray, x, lo, hi, n int) (int, bool) {
+// where the ink is back, and the dip's first column; false when none
+// within n columns.
+func afterDip(g *gray, x, lo, hi, n int) (after, dip int, ok bool) {
 	pix := g.raw
 	if pix == nil {
 		pix = g.pix
@@ -266,19 +271,19 @@ func afterDip(g *gray, x, lo, hi, n int) (int, bool) {
 		core = math.Max(core, colMax(x+d))
 	}
 	if core <= 0 {
-		return 0, false
+		return 0, 0, false
 	}
-	dip := false
+	dip = -1
 	for xx := x; xx < min(g.w, x+n); xx++ {
 		v := colMax(xx)
 		switch {
-		case !dip && v < 0.25*core:
-			dip = true
-		case dip && v >= 0.25*core:
-			return xx, true
+		case dip < 0 && v < 0.25*core:
+			dip = xx
+		case dip >= 0 && v >= 0.25*core:
+			return xx, dip, true
 		}
 	}
-	return 0, false
+	return 0, 0, false
 }
 
 // timeBase fits x0(y) = a + b·(y − ym) and the span L to the rows' marks
