@@ -211,7 +211,7 @@ const maxSpanFix = 0.01
 // perspective) or from the user.
 func spanScale(spanPx float64, cal *calib.Result) (k, spanS, want float64) {
 	spanS = spanPx / (cal.PxPerMM * cal.SpeedMMPerS)
-	if cal.Source != "pulse" && cal.Source != "file" || cal.SpeedMMPerS != 25 {
+	if cal.Source != "pulse" && cal.Source != "file" && cal.Source != "page" || cal.SpeedMMPerS != 25 {
 		return 1, spanS, 0
 	}
 	for _, w := range pageSpansS {
