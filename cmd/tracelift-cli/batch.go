@@ -72,18 +72,11 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "Exit status: 0 every file done, 1 some files failed (listed), 2 usage error.")
 		fs.PrintDefaults()
 	}
-	pos, err := parseArgs(fs, args, stderr)
-	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+	pos, code, ok := parseCommand(fs, args, stderr)
+	if !ok {
+		return code
 	}
-	usageErr := func(msg string) int {
-		fmt.Fprintln(stderr, "tracelift-cli batch:", msg)
-		fmt.Fprintln(stderr, "Run 'tracelift-cli batch -h' for the options.")
-		return 2
-	}
+	usageErr := func(msg string) int { return usageError(stderr, "batch", msg) }
 	if len(pos) != 1 {
 		return usageErr("give one INPUT_DIR or LIST.txt")
 	}
@@ -98,6 +91,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	}
 	k, n := 1, 1
 	if b.shard != "" {
+		var err error
 		if k, n, err = batch.ParseShard(b.shard); err != nil {
 			return usageErr(err.Error())
 		}

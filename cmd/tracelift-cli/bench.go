@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
-	"errors"
 	"flag"
 	"fmt"
 	"image/jpeg"
@@ -65,11 +64,8 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "usage: tracelift-cli bench [options]")
 		fs.PrintDefaults()
 	}
-	if _, err := parseArgs(fs, args, stderr); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+	if _, code, ok := parseCommand(fs, args, stderr); !ok {
+		return code
 	}
 	condList := strings.Split(*conds, ",")
 	var real *record.Record

@@ -96,12 +96,9 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "DIR/<stem>.json and the other chosen exports.")
 		fs.PrintDefaults()
 	}
-	pos, err := parseArgs(fs, args, stderr)
-	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+	pos, code, ok := parseCommand(fs, args, stderr)
+	if !ok {
+		return code
 	}
 	if len(pos) != 1 {
 		fmt.Fprintln(stderr, "tracelift-cli digitize: give exactly one image file")

@@ -1,7 +1,9 @@
 package main
 
 import (
+	"errors"
 	"flag"
+	"fmt"
 	"io"
 )
 
@@ -25,4 +27,27 @@ func parseArgs(fs *flag.FlagSet, args []string, stderr io.Writer) ([]string, err
 		pos = append(pos, rest[0])
 		args = rest[1:]
 	}
+}
+
+// parseCommand parses a subcommand's arguments with parseArgs and turns
+// the outcome into the exit protocol: ok is false when the caller must
+// return code at once (0 after -h, 2 after a bad flag, already reported
+// by the flag package).
+func parseCommand(fs *flag.FlagSet, args []string, stderr io.Writer) (pos []string, code int, ok bool) {
+	pos, err := parseArgs(fs, args, stderr)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return nil, 0, false
+		}
+		return nil, 2, false
+	}
+	return pos, 0, true
+}
+
+// usageError reports a usage mistake of the named subcommand, points to
+// its help and returns the usage exit code, 2.
+func usageError(stderr io.Writer, name, msg string) int {
+	fmt.Fprintf(stderr, "tracelift-cli %s: %s\n", name, msg)
+	fmt.Fprintf(stderr, "Run 'tracelift-cli %s -h' for the options.\n", name)
+	return 2
 }

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -28,18 +27,11 @@ func cmdMerge(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "Exit status: 0 complete and every file done, 1 something is missing, doubled or failed, 2 usage error.")
 		fs.PrintDefaults()
 	}
-	pos, err := parseArgs(fs, args, stderr)
-	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return 0
-		}
-		return 2
+	pos, code, ok := parseCommand(fs, args, stderr)
+	if !ok {
+		return code
 	}
-	usageErr := func(msg string) int {
-		fmt.Fprintln(stderr, "tracelift-cli merge:", msg)
-		fmt.Fprintln(stderr, "Run 'tracelift-cli merge -h' for the options.")
-		return 2
-	}
+	usageErr := func(msg string) int { return usageError(stderr, "merge", msg) }
 	if len(pos) == 0 {
 		return usageErr("give the batch output folders or summary files to join")
 	}
