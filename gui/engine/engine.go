@@ -247,4 +247,3 @@ func (b *Backend) Export(a *model.Analysis, rec *record.Record, dir, stem string
 	o.Remeasure(b.Options.Measure)
 	return pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{})
 }
-
