@@ -125,7 +125,7 @@ func Read(r io.Reader) (*record.Record, error) {
 		name, unit := splitUnit(n)
 		scale := 1.0
 		if unit != "" {
-			s, ok := mvScale(unit)
+			s, ok := record.MVPerUnit(unit)
 			if !ok {
 				return nil, &ParseError{Line: headLine, Column: i + 1, Err: fmt.Errorf("lead %q in unknown unit %q (mV, uV or V)", name, unit)}
 			}
@@ -253,22 +253,9 @@ func Read(r io.Reader) (*record.Record, error) {
 	}
 	out := &record.Record{Provenance: record.Provenance{ScaleSource: "file"}}
 	for _, l := range leads {
-		a, b := 0, len(l.mv)
-		for a < b && math.IsNaN(l.mv[a]) {
-			a++
+		if sig, ok := record.Trimmed(l.name, rate, t0, l.mv); ok {
+			out.Signals = append(out.Signals, sig)
 		}
-		for b > a && math.IsNaN(l.mv[b-1]) {
-			b--
-		}
-		if a == b {
-			continue
-		}
-		out.Signals = append(out.Signals, record.Signal{
-			Lead:   l.name,
-			RateHz: rate,
-			StartS: t0 + float64(a)/rate,
-			MV:     append([]float64(nil), l.mv[a:b]...),
-		})
 	}
 	if len(out.Signals) == 0 {
 		return nil, &ParseError{Err: errors.New("no lead holds a value")}
@@ -392,17 +379,6 @@ func splitUnit(n string) (string, string) {
 	return n, ""
 }
 
-func mvScale(unit string) (float64, bool) {
-	switch strings.ToLower(strings.TrimSpace(unit)) {
-	case "mv":
-		return 1, true
-	case "uv", "µv", "μv":
-		return 0.001, true
-	case "v":
-		return 1000, true
-	}
-	return 0, false
-}
 
 type units struct {
 	timeScale float64   // 0 when unchanged
@@ -433,7 +409,7 @@ func unitsLine(rec []string, tcol int) (units, bool) {
 			any = true
 			continue
 		}
-		s, ok := mvScale(c)
+		s, ok := record.MVPerUnit(c)
 		if !ok {
 			return u, false
 		}

@@ -127,7 +127,7 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 		if i == ann {
 			continue
 		}
-		scale, ok := mvScale(s.unit)
+		scale, ok := record.MVPerUnit(s.unit)
 		if !ok || s.spr == 0 {
 			continue
 		}
@@ -200,20 +200,9 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 	rec := &record.Record{Provenance: record.Provenance{ScaleSource: "file"}}
 	for _, l := range leads {
 		rate := float64(sig[l.idx].spr) / dur
-		a, b := 0, len(l.mv)
-		for a < b && math.IsNaN(l.mv[a]) {
-			a++
+		if sig, ok := record.Trimmed(l.name, rate, start, l.mv); ok {
+			rec.Signals = append(rec.Signals, sig)
 		}
-		for b > a && math.IsNaN(l.mv[b-1]) {
-			b--
-		}
-		if a == b {
-			continue
-		}
-		rec.Signals = append(rec.Signals, record.Signal{
-			Lead: l.name, RateHz: rate, StartS: start + float64(a)/rate,
-			MV: append([]float64(nil), l.mv[a:b]...),
-		})
 	}
 	if len(rec.Signals) == 0 {
 		return nil, nil, bad("no lead holds a value")
@@ -225,17 +214,6 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 	return rec, anns, nil
 }
 
-func mvScale(unit string) (float64, bool) {
-	switch strings.ToLower(unit) {
-	case "mv":
-		return 1, true
-	case "uv", "µv":
-		return 0.001, true
-	case "v":
-		return 1000, true
-	}
-	return 0, false
-}
 
 // parseTALs reads the TALs of one data record: the onset of its first
 // (time-keeping) TAL and the annotations of all.
