@@ -379,7 +379,6 @@ func splitUnit(n string) (string, string) {
 	return n, ""
 }
 
-
 type units struct {
 	timeScale float64   // 0 when unchanged
 	scale     []float64 // per field, 0 when unchanged

@@ -214,7 +214,6 @@ func Read(r io.Reader) (*record.Record, []record.Annotation, error) {
 	return rec, anns, nil
 }
 
-
 // parseTALs reads the TALs of one data record: the onset of its first
 // (time-keeping) TAL and the annotations of all.
 func parseTALs(b []byte) (float64, []record.Annotation, error) {
