@@ -355,7 +355,7 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 			carry := min(vl, vr)
 			for i, e := base+lo*stepC, base+hi*stepC; i <= e; i += stepC {
 				v := (int(pix[i]) - l) * rec >> 16
-				pix[i] = max(uint8(max(0, min(255, v))), carry)
+				pix[i] = max(uint8(max(0, min(255, v))), carried(pix[i], carry))
 			}
 		}
 	}
@@ -459,7 +459,7 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 			for x := lo; x <= hi; x++ {
 				v := (int(row[x]) - l) * rec >> 16
 				nv := uint8(max(0, min(255, v)))
-				row[x] = max(nv, carry)
+				row[x] = max(nv, carried(row[x], carry))
 			}
 		}
 	}
@@ -512,9 +512,26 @@ func suppressDots(g *image.Gray, gl gridLines) {
 					if v > 0 {
 						nv = uint8(min(v, 255))
 					}
-					*p = max(nv, carry)
+					*p = max(nv, carried(*p, carry))
 				}
 			}
 		}
 	}
 }
+
+// carried is what a grid-line pixel of ink v keeps from the ink carry on
+// both sides of the line: ink over a line is at least as dark as the ink
+// alone, so it never keeps more than its own ink, and a pixel much paler
+// than the ink on both sides is paper or line between two strokes that
+// lie close on either side of the line (the two strokes of a narrow
+// spike), which must not be bridged.
+func carried(v, carry uint8) uint8 {
+	if int(carry) > int(v)+carryTol {
+		return 0
+	}
+	return min(v, carry)
+}
+
+// carryTol is how much paler (ink levels) than the ink on both sides a
+// line pixel may be and still count as that ink crossing the line.
+const carryTol = 40
