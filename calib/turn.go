@@ -186,36 +186,37 @@ func riseScore(on []bool, _, _ int, idx func(i, j int) int, uw, uh int) float64 
 
 // turnGray rotates g by q counter-clockwise quarter turns (as displayed).
 func turnGray(g *image.Gray, q int) *image.Gray {
-	W, H := g.Rect.Dx(), g.Rect.Dy()
-	ow, oh := W, H
-	if q&1 == 1 {
-		ow, oh = H, W
-	}
-	out := image.NewGray(image.Rect(0, 0, ow, oh))
-	for y := 0; y < oh; y++ {
-		for x := 0; x < ow; x++ {
-			sx, sy := turnSrc(q, x, y, W, H)
-			out.Pix[y*out.Stride+x] = g.Pix[sy*g.Stride+sx]
-		}
-	}
-	return out
+	ow, oh, pix, stride := turnPix(g.Pix, g.Stride, g.Rect.Dx(), g.Rect.Dy(), 1, q)
+	return &image.Gray{Pix: pix, Stride: stride, Rect: image.Rect(0, 0, ow, oh)}
 }
 
 // turnNRGBA is turnGray for colour.
 func turnNRGBA(g *image.NRGBA, q int) *image.NRGBA {
-	W, H := g.Rect.Dx(), g.Rect.Dy()
-	ow, oh := W, H
+	ow, oh, pix, stride := turnPix(g.Pix, g.Stride, g.Rect.Dx(), g.Rect.Dy(), 4, q)
+	return &image.NRGBA{Pix: pix, Stride: stride, Rect: image.Rect(0, 0, ow, oh)}
+}
+
+// turnPix turns a W×H pixel buffer of bpp bytes per pixel by q quarter
+// turns, returning the new size, buffer and stride.
+func turnPix(src []byte, sstride, W, H, bpp, q int) (ow, oh int, dst []byte, stride int) {
+	ow, oh = W, H
 	if q&1 == 1 {
 		ow, oh = H, W
 	}
-	out := image.NewNRGBA(image.Rect(0, 0, ow, oh))
+	stride = ow * bpp
+	dst = make([]byte, stride*oh)
 	for y := 0; y < oh; y++ {
+		row := dst[y*stride : (y+1)*stride]
 		for x := 0; x < ow; x++ {
 			sx, sy := turnSrc(q, x, y, W, H)
-			copy(out.Pix[y*out.Stride+4*x:y*out.Stride+4*x+4], g.Pix[sy*g.Stride+4*sx:])
+			if bpp == 1 {
+				row[x] = src[sy*sstride+sx]
+				continue
+			}
+			copy(row[x*bpp:(x+1)*bpp], src[sy*sstride+sx*bpp:])
 		}
 	}
-	return out
+	return ow, oh, dst, stride
 }
 
 // turnSrc gives the source pixel of turned pixel (x, y); W, H is the

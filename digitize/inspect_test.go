@@ -9,7 +9,6 @@ import (
 	"image/jpeg"
 	"image/png"
 	"math"
-	"math/rand"
 	"os"
 	"strconv"
 	"strings"
@@ -19,7 +18,6 @@ import (
 	"tracelift/record"
 	"tracelift/record/wfdb"
 	"tracelift/samples"
-	"tracelift/samples/dipole"
 )
 
 // benchPrintout renders case i of the CLI bench's suite for a seed the
@@ -27,50 +25,13 @@ import (
 // bench scores badly can be looked at here.
 func benchPrintout(t testing.TB, seed int64, i int) (*samples.Printout, string, []byte) {
 	t.Helper()
-	conds := []string{"clean", "rotated", "photocopy", "photo", "fax"}
-	rng := rand.New(rand.NewSource(seed*1000003 + int64(i)))
-	cond := conds[i%len(conds)]
-	var rec *record.Record
-	if i%4 == 3 {
-		real, err := wfdb.ReadRecord("../../shared/data/ptb-s0010_re/s0010_re.hea")
-		if err != nil {
-			t.Fatal(err)
-		}
-		off := rng.Float64() * 25
-		rec = &record.Record{Name: real.Name}
-		for _, l := range record.Standard12 {
-			s := real.Lead(l)
-			r := s.Resample(500)
-			i0 := int(off * 500)
-			i1 := i0 + 5000
-			if i1 > len(r.MV) {
-				i0, i1 = len(r.MV)-5000, len(r.MV)
-			}
-			rec.Signals = append(rec.Signals, record.Signal{Lead: l, RateHz: 500, MV: append([]float64(nil), r.MV[i0:i1]...)})
-		}
-	} else {
-		p := dipole.Params{
-			HeartRateBPM:   50 + rng.Float64()*60,
-			QRSAxisDeg:     -90 + rng.Float64()*270,
-			PAxisDeg:       20 + rng.Float64()*50,
-			TAxisDeg:       10 + rng.Float64()*60,
-			QRSms:          75 + rng.Float64()*40,
-			PRms:           130 + rng.Float64()*70,
-			TransitionLead: 2 + rng.Float64()*3,
-			QRSAmpMV:       1 + rng.Float64()*1.2,
-			NoiseMV:        0.005,
-			Seed:           rng.Int63(),
-		}
-		rr := 60 / p.HeartRateBPM
-		p.QTms = 410 * math.Sqrt(rr) * (0.9 + rng.Float64()*0.2)
-		rec = dipole.Generate(p)
-	}
-	st := samples.RandomStyle(rng)
-	po, err := samples.Render(rec, st)
+	real, err := wfdb.ReadRecord("../../shared/data/ptb-s0010_re/s0010_re.hea")
 	if err != nil {
 		t.Fatal(err)
 	}
-	po, err = samples.Degrade(po, samples.Condition(cond, rng))
+	sc := samples.NewSuiteCase(seed, i, samples.Conditions, real)
+	cond := sc.Condition
+	po, err := sc.Printout()
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -24,12 +24,7 @@ func TestPTBAxisThroughTheImage(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	orig := &record.Record{Name: "s0010_re"}
-	for _, l := range record.Standard12 {
-		s := rec.Lead(l).Resample(500)
-		s.MV = s.MV[:5000] // the first 10 s
-		orig.Signals = append(orig.Signals, s)
-	}
+	orig := rec.Window(record.Standard12, 500, 0, 10) // the first 10 s
 	want, err := axis.Measure(orig, axis.Options{})
 	if err != nil {
 		t.Fatal(err)

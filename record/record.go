@@ -256,3 +256,29 @@ func (s *Signal) Resample(hz float64) Signal {
 	}
 	return out
 }
+
+// Window cuts durS seconds of the named leads out of r, starting offS
+// seconds into each, resampled to hz, on a clock that starts at 0. A
+// window running past a lead's end is moved back to end with it. Leads r
+// lacks are left out.
+func (r *Record) Window(leads []string, hz, offS, durS float64) *Record {
+	out := &Record{Name: r.Name, Provenance: r.Provenance}
+	n := int(math.Round(durS * hz))
+	for _, l := range leads {
+		s := r.Lead(l)
+		if s == nil {
+			continue
+		}
+		rs := s.Resample(hz)
+		i0 := int(offS * hz)
+		if i0+n > len(rs.MV) {
+			i0 = len(rs.MV) - n
+		}
+		if i0 < 0 {
+			i0 = 0
+		}
+		i1 := min(i0+n, len(rs.MV))
+		out.Signals = append(out.Signals, Signal{Lead: s.Lead, RateHz: hz, MV: append([]float64(nil), rs.MV[i0:i1]...)})
+	}
+	return out
+}

@@ -10,7 +10,6 @@ import (
 	"image/png"
 	"io"
 	"math"
-	"math/rand"
 	"os"
 	"path/filepath"
 	"sort"
@@ -24,7 +23,6 @@ import (
 	"tracelift/record"
 	"tracelift/record/wfdb"
 	"tracelift/samples"
-	"tracelift/samples/dipole"
 )
 
 func init() {
@@ -67,7 +65,10 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	if _, code, ok := parseCommand(fs, args, stderr); !ok {
 		return code
 	}
-	condList := strings.Split(*conds, ",")
+	var condList []string
+	for _, c := range strings.Split(*conds, ",") {
+		condList = append(condList, strings.TrimSpace(c))
+	}
 	var real *record.Record
 	if *ptb != "" {
 		r, err := wfdb.ReadRecord(*ptb)
@@ -80,9 +81,8 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	var cases []benchCase
 	start := time.Now()
 	for i := 0; i < *n; i++ {
-		rng := rand.New(rand.NewSource(*seed*1000003 + int64(i)))
-		cond := strings.TrimSpace(condList[i%len(condList)])
-		c := runBenchCase(i, cond, rng, real, *dpi)
+		c := runBenchCase(i, *seed, condList, real, *dpi)
+		cond := c.Condition
 		cases = append(cases, c)
 		status := "ok"
 		if c.Err != "" {
@@ -101,48 +101,21 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	return 0
 }
 
-func runBenchCase(i int, cond string, rng *rand.Rand, real *record.Record, dpi float64) benchCase {
-	c := benchCase{N: i, Condition: cond, Source: "dipole", HasCalib: false}
+func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi float64) benchCase {
+	sc := samples.NewSuiteCase(seed, i, conds, real)
+	c := benchCase{N: i, Condition: sc.Condition, Source: sc.Source}
 	c.AxisErr, c.HRErr, c.QRSErr, c.QTErr = math.NaN(), math.NaN(), math.NaN(), math.NaN()
-	var rec *record.Record
-	var truth *dipole.Truth
-	if real != nil && i%4 == 3 {
-		c.Source = "ptb-s0010_re"
-		rec = window12(real, 500, rng.Float64()*25)
-	} else {
-		p := dipole.Params{
-			HeartRateBPM:   50 + rng.Float64()*60,
-			QRSAxisDeg:     -90 + rng.Float64()*270,
-			PAxisDeg:       20 + rng.Float64()*50,
-			TAxisDeg:       10 + rng.Float64()*60,
-			QRSms:          75 + rng.Float64()*40,
-			PRms:           130 + rng.Float64()*70,
-			TransitionLead: 2 + rng.Float64()*3,
-			QRSAmpMV:       1 + rng.Float64()*1.2,
-			NoiseMV:        0.005,
-			Seed:           rng.Int63(),
-		}
-		rr := 60 / p.HeartRateBPM
-		p.QTms = 410 * math.Sqrt(rr) * (0.9 + rng.Float64()*0.2) // Bazett-shaped QT around QTc 410 ms
-		rec = dipole.Generate(p)
-		t := p.Truth()
-		truth = &t
-	}
-	st := samples.RandomStyle(rng)
+	truth := sc.Dipole
 	if dpi > 0 {
-		st.DPI = dpi
+		sc.Style.DPI = dpi
 	}
-	c.Layout, c.DPI = string(st.Layout), st.DPI
-	po, err := samples.Render(rec, st)
+	c.Layout, c.DPI = string(sc.Style.Layout), sc.Style.DPI
+	po, err := sc.Printout()
 	if err != nil {
 		c.Err = err.Error()
 		return c
 	}
-	po, err = samples.Degrade(po, samples.Condition(cond, rng))
-	if err != nil {
-		c.Err = err.Error()
-		return c
-	}
+	cond := sc.Condition
 	// Encode as a file would arrive, then decode it like any input.
 	var buf bytes.Buffer
 	name := "case.png"
@@ -210,26 +183,6 @@ func runBenchCase(i int, cond string, rng *rand.Rand, real *record.Record, dpi f
 }
 
 type axisTruth struct{ qrs, hr, qrsMS, qtMS float64 }
-
-// window12 cuts 10 s of the twelve standard leads out of a real record,
-// resampled to hz, starting at offS.
-func window12(rec *record.Record, hz, offS float64) *record.Record {
-	out := &record.Record{Name: rec.Name}
-	for _, l := range record.Standard12 {
-		s := rec.Lead(l)
-		if s == nil {
-			continue
-		}
-		r := s.Resample(hz)
-		i0 := int(offS * hz)
-		i1 := i0 + int(10*hz)
-		if i1 > len(r.MV) {
-			i0, i1 = len(r.MV)-int(10*hz), len(r.MV)
-		}
-		out.Signals = append(out.Signals, record.Signal{Lead: l, RateHz: hz, MV: append([]float64(nil), r.MV[i0:i1]...)})
-	}
-	return out
-}
 
 func printBenchTable(w io.Writer, cases []benchCase, conds []string) {
 	fmt.Fprintln(w, "condition   cases fail  scale err %  (med/p95)  rot err° (med/max)  gain ok  speed ok  SNR dB (med/p10)  missing  axis err° (med/p95)  HR err  QRS err  QT err  ms/page (calib+trace, med)")
