@@ -16,6 +16,7 @@ import (
 
 	"tracelift/calib"
 	"tracelift/record"
+	"tracelift/record/csvio"
 	"tracelift/record/wfdb"
 	"tracelift/samples"
 )
@@ -161,6 +162,12 @@ func inspectOne(t *testing.T, seed int64, i int) {
 	}
 	writePNG(t, pre+"_trace.png", ov)
 	plotLeads(t, pre+"_plot.png", tr.Signals, res.Record)
+	if err := csvio.WriteFile(pre+"_truth.csv", tr.Signals, 500); err != nil {
+		t.Log(err)
+	}
+	if err := csvio.WriteFile(pre+"_est.csv", res.Record, 500); err != nil {
+		t.Log(err)
+	}
 }
 
 // plotLeads draws truth (blue) and estimate (red) per lead, 10 s across

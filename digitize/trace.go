@@ -127,16 +127,15 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	}
 	// The path value at x is where it leaves column x; it entered at
 	// path[x-1] (when it moved within x). The stroke in column x is the
-	// run of ink holding both; the centre line spans the run less half a
-	// line width at each end.
+	// run of ink holding both.
 	ys = make([]float64, W)
 	conf = make([]float32, W)
 	runA := make([]int, W)
 	runZ := make([]int, W)
-	upper := make([]float64, W)
+	upper := make([]float64, W) // top edge of the run, px
 	hidden := make([]bool, W)
-	lower := make([]float64, W)
-	maxExt := int(math.Max(0.4*b.pitch, 6*b.halfLine))
+	lower := make([]float64, W) // bottom edge
+	maxExt := int(math.Max(0.9*b.pitch, 6*b.halfLine))
 	hw := b.halfLine
 	for x := 0; x < W; x++ {
 		cx := cm[x*H : (x+1)*H]
@@ -186,14 +185,16 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 			swy += v * float64(i)
 			peak = math.Max(peak, v)
 		}
-		// The centre line in this column spans the run less half a line
-		// width at each end; a short run (a flat stretch) gives its
-		// ink-weighted centre.
+		// The run's edges to a fraction of a pixel: the coverage summed
+		// across an edge (the blur keeps sums) is how far the edge lies
+		// from the first solid pixel inside it.
 		if float64(z-a+1) <= 2*hw+3 {
+			// A short run (a flat stretch): its ink-weighted centre.
 			ys[x] = float64(b.y0) + swy/sw
-			upper[x], lower[x] = ys[x], ys[x]
+			upper[x], lower[x] = ys[x]-hw, ys[x]+hw
 		} else {
-			upper[x], lower[x] = float64(b.y0+a)+hw, float64(b.y0+z)-hw
+			upper[x] = float64(b.y0) + edgeAt(at, a, z, H, -1)
+			lower[x] = float64(b.y0) + edgeAt(at, z, a, H, +1)
 		}
 		c := peak
 		if p == 0 || p == H-1 {
@@ -201,13 +202,25 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 		}
 		conf[x] = float32(c)
 	}
-	// A thick line shows in each column the stroke's values over about
-	// ±(half a line width) of columns around it: a running max/min
-	// (dilation). Opening it with a window of that size recovers the
-	// centre line: on a monotone stroke both ends meet at the value at the
-	// column's centre; at a tip one end keeps the extreme, the other is
-	// pulled toward the flanks; the flanks say which one.
+	// A line drawn with a round pen of radius hw is its centre line c
+	// dilated by a disc: its top edge is min over d of c(x+d) − √(hw²−d²).
+	// Eroding the top edge by the same disc gives a bound c ≥ ah (y
+	// down) that is tight wherever the disc touches the top edge: at a
+	// peak, however narrow, and along a rising or falling stroke; the
+	// bottom edge likewise gives c ≤ zh, tight at a trough and along
+	// strokes. Where the two meet the centre line is between them; where
+	// they part the column holds a tip and its flanks say which kind.
 	K := max(1, int(math.Round(hw)))
+	// A column's edge is the extreme over the column's width, so the
+	// centre line at the column's centre lies at least
+	// √(hw² − (|j| − ½)²) inside the edge of column x+j (hw for j = 0):
+	// the pen's disc stretched by half a column either way.
+	J := int(math.Floor(hw + 0.5))
+	rise := make([]float64, 2*J+1)
+	for j := -J; j <= J; j++ {
+		e := math.Max(0, math.Abs(float64(j))-0.5)
+		rise[j+J] = math.Sqrt(math.Max(0, hw*hw-e*e))
+	}
 	ah := make([]float64, W)
 	zh := make([]float64, W)
 	for x := 0; x < W; x++ {
@@ -216,13 +229,13 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 			continue
 		}
 		mx, mn := math.Inf(-1), math.Inf(1)
-		for d := -K; d <= K; d++ {
-			j := x + d
-			if j < 0 || j >= W || runA[j] < 0 {
+		for j := -J; j <= J; j++ {
+			k := x + j
+			if k < 0 || k >= W || runA[k] < 0 {
 				continue
 			}
-			mx = math.Max(mx, upper[j])
-			mn = math.Min(mn, lower[j])
+			mx = math.Max(mx, upper[k]+rise[j+J])
+			mn = math.Min(mn, lower[k]-rise[j+J])
 		}
 		ah[x], zh[x] = mx, mn
 	}
@@ -235,21 +248,27 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 			ys[x] = (A + Z) / 2
 			continue
 		}
+		// A tip has both flanks on one side of it; a column whose flanks
+		// lie one above and one below is on a stroke, and the two
+		// erosions straddle it (the pen's width misjudged).
 		mid := (A + Z) / 2
-		var nb, nn float64
+		above, below := 0, 0
 		for _, j := range []int{x - 2*K - 1, x + 2*K + 1} {
 			if j >= 0 && j < W && runA[j] >= 0 {
-				nb += (ah[j] + zh[j]) / 2
-				nn++
+				if (ah[j]+zh[j])/2 < mid {
+					above++
+				} else {
+					below++
+				}
 			}
 		}
 		switch {
-		case nn == 0:
-			ys[x] = mid
-		case nb/nn < mid: // the flanks are higher on the page: a trough
+		case above > 0 && below == 0: // the flanks are higher on the page: a trough
 			ys[x] = Z
-		default: // a peak
+		case below > 0 && above == 0: // a peak
 			ys[x] = A
+		default:
+			ys[x] = mid
 		}
 	}
 	for x := range ys {
@@ -340,4 +359,28 @@ func modeY(ys []float64) float64 {
 		return s / n
 	}
 	return c
+}
+
+// edgeAt returns the sub-pixel position of the run's edge at pixel e
+// (dir −1: the top edge, +1: the bottom edge), the run reaching to o on
+// the other side. Coverage (at, clipped to 1) is summed from the first
+// solid pixel inside the edge outward, blur tail included; the edge lies
+// that far out from the solid pixel's inner boundary.
+func edgeAt(at func(int) float32, e, o, H, dir int) float64 {
+	// The first solid pixel inward, at most a few pixels in.
+	s := e
+	for k := 0; k < 4 && s != o && at(s) < 0.95; k++ {
+		s -= dir
+	}
+	sum := 0.0
+	for i := s; i >= 0 && i < H && (i-s)*dir <= 6; i += dir {
+		v := float64(at(i))
+		if (i-e)*dir > 0 && (v < 0.02 || (i-e)*dir > 3) {
+			break
+		}
+		sum += math.Min(1, v)
+	}
+	// Pixel s spans [s−0.5, s+0.5]; the sum is measured from its inner
+	// boundary, s − 0.5·dir.
+	return float64(s) - 0.5*float64(dir) + float64(dir)*sum
 }

@@ -35,3 +35,70 @@ func TestTracePathSine(t *testing.T) {
 		}
 	}
 }
+
+// drawThickSpike paints, with a round pen of radius r, a flat line at
+// y = base with one narrow triangular spike: up by height over half a
+// base width, down again over the other half. The centre line is the
+// truth, one value per column centre.
+func drawThickSpike(w, h int, base, height, halfBase, r float64) (*gray, []float64) {
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	mid := float64(w) / 2
+	c := func(x float64) float64 {
+		d := math.Abs(x - mid)
+		if d >= halfBase {
+			return base
+		}
+		return base - height*(1-d/halfBase)
+	}
+	// Coverage by 4×4 supersampling of the union of discs centred on the
+	// centre line (a pen's sweep).
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			n := 0
+			for sy := 0; sy < 4; sy++ {
+				for sx := 0; sx < 4; sx++ {
+					px, py := float64(x)+(float64(sx)+0.5)/4, float64(y)+(float64(sy)+0.5)/4
+					for u := px - r; u <= px+r; u += 0.05 {
+						if math.Hypot(px-u, py-c(u)) <= r {
+							n++
+							break
+						}
+					}
+				}
+			}
+			g.pix[y*w+x] = uint8(n * 255 / 16)
+		}
+	}
+	truth := make([]float64, w)
+	for x := range truth {
+		truth[x] = c(float64(x) + 0.5)
+	}
+	return g, truth
+}
+
+// A QRS spike narrower than a thick pen keeps its height: the tip is read
+// through the pen's round end, not cut to the width of the line (a round
+// pen's stroke is the centre line swept by a disc; common practice for
+// plotter and thermal-head traces, from memory).
+func TestTracePathThickPenSpike(t *testing.T) {
+	const r = 4.0
+	g, truth := drawThickSpike(120, 220, 180, 140, 4, r)
+	ys, _ := tracePath(g, band{x0: 0, x1: 120, y0: 0, y1: 220, home: 180, pitch: 220, halfLine: r})
+	peak := math.Inf(1)
+	for x := 50; x < 70; x++ {
+		peak = math.Min(peak, ys[x]+0.5)
+	}
+	want := 180.0 - 140*(1-0.5/4) // the column centre nearest the apex
+	if math.Abs(peak-want) > 3 {
+		t.Errorf("spike tip at y %.1f, want %.1f (the centre line's highest column)", peak, want)
+	}
+	var worst float64
+	for x := 10; x < 110; x++ {
+		if d := math.Abs(ys[x] + 0.5 - truth[x]); d > worst && (x < 55 || x > 65) {
+			worst = d
+		}
+	}
+	if worst > 1.5 {
+		t.Errorf("flat line off by up to %.1f px", worst)
+	}
+}
