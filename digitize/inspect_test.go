@@ -30,7 +30,14 @@ func benchPrintout(t testing.TB, seed int64, i int) (*samples.Printout, string, 
 	if err != nil {
 		t.Fatal(err)
 	}
-	sc := samples.NewSuiteCase(seed, i, samples.Conditions, real)
+	conds := samples.Conditions
+	if v := os.Getenv("TRACELIFT_CASE_CONDITIONS"); v != "" {
+		conds = strings.Split(v, ",")
+	}
+	sc := samples.NewSuiteCase(seed, i, conds, real)
+	if v, err := strconv.ParseFloat(os.Getenv("TRACELIFT_CASE_DPI"), 64); err == nil && v > 0 {
+		sc.Style.DPI = v
+	}
 	cond := sc.Condition
 	po, err := sc.Printout()
 	if err != nil {
@@ -54,6 +61,9 @@ func benchPrintout(t testing.TB, seed int64, i int) (*samples.Printout, string, 
 // rectified page, both ink maps, the working map and the traces to /tmp.
 //
 //	TRACELIFT_CASE=7 TRACELIFT_CASE_SEED=1 go test -run TestInspectBenchCase -v ./digitize
+//
+// TRACELIFT_CASE_CONDITIONS and TRACELIFT_CASE_DPI stand for the bench's
+// --conditions and --dpi.
 func TestInspectBenchCase(t *testing.T) {
 	v := os.Getenv("TRACELIFT_CASE")
 	if v == "" {

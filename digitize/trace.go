@@ -211,14 +211,18 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	// strokes. Where the two meet the centre line is between them; where
 	// they part the column holds a tip and its flanks say which kind.
 	K := max(1, int(math.Round(hw)))
-	// A column's edge is the extreme over the column's width, so the
-	// centre line at the column's centre lies at least
-	// √(hw² − (|j| − ½)²) inside the edge of column x+j (hw for j = 0):
-	// the pen's disc stretched by half a column either way.
-	J := int(math.Floor(hw + 0.5))
+	// Where the disc reaches column x+j: a column's edge read from its
+	// coverage lies between the edge at the column's centre (j columns
+	// away) and the extreme over its width (|j| − ½ away; tight along
+	// steep strokes, but a disc that only grazes a column leaves too
+	// little ink there to be seen). A quarter column between the two did
+	// best over the seeded suite's varied pens (bench, seeds 1 and 2,
+	// clean 300 dpi: 23.6 and 23.6 dB median against 22.8 and 22.0 at ½).
+	const graze = 0.25
+	J := int(math.Floor(hw + graze))
 	rise := make([]float64, 2*J+1)
 	for j := -J; j <= J; j++ {
-		e := math.Max(0, math.Abs(float64(j))-0.5)
+		e := math.Max(0, math.Abs(float64(j))-graze)
 		rise[j+J] = math.Sqrt(math.Max(0, hw*hw-e*e))
 	}
 	ah := make([]float64, W)
