@@ -113,10 +113,13 @@ func (g *gray) at(x, y int) uint8 { return g.pix[y*g.w+x] }
 
 // prepare turns an ink map into the tracer's working map: a small blur
 // (merges fax dithering and JPEG speckle into strokes), then removal of
-// long straight lines: in every stretch of segLen pixels of a row (then
-// of a column) the 20th percentile of the ink is subtracted. A grid line
-// covers nearly all of its row or column and goes; a trace covers far less
-// than 80 % of any such stretch and stays, and so does the paper level.
+// long straight lines: in every stretch of segLen pixels of a row the 8th
+// percentile of the ink is subtracted, and in every such stretch of a
+// column the 5th. A grid line covers nearly all of its row or column and
+// goes; a trace covers far less of any such stretch and stays, and so
+// does the paper level. Columns are held to more: the QRS strokes of
+// simultaneous leads stand one above the other (12×1, 6×2) and fill much
+// of a column between them.
 func prepare(ink *image.Gray, pxPerMM float64) *gray {
 	b := ink.Bounds()
 	w, h := b.Dx(), b.Dy()
@@ -139,7 +142,7 @@ func prepare(ink *image.Gray, pxPerMM float64) *gray {
 	}
 	x0, x1, y0, y1 := gridBox(bl)
 	suppressRows(bl, seg, 0.08, x0, x1)
-	suppressCols(bl, seg, 0.2, y0, y1)
+	suppressCols(bl, seg, 0.05, y0, y1)
 	return bl
 }
 

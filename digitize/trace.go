@@ -137,6 +137,8 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	lower := make([]float64, W) // bottom edge
 	maxExt := int(math.Max(0.9*b.pitch, 6*b.halfLine))
 	hw := b.halfLine
+	maxBridge := max(3, int(math.Ceil(2*hw)))
+	ext := 0
 	for x := 0; x < W; x++ {
 		cx := cm[x*H : (x+1)*H]
 		p := path[x]
@@ -169,12 +171,48 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 			}
 			lo, hi = min(lo, found), max(hi, found)
 		}
-		a, z := lo, hi
-		for k := 0; k < maxExt && a > 0 && at(a-1) >= runThresh; k++ {
-			a--
+		// A stroke crossing a grid line lost its ink there with the line;
+		// the run goes on across such a gap when the page had ink in it
+		// and the stroke goes on beyond.
+		across := func(i, dir int) int {
+			for d := 1; d <= maxBridge; d++ {
+				j := i + dir*d
+				if j < 0 || j >= H || ext+d > maxExt {
+					return 0
+				}
+				if at(j) >= runThresh {
+					return d
+				}
+				if g.raw == nil || float64(g.raw[(b.y0+j)*g.w+b.x0+x]) < inkSolid*norm {
+					return 0
+				}
+			}
+			return 0
 		}
-		for k := 0; k < maxExt && z < H-1 && at(z+1) >= runThresh; k++ {
-			z++
+		a, z := lo, hi
+		ext = 0
+		for ext < maxExt && a > 0 {
+			if at(a-1) >= runThresh {
+				a--
+				ext++
+			} else if d := across(a, -1); d > 0 {
+				a -= d
+				ext += d
+			} else {
+				break
+			}
+		}
+		ext = 0
+		for ext < maxExt && z < H-1 {
+			if at(z+1) >= runThresh {
+				z++
+				ext++
+			} else if d := across(z, +1); d > 0 {
+				z += d
+				ext += d
+			} else {
+				break
+			}
 		}
 		runA[x], runZ[x] = a, z
 		peak := 0.0
