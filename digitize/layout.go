@@ -57,9 +57,17 @@ func findRows(g *gray, pxPerMM float64) []rowInfo {
 	type ext struct{ x0, x1, run int }
 	exts := make([]ext, len(cands))
 	for i, y := range cands {
-		x0, x1, run := inkSpan(g, y-int(6*pxPerMM), y+int(6*pxPerMM), pxPerMM)
-		exts[i] = ext{x0, x1, run}
-		longest = max(longest, run)
+		// The profile's peak of a row whose two halves stand at different
+		// levels (the columns of a 6x2 page) may sit at one half's level:
+		// the span is taken at the best of a few levels around it.
+		for _, d := range []float64{0, -1.5, 1.5} {
+			yy := y + int(d*pxPerMM)
+			x0, x1, run := inkSpan(g, yy-int(6*pxPerMM), yy+int(6*pxPerMM), pxPerMM)
+			if run > exts[i].run {
+				exts[i] = ext{x0, x1, run}
+			}
+		}
+		longest = max(longest, exts[i].run)
 	}
 	for i, y := range cands {
 		if exts[i].run < int(0.55*float64(longest)) || exts[i].run < int(20*pxPerMM) {
