@@ -413,8 +413,19 @@ func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
 			}
 			// A line thinner than the blur does not reach full strength;
 			// then the core understates it and the width is at least the
-			// blur's.
-			ws = append(ws, sum/(core-floor))
+			// blur's. A sloping line crosses a column over its width
+			// times √(1+s²); the slope s comes from the line's centre two
+			// columns either side.
+			s := 0.0
+			if x-2 >= 0 && x+2 < g.w {
+				cl, okl := inkCentre(pix, g.w, x-2, a-4, b+4, g.h, floor)
+				cr, okr := inkCentre(pix, g.w, x+2, a-4, b+4, g.h, floor)
+				if !okl || !okr {
+					continue
+				}
+				s = (cr - cl) / 4
+			}
+			ws = append(ws, sum/(core-floor)/math.Sqrt(1+s*s))
 		}
 	}
 	if len(ws) == 0 {
@@ -422,6 +433,21 @@ func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
 	}
 	sort.Float64s(ws)
 	return math.Max(0.5, ws[int(q*float64(len(ws)-1))]/2)
+}
+
+// inkCentre returns the ink-weighted centre row of column x over rows
+// [ya, yb], ink above floor only.
+func inkCentre(pix []uint8, w, x, ya, yb, h int, floor float64) (float64, bool) {
+	var sw, swy float64
+	for y := max(0, ya); y <= min(h-1, yb); y++ {
+		v := math.Max(0, float64(pix[y*w+x])-floor)
+		sw += v
+		swy += v * float64(y)
+	}
+	if sw == 0 {
+		return 0, false
+	}
+	return swy / sw, true
 }
 
 // startEdge returns the left edge of the ink where the traces begin, to
