@@ -326,7 +326,10 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	}
 	// One clock for the page, from every row's trace ends.
 	marks := make([]rowMarks, len(rows))
-	capHW := strokeHalfWidthQ(g, rows, 0.2)
+	// The round cap at a trace's end is one disc of the pen: its radius
+	// is the thinnest stretch's half width (noise and slope only thicken
+	// a line down a column), not the typical one.
+	capHW := strokeHalfWidthQ(g, rows, 0.05)
 	// The coarse extents err outward at the ends (specks within 3 mm
 	// of the trace join it) and inward at the starts (a pulse's lead-out
 	// is skipped with the gap): the shortest of them is the safe guard.
