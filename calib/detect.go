@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"image"
 	"math"
+	"sort"
 )
 
 const maxRectPxPerMM = 12 // cap of the rectified scale (speed); ~300 dpi
@@ -30,16 +31,30 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	theta, coh := gridAngle(wk, 1)
-	if coh < 0.3 {
-		theta, _ = gridAngle(wk, 3)
+	ests := gridAngles(wk, 1)
+	if ests[0].coh < 0.3 {
+		ests = gridAngles(wk, 3)
 	}
 	var gm gridModel
 	found := false
 	if !opt.ForceUser {
-		gm, found = measureGrid(wk, theta)
-		if found && gm.perspTerms > 0.01 {
-			gm = secondPass(wk, gm)
+		// The angle read over all periods first; when its grid fits
+		// poorly, the one read over the coarser periods too, and the
+		// better fit is kept.
+		for i, e := range ests {
+			if i > 0 && (math.Abs(e.theta-ests[0].theta) < 0.05*math.Pi/180 || (found && gm.rmsMM < 0.05)) {
+				break
+			}
+			g, ok := measureGrid(wk, e.theta)
+			if ok && (g.perspTerms > 0.01 || g.rmsMM > 0.05) {
+				g = secondPass(wk, g)
+			}
+			if dbgGrid != nil {
+				dbgGrid("angle %.3f°: grid found %v, rms %.3f mm on %d tiles, perspective %.4f", e.theta*180/math.Pi, ok, g.rmsMM, g.tiles, g.perspTerms)
+			}
+			if ok && (!found || g.quality() > gm.quality()) {
+				gm, found = g, true
+			}
 		}
 	}
 	if err := ctx.Err(); err != nil {
@@ -50,7 +65,7 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	}
 	// No grid: the traces' own direction deskews the page (their long
 	// baselines stand out in the 2-D spectrum as a grid's lines do).
-	theta, coh = gridAngle(wk, 3)
+	theta, coh := gridAngle(wk, 3)
 	if coh < 0.2 {
 		if t2, c2 := coarseAngle(wk); c2 >= 0.1 {
 			theta = t2
@@ -83,7 +98,7 @@ func secondPass(wk *work, gm gridModel) gridModel {
 	}
 	flat := &work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}
 	g2, ok := measureGrid(flat, 0)
-	if !ok || g2.rmsMM >= gm.rmsMM {
+	if !ok || g2.quality() <= gm.quality() {
 		return gm
 	}
 	g2.H = M.mul(g2.H)
@@ -206,11 +221,12 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		gr = image.Rect(0, 0, W, Hh) // too little grid to judge by
 	}
 	if dbgGrid != nil {
-		dbgGrid("turn: rect %d×%d paper box %v grid %v", W, Hh, paperBox, gr)
+		dbgGrid("turn: rect %d×%d paper box %v grid %v ink threshold %d", W, Hh, paperBox, gr, inkThreshold(ink, gr))
 	}
 	// When the grid covers only part of the sheet the crop may hold too
 	// few rows: both views must agree before a page is turned.
-	pool := poolInk(ink, s)
+	thr := inkThreshold(ink, gr)
+	pool := poolInk(ink, s, thr)
 	bs := pool.bs
 	q, turnConf := pool.decide(image.Rect(gr.Min.X/bs, gr.Min.Y/bs, gr.Max.X/bs, gr.Max.Y/bs))
 	if qf, _ := pool.decide(image.Rect(0, 0, pool.w, pool.h)); qf != q {
@@ -226,9 +242,9 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	}
 	// The calibration pulses stand upright (a step up from the baseline)
 	// only on an upright page: a second opinion on the turn.
-	upPs := findPulses(ink, s, s)
+	upPs := findPulses(ink, s, s, thr, false)
 	up := len(upPs)
-	count := func(q int) int { return len(findPulses(turnGray(ink, q), s, s)) }
+	count := func(q int) int { return len(findPulses(turnGray(ink, q), s, s, thr, false)) }
 	switch {
 	case q == 2:
 		// Upside down is rare.
@@ -310,7 +326,7 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	}
 	ps := upPs
 	if q != 0 {
-		ps = findPulses(ink, s, s)
+		ps = findPulses(ink, s, s, thr, false)
 	}
 	for i := range ps {
 		ps[i].HeightMM /= s
@@ -458,7 +474,7 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		if len(pages) > 0 {
 			lo, hi = math.Min(lo, pages[0]/1.3), math.Max(hi, pages[0]*1.3)
 		}
-		ps = findPulses(ink, lo, hi)
+		ps = findPulses(ink, lo, hi, inkThreshold(ink, ink.Rect), !bilevel && !paperBorder)
 		g0 := guess
 		if len(pages) > 0 {
 			g0 = pages[0]
@@ -549,6 +565,23 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		return nil, fmt.Errorf("calib: %s: %w", stem(pg.Path), ErrNoScale)
 	}
 	res.PxPerMMX, res.PxPerMMY = res.PxPerMM, res.PxPerMM/aniso
+	if res.Source == "pulse" && !bilevel && !paperBorder && fit.gain > 0 && fit.spd > 0 {
+		// A sheet photographed at a slant is foreshortened more along one
+		// axis than the other: where the pulses stand, their height gives
+		// the scale across the traces and their width the scale along.
+		// The scale changes across such a sheet, so it is read from one
+		// pulse, the one of median height, and reported where it stands.
+		order := make([]int, len(ps))
+		for i := range order {
+			order[i] = i
+		}
+		sort.Slice(order, func(a, b int) bool { return ps[order[a]].HeightMM < ps[order[b]].HeightMM })
+		p := ps[order[(len(ps)-1)/2]]
+		res.PxPerMMX = p.WidthMM / (fit.spd * pulseS)
+		res.PxPerMMY = p.HeightMM / (fit.gain * pulseMV) / aniso
+		x, y := M.apply((p.Box[0]+p.Box[2])/2, (p.Box[1]+p.Box[3])/2)
+		res.ScaleAt = [2]float64{x, y}
+	}
 	if math.Abs(theta) > 0.25 {
 		// The page lies across: the squash applies to the rotated frame only
 		// approximately; the two scales are reported at the same value
@@ -569,8 +602,9 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	return res, nil
 }
 
-// consistentPulses keeps the largest group of pulses of one height (the
-// recorder draws the same pulse on every row, at the same x), and only
+// consistentPulses keeps the largest group of pulses of one height and
+// width (the recorder draws the same pulse on every row, at the same x,
+// mostly at the row's start), and only
 // when that height gives a scale near the page-size guess (within 2.5×).
 func consistentPulses(ps []Pulse, guess, gain float64) []Pulse {
 	var best []Pulse
@@ -579,15 +613,19 @@ func consistentPulses(ps []Pulse, guess, gain float64) []Pulse {
 		var grp []Pulse
 		xs := map[int]bool{}
 		for _, q := range ps {
-			if math.Abs(q.HeightMM/p.HeightMM-1) < 0.06 && q.WidthMM > 0.15*q.HeightMM && q.WidthMM < 2*q.HeightMM {
+			if math.Abs(q.HeightMM/p.HeightMM-1) < 0.06 && math.Abs(q.WidthMM/p.WidthMM-1) < 0.2 && q.WidthMM > 0.15*q.HeightMM && q.WidthMM < 2*q.HeightMM {
 				grp = append(grp, q)
 				xs[int(q.Box[0]/(0.02*guess*280))] = true
 			}
 		}
+		if len(grp) == 0 {
+			continue
+		}
 		// More members, stacked at one x (one per row), and taller (text
 		// glyphs are a few mm; a pulse is usually 10 mm) score higher.
 		s := (float64(len(grp)) + float64(len(grp)-len(xs))) * math.Log(p.HeightMM)
-		if s > bestScore {
+		// Alike otherwise, the group further left: the pulses lead the rows.
+		if len(best) == 0 || s > 1.05*bestScore || (s > bestScore/1.05 && medianLeft(grp) < medianLeft(best)) {
 			best, bestScore = grp, s
 		}
 	}
@@ -603,6 +641,15 @@ func consistentPulses(ps []Pulse, guess, gain float64) []Pulse {
 		return nil
 	}
 	return best
+}
+
+// medianLeft is the median left edge of a group of pulses.
+func medianLeft(ps []Pulse) float64 {
+	xs := make([]float64, len(ps))
+	for i, p := range ps {
+		xs[i] = p.Box[0]
+	}
+	return median(xs)
 }
 
 // UserScaleFromPoints gives px/mm from two points a known distance apart

@@ -507,6 +507,7 @@ type obs struct {
 	val  float64
 	axis int
 	w    float64
+	f    float64 // the tile's own line frequency along the axis, mm per work px
 }
 
 // ---- homography ----

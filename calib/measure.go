@@ -16,6 +16,46 @@ type gridModel struct {
 	rmsMM      float64 // fit residual
 	conf       float64
 	perspTerms float64 // |h31|,|h32| scaled to the page size: 0 for a flat scan
+	scaleErr   float64 // how far the model's local scale lies from the tiles' own (relative, worse axis)
+}
+
+// scaleAgreement compares the model's scale with the one each tile reads
+// from its own line frequency: the median of their ratio less one, on the
+// worse axis. Phases alone cannot tell a model that slips one fine period
+// between every pair of tiles from the truth (both fit every tile); the
+// tiles' frequencies can.
+func scaleAgreement(G mat3, os []obs, c, s float64) float64 {
+	var r [2][]float64
+	for _, o := range os {
+		if o.f <= 0 {
+			continue
+		}
+		dx, dy := c, s
+		if o.axis == 1 {
+			dx, dy = -s, c
+		}
+		const e = 2.0
+		X0, Y0 := G.apply(o.x-e*dx, o.y-e*dy)
+		X1, Y1 := G.apply(o.x+e*dx, o.y+e*dy)
+		d := (X1 - X0) / (2 * e)
+		if o.axis == 1 {
+			d = (Y1 - Y0) / (2 * e)
+		}
+		r[o.axis] = append(r[o.axis], math.Abs(d)/o.f)
+	}
+	worst := 0.0
+	for _, a := range r {
+		if len(a) > 0 {
+			worst = math.Max(worst, math.Abs(median(a)-1))
+		}
+	}
+	return worst
+}
+
+// quality ranks two fits of one page's grid: a small residual over many
+// tiles, at the scale the tiles read themselves.
+func (gm gridModel) quality() float64 {
+	return math.Exp(-gm.rmsMM/0.1) * math.Exp(-gm.scaleErr/0.01) * math.Min(1, float64(gm.tiles)/40)
 }
 
 // measureGrid finds the grid, or returns ok=false when there is none.
@@ -45,6 +85,7 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	// Where the 1 mm lines were seen under the 5 mm period, measure on
 	// the 1 mm lines themselves: their phase is sharp in every tile, while
 	// the 5 mm harmonics are often weak and would pick the wrong line.
+	au5, av5 := au, av // as found, before any axis moves to its 1 mm lines
 	for _, af := range []*axisFit{&au, &av} {
 		wk5 := af.m == 5
 		if !wk5 || 5*af.F > 0.4 {
@@ -62,7 +103,28 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 		af.F *= 5
 		af.m, af.harm, af.oneMM = 1, hs, true
 	}
-	gm, ok := fitAxes(wk, g, au, av, ts)
+	// Unwrapped from tile to tile, the 1 mm lines may slip a whole period
+	// between every pair of tiles alike (a local period misread by 1–2 %
+	// over some fifty periods a tile), which fits well and is wrong; the
+	// 5 mm period, five times as tolerant, chooses their whole periods.
+	var seed *mat3
+	if au.oneMM || av.oneMM {
+		if g5, ok5 := fitAxes(wk, g, au5, av5, ts, nil, [2]bool{}); ok5 {
+			if G5, ok := g5.H.inv(); ok {
+				seed = &G5
+			}
+		}
+	}
+	gm, ok := fitAxes(wk, g, au, av, ts, nil, [2]bool{})
+	if seed != nil {
+		gs, oks := fitAxes(wk, g, au, av, ts, seed, [2]bool{au.oneMM, av.oneMM})
+		if dbgGrid != nil {
+			dbgGrid("unwrapped: ok %v scale off %.4f rms %.3f; seeded: ok %v scale off %.4f rms %.3f", ok, gm.scaleErr, gm.rmsMM, oks, gs.scaleErr, gs.rmsMM)
+		}
+		if oks && (!ok || gs.scaleErr < gm.scaleErr) {
+			gm, ok = gs, true
+		}
+	}
 	// A photo seen at a slant blurs the 1 mm lines' phase across a tile
 	// more than the 5 mm one: when one axis measured on 5 mm and the
 	// other on 1 mm, also try the second on 5 mm and keep the better fit.
@@ -77,7 +139,7 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 			} else {
 				a = alt
 			}
-			if gm2, ok2 := fitAxes(wk, g, a, b, ts); ok2 && (!ok || gm2.rmsMM < gm.rmsMM*0.8) {
+			if gm2, ok2 := fitAxes(wk, g, a, b, ts, nil, [2]bool{}); ok2 && (!ok || gm2.rmsMM < gm.rmsMM*0.8) {
 				gm, ok = gm2, true
 			}
 		}
@@ -95,8 +157,10 @@ func hasHarm(hs []int, h int) bool {
 }
 
 // fitAxes measures the tiles at the two axes' periods, chooses the units,
-// unwraps and fits the homography.
-func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
+// unwraps and fits the homography. With a seed (work px → mm, from a
+// coarser fit) each tile's whole periods on the axes marked in seedAxis
+// (0 = X, 1 = Y) come from the seed instead of from unwrapping.
+func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis [2]bool) (gridModel, bool) {
 	mu := measureTiles(g, &au, true)
 	mv := measureTiles(g, &av, false)
 	unwrap(g, mu)
@@ -245,7 +309,7 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 					fr := q - math.Floor(q)
 					q = fr + math.Round(pred-fr)
 				}
-				os = append(os, obs{x: ox, y: oy, val: unit * q, axis: axis, w: m.frac})
+				os = append(os, obs{x: ox, y: oy, val: unit * q, axis: axis, w: m.frac, f: unit * m.F})
 			}
 		}
 		return os
@@ -284,7 +348,24 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 		}
 		return G, os, true
 	}
-	G, os, ok := robust(build(nil, false))
+	var os0 []obs
+	if seed != nil {
+		// The seed chooses the whole periods on the axes it was asked
+		// for; the other axis keeps its unwrapped tiles.
+		for _, o := range build(seed, true) {
+			if seedAxis[o.axis] {
+				os0 = append(os0, o)
+			}
+		}
+		for _, o := range build(nil, false) {
+			if !seedAxis[o.axis] {
+				os0 = append(os0, o)
+			}
+		}
+	} else {
+		os0 = build(nil, false)
+	}
+	G, os, ok := robust(os0)
 	if !ok {
 		return gridModel{}, false
 	}
@@ -327,6 +408,7 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int) (gridModel, bool) {
 		ss += r * r
 	}
 	gm.rmsMM = math.Sqrt(ss / float64(len(os)))
+	gm.scaleErr = scaleAgreement(G, os, g.c, g.s)
 	// Tile half-size in mm widens the extent to the tiles' edges.
 	halfX := float64(ts) / 2 * au.F * au.unit
 	halfY := float64(ts) / 2 * av.F * av.unit

@@ -25,16 +25,33 @@ var (
 )
 
 type stroke struct {
-	x0, x1 int // columns
-	y0, y1 int // top and bottom row (inclusive)
+	x0, x1 int     // columns
+	y0, y1 int     // top and bottom row (inclusive)
+	sx, n  float64 // Σ column × run length and Σ run length: the centre column
+	// Σ over runs of the run's middle row m, m², and column × m, each
+	// weighted by the run's length: the stroke's lean.
+	sm, smm, sxm float64
+}
+
+// lean is the stroke's column change per row (0 for an upright stroke).
+func (s stroke) lean() float64 {
+	my, mx := s.sm/s.n, s.sx/s.n
+	v := s.smm/s.n - my*my
+	if v < 1 {
+		return 0
+	}
+	return (s.sxm/s.n - mx*my) / v
 }
 
 // findPulses looks for upright rectangles on the ink map: two vertical
 // strokes of equal extent joined by a horizontal top, with an empty inside.
-// sLo..sHi bounds the px/mm scale (equal when the grid gave it).
-func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
+// sLo..sHi bounds the px/mm scale (equal when the grid gave it); ink
+// from thr on counts (see inkThreshold). With lean the pulse's sides may
+// lean alike (a page not flattened, seen at a slant); without, they stand
+// upright and each column holds them whole.
+func findPulses(ink *image.Gray, sLo, sHi float64, thr uint8, lean bool) []Pulse {
 	w, h := ink.Rect.Dx(), ink.Rect.Dy()
-	on := func(x, y int) bool { return ink.Pix[y*ink.Stride+x] >= 128 }
+	on := func(x, y int) bool { return ink.Pix[y*ink.Stride+x] >= thr }
 	minRun := int(math.Max(6, 2.2*sLo)) // a pulse is at least 2.5 mm tall
 	maxRun := int(45 * sHi)
 	// Vertical runs per column, grouped into strokes across neighbouring
@@ -52,7 +69,7 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			row = ink.Pix[y*ink.Stride : y*ink.Stride+w]
 		}
 		for x := 0; x < w; x++ {
-			if y < h && row[x] >= 128 {
+			if y < h && row[x] >= thr {
 				if start[x] < 0 {
 					start[x] = int32(y)
 				}
@@ -60,25 +77,43 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			}
 			if s := int(start[x]); s >= 0 {
 				if l := y - s; l >= minRun && l <= maxRun {
-					runsByCol[x] = append(runsByCol[x], stroke{x, x, s, y - 1})
+					m := float64(s+y-1) / 2
+					runsByCol[x] = append(runsByCol[x], stroke{x, x, s, y - 1, float64(x * l), float64(l), m * float64(l), m * m * float64(l), float64(x) * m * float64(l)})
 				}
 				start[x] = -1
 			}
 		}
 	}
+	// A stroke grows into the next column by a run over the same rows
+	// (within tol); a leaning one (lean) by a run that overlaps its last
+	// run and is no more than three times as long or short: it moves along
+	// by a few rows a column, and no single column holds it whole.
 	var open, strokes []stroke
+	var last [][2]int // rows of each open stroke's run in the previous column
 	for x := 0; x < w; x++ {
 		runs := runsByCol[x]
 		var next []stroke
+		var nextLast [][2]int
 		used := make([]bool, len(runs))
-		for _, s := range open {
+		for k, s := range open {
 			ext := false
 			for i, r := range runs {
-				if !used[i] && abs(r.y0-s.y0) <= tol && abs(r.y1-s.y1) <= tol {
+				// Overlapping, and of a like length: the baseline leaving a
+				// pulse's foot or a grid line left in the ink map beside
+				// its side are runs of quite another length.
+				lr, ll := r.y1-r.y0+1, last[k][1]-last[k][0]+1
+				grow := abs(r.y0-s.y0) <= tol && abs(r.y1-s.y1) <= tol // upright: the same rows
+				if lean {
+					grow = r.y0 <= last[k][1]+1 && r.y1 >= last[k][0]-1 && 3*lr >= ll && 3*ll >= lr
+				}
+				if !used[i] && grow {
 					s.x1 = x
 					s.y0, s.y1 = min(s.y0, r.y0), max(s.y1, r.y1)
+					s.sx, s.n = s.sx+r.sx, s.n+r.n
+					s.sm, s.smm, s.sxm = s.sm+r.sm, s.smm+r.smm, s.sxm+r.sxm
 					used[i] = true
 					next = append(next, s)
+					nextLast = append(nextLast, [2]int{r.y0, r.y1})
 					ext = true
 					break
 				}
@@ -90,15 +125,17 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 		for i, r := range runs {
 			if !used[i] {
 				next = append(next, r)
+				nextLast = append(nextLast, [2]int{r.y0, r.y1})
 			}
 		}
-		open = next
+		open, last = next, nextLast
 	}
 	strokes = append(strokes, open...)
-	// Keep thin strokes only (a trace line, not a filled block).
+	// Keep thin strokes only (a trace line, not a filled block); a stroke
+	// may lean by up to 1 in 8 (about 7°).
 	var thin []stroke
 	for _, s := range strokes {
-		if s.x1-s.x0+1 <= int(math.Max(3, 1.2*sHi)) {
+		if float64(s.x1-s.x0+1) <= math.Max(3, 1.2*sHi)+float64(s.y1-s.y0+1)/8 {
 			thin = append(thin, s)
 		}
 	}
@@ -115,7 +152,9 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			if usedR[j] || float64(gap) < 1.8*sLo {
 				continue
 			}
-			if abs(a.y0-b.y0) > tol || abs(a.y1-b.y1) > tol {
+			// The sides of a pulse are parallel, upright or leaning alike
+			// (a Λ of a QRS complex leans both ways).
+			if abs(a.y0-b.y0) > tol || abs(a.y1-b.y1) > tol || math.Abs(a.lean()-b.lean()) > 0.06 {
 				continue
 			}
 			th := max(1, (a.x1-a.x0+1+b.x1-b.x0+1)/2) // line thickness
@@ -134,18 +173,10 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			if tot == 0 || float64(hit) < 0.85*float64(tot) {
 				continue
 			}
-			// Inside: nearly empty.
+			// Inside: nearly empty, but for a grid line left in the ink map
+			// that crosses it from side to side.
 			bot := (a.y1 + b.y1) / 2
-			in, inTot := 0, 0
-			for y := top + th + 2; y < bot-th-1; y++ {
-				for x := a.x1 + 2; x < b.x0-1; x++ {
-					inTot++
-					if on(x, y) {
-						in++
-					}
-				}
-			}
-			if inTot == 0 || float64(in) > 0.05*float64(inTot) {
+			if !emptyInside(ink, thr, a.x1+2, b.x0-1, top+th+2, bot-th-1) {
 				continue
 			}
 			// The trace leaves the pulse along its baseline on at least one
@@ -167,17 +198,27 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 			if !foot(a.x0-fl, a.x0-1) && !foot(b.x1+1, b.x1+fl) {
 				continue
 			}
-			xa := float64(a.x0+a.x1) / 2
-			xb := float64(b.x0+b.x1) / 2
+			xa, xb := a.sx/a.n, b.sx/b.n // a leaning pair's sides are parallel: centre to centre
 			// Height between the centre lines of the top and of the baseline,
 			// each thickness measured vertically (with anisotropic pixels,
 			// resampled, the vertical and horizontal strokes differ), to a
 			// fraction of a pixel from the ink levels.
-			mid := (a.x1 + b.x0) / 2
-			thTop := vThick(ink, mid, top, top+3*th+3)
+			// The median over several columns: one of them may be a grid
+			// line the ink map kept.
+			var tt, tb []float64
+			for x := a.x1 + 2; x <= b.x0-2; x += max(1, (b.x0-a.x1)/12) {
+				tt = append(tt, vThick(ink, x, top, top+3*th+3, thr))
+			}
+			for x := a.x0 - 2; x >= max(0, a.x0-fl); x-- {
+				tb = append(tb, vThick(ink, x, bot-3*th-3, bot, thr))
+			}
+			thTop := vThick(ink, (a.x1+b.x0)/2, top, top+3*th+3, thr)
+			if len(tt) > 0 {
+				thTop = median(tt)
+			}
 			thBot := thTop
-			if x := a.x0 - 2; x >= 0 {
-				thBot = vThick(ink, x, bot-3*th-3, bot)
+			if len(tb) > 0 {
+				thBot = median(tb)
 			}
 			hpx := float64(bot-top+1) - (thTop+thBot)/2
 			out = append(out, Pulse{Box: [4]float64{float64(a.x0), float64(top), float64(b.x1), float64(bot)},
@@ -189,12 +230,73 @@ func findPulses(ink *image.Gray, sLo, sHi float64) []Pulse {
 	return out
 }
 
-// vThick sums the ink level (0..1) in column x over rows y0..y1: the
-// thickness in px of the horizontal stroke crossing there.
-func vThick(ink *image.Gray, x, y0, y1 int) float64 {
+// emptyInside says whether the box [x0,x1)×[y0,y1) holds almost no ink
+// (at most 5 % of its pixels), leaving out pale rows and columns inked
+// nearly from side to side: a grid line the ink map kept, which is paler
+// than the trace (the stroke of a letter is not).
+func emptyInside(ink *image.Gray, thr uint8, x0, x1, y0, y1 int) bool {
+	if x1 <= x0 || y1 <= y0 {
+		return false
+	}
+	w, h := x1-x0, y1-y0
+	rows, cols := make([]int, h), make([]int, w)
+	rsum, csum := make([]int, h), make([]int, w)
+	for y := y0; y < y1; y++ {
+		for x := x0; x < x1; x++ {
+			v := int(ink.Pix[y*ink.Stride+x])
+			rsum[y-y0] += v
+			csum[x-x0] += v
+			if v >= int(thr) {
+				rows[y-y0]++
+				cols[x-x0]++
+			}
+		}
+	}
+	pale := 1.6 * float64(thr)
+	skipRow := func(i int) bool { return 10*rows[i] >= 8*w && float64(rsum[i]) < pale*float64(w) }
+	skipCol := func(i int) bool { return 10*cols[i] >= 8*h && float64(csum[i]) < pale*float64(h) }
+	in := 0
+	for y := y0; y < y1; y++ {
+		if skipRow(y - y0) {
+			continue
+		}
+		for x := x0; x < x1; x++ {
+			if !skipCol(x-x0) && ink.Pix[y*ink.Stride+x] >= thr {
+				in++
+			}
+		}
+	}
+	return float64(in) <= 0.05*float64(w*h)
+}
+
+// vThick measures the thickness in px of the horizontal stroke crossing
+// column x between rows y0 and y1: the ink level (0..1, full strength at
+// twice the threshold thr) summed over the rows around the strongest one
+// that stay above half the threshold (a faint grid line nearby is not
+// part of the stroke).
+func vThick(ink *image.Gray, x, y0, y1 int, thr uint8) float64 {
+	y0, y1 = max(0, y0), min(ink.Rect.Dy()-1, y1)
+	if y1 < y0 {
+		return 1
+	}
+	full := math.Min(255, 2*float64(thr))
+	at := func(y int) uint8 { return ink.Pix[y*ink.Stride+x] }
+	best := y0
+	for y := y0; y <= y1; y++ {
+		if at(y) > at(best) {
+			best = y
+		}
+	}
+	lo, hi := best, best
+	for lo > y0 && at(lo-1) >= thr/2 {
+		lo--
+	}
+	for hi < y1 && at(hi+1) >= thr/2 {
+		hi++
+	}
 	var t float64
-	for y := max(0, y0); y <= min(ink.Rect.Dy()-1, y1); y++ {
-		t += float64(ink.Pix[y*ink.Stride+x]) / 255
+	for y := lo; y <= hi; y++ {
+		t += math.Min(1, float64(at(y))/full)
 	}
 	return math.Max(1, t)
 }

@@ -110,12 +110,25 @@ func powerSpectrum(p []float32, w []float64, n int, buf []complex128) []float64 
 // spectrum is whitened by its radial mean and folded into 0.1° bins.
 // It returns the angle and the peak's share of the folded energy.
 func gridAngle(wk *work, patches int) (float64, float64) {
+	a := gridAngles(wk, patches)
+	return a[0].theta, a[0].coh
+}
+
+// angleEst is one reading of the grid's angle and its coherence.
+type angleEst struct{ theta, coh float64 }
+
+// gridAngles is gridAngle read twice from one spectrum: over all periods
+// down to 2.3 px, and over periods of 3.5 px and more only. In a photo the
+// finest periods carry the camera's own patterns (compression blocks,
+// sharpening, resampling moiré) as much as the 1 mm lines; the 5 mm lines
+// and their first harmonics lie below them and give the angle alone.
+func gridAngles(wk *work, patches int) [2]angleEst {
 	n := 512
 	for n > 64 && (n > wk.w || n > wk.h) {
 		n /= 2
 	}
 	if n > wk.w || n > wk.h {
-		return 0, 0
+		return [2]angleEst{}
 	}
 	var centres [][2]int
 	cy := wk.h/2 - n/2
@@ -164,12 +177,7 @@ func gridAngle(wk *work, patches int) (float64, float64) {
 	rmin := max(4, n/64)
 	rad := make([]float64, rmax+2)
 	cnt := make([]float64, rmax+2)
-	type pt struct {
-		i   int
-		r   int
-		phi float64
-	}
-	var pts []pt
+	var pts []anglePt
 	for ky := 0; ky < n/2; ky++ {
 		for kx := -n/2 + 1; kx < n/2; kx++ {
 			if ky == 0 && kx <= 0 {
@@ -187,7 +195,7 @@ func gridAngle(wk *work, patches int) (float64, float64) {
 			i := ky*n + xi
 			rad[ri] += pw[i]
 			cnt[ri]++
-			pts = append(pts, pt{i, ri, math.Atan2(float64(ky), float64(kx))})
+			pts = append(pts, anglePt{i, ri, math.Atan2(float64(ky), float64(kx))})
 		}
 	}
 	for i := range rad {
@@ -195,11 +203,22 @@ func gridAngle(wk *work, patches int) (float64, float64) {
 			rad[i] /= cnt[i]
 		}
 	}
+	rLow := int(float64(n) / 3.5)
+	var out [2]angleEst
+	for band, rm := range []int{rmax, rLow} {
+		out[band] = foldAngle(pts, pw, rad, rm)
+	}
+	return out
+}
+
+// foldAngle folds the whitened spectrum points up to radius rm into 0.1°
+// bins over 90° and returns the peak's angle and share.
+func foldAngle(pts []anglePt, pw, rad []float64, rm int) angleEst {
 	const nb = 900 // 0.1° bins over 90°
 	var hist [nb]float64
 	var tot float64
 	for _, p := range pts {
-		if rad[p.r] == 0 {
+		if rad[p.r] == 0 || p.r > rm {
 			continue
 		}
 		v := pw[p.i] / rad[p.r]
@@ -212,7 +231,7 @@ func gridAngle(wk *work, patches int) (float64, float64) {
 		tot += v
 	}
 	if tot == 0 {
-		return 0, 0
+		return angleEst{}
 	}
 	// Smooth over ±0.3° (circularly) and pick the peak.
 	var sm [nb]float64
@@ -236,5 +255,12 @@ func gridAngle(wk *work, patches int) (float64, float64) {
 	for d := -10; d <= 10; d++ {
 		near += hist[(best+d+nb)%nb]
 	}
-	return deg * math.Pi / 180, near / tot
+	return angleEst{deg * math.Pi / 180, near / tot}
+}
+
+// anglePt is one bin of the 2-D spectrum: its index, radius and angle.
+type anglePt struct {
+	i   int
+	r   int
+	phi float64
 }

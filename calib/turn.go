@@ -16,7 +16,7 @@ import (
 // leads are predominantly upright; aVR and some others are not, which the
 // sum over all rows outweighs).
 func decideTurn(ink *image.Gray, s float64) (int, float64) {
-	p := poolInk(ink, s)
+	p := poolInk(ink, s, inkThreshold(ink, ink.Rect))
 	return p.decide(image.Rect(0, 0, p.w, p.h))
 }
 
@@ -27,9 +27,10 @@ type pooledInk struct {
 	bs   int
 }
 
-// poolInk pools the ink map to about 4 px/mm. Strong ink (≥ 128) has its
-// top bit set, so eight pixels are tested at once.
-func poolInk(ink *image.Gray, s float64) *pooledInk {
+// poolInk pools the ink map to about 4 px/mm; a block is on when it holds
+// ink of at least thr (see inkThreshold). At the usual threshold of 128
+// strong ink has its top bit set, so eight pixels are tested at once.
+func poolInk(ink *image.Gray, s float64, thr uint8) *pooledInk {
 	bs := max(1, int(math.Round(s/4)))
 	W, H := ink.Rect.Dx(), ink.Rect.Dy()
 	w, h := W/bs, H/bs
@@ -42,6 +43,14 @@ func poolInk(ink *image.Gray, s float64) *pooledInk {
 	for y := 0; y < h*bs; y++ {
 		row := ink.Pix[y*ink.Stride : y*ink.Stride+n]
 		on := p.on[(y/bs)*w : (y/bs)*w+w]
+		if thr != 128 {
+			for x, v := range row {
+				if v >= thr {
+					on[x/bs] = true
+				}
+			}
+			continue
+		}
 		x := 0
 		for ; x+8 <= n; x += 8 {
 			if binary.LittleEndian.Uint64(row[x:x+8])&hi == 0 {
@@ -245,4 +254,34 @@ func turnMat(q, W, H int) mat3 {
 		return mat3{0, 1, 0, -1, 0, h, 0, 0, 1}
 	}
 	return ident
+}
+
+// inkThreshold is the ink level from which a pixel counts as a trace's for
+// the turn and the pulse search: 128 (half strength) when the traces reach
+// full strength, else half the traces' own level, taken as the ink level
+// that the strongest 0.3 % of the pixels in r reach (a thin pen, blurred
+// and lit unevenly in a photo, may never come near full strength), but
+// not under 48, where what is left of the grid lies.
+func inkThreshold(ink *image.Gray, r image.Rectangle) uint8 {
+	r = r.Intersect(ink.Rect)
+	var hist [256]int
+	n := 0
+	for y := r.Min.Y; y < r.Max.Y; y += 2 {
+		for _, v := range ink.Pix[y*ink.Stride+r.Min.X : y*ink.Stride+r.Max.X] {
+			hist[v]++
+		}
+		n += r.Dx()
+	}
+	if n == 0 {
+		return 128
+	}
+	lim, acc := n*3/1000, 0
+	lv := 255
+	for ; lv > 0; lv-- {
+		acc += hist[lv]
+		if acc > lim {
+			break
+		}
+	}
+	return uint8(clampI(lv/2, 48, 128))
 }
