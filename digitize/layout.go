@@ -174,6 +174,33 @@ func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) in
 // pulseEndFall is pulseEnd that also returns the last column of the
 // pulse's falling stroke (−1 when no pulse is found).
 func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) (int, int) {
+	if x, fall := pulseEndFallAt(g, x0, x1, base, pitch, pxPerMM, speed, gain, 64); fall >= 0 {
+		return x, fall
+	}
+	// A pulse drawn with a thinner line than the trace keeps less of its
+	// ink through the blur: look again with strokes counted from a fifth
+	// of the trace's usual strength (the median over the row of the
+	// column maximum).
+	var cm []int
+	for x := x0; x < x1; x += 3 {
+		m := 0
+		for y := max(0, int(base-0.3*pitch)); y < min(g.h, int(base+0.3*pitch)); y++ {
+			m = max(m, int(g.pix[y*g.w+x]))
+		}
+		cm = append(cm, m)
+	}
+	if len(cm) == 0 {
+		return x0, -1
+	}
+	sort.Ints(cm)
+	on := uint8(min(64, max(20, cm[len(cm)/2]/5)))
+	if on >= 64 {
+		return x0, -1
+	}
+	return pulseEndFallAt(g, x0, x1, base, pitch, pxPerMM, speed, gain, on)
+}
+
+func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64, on uint8) (int, int) {
 	tall := 0.6 * gain * pxPerMM
 	ya, yb := max(0, int(base-0.9*pitch)), min(g.h, int(base+0.4*pitch))
 	// The pulse's flat top may sit outside the band the row's span was
@@ -186,7 +213,7 @@ func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64
 		// (where a removed grid line crossed the stroke).
 		start, last, best := -1, -1, 0
 		for y := ya; y < yb; y++ {
-			if g.pix[y*g.w+x] < 64 {
+			if g.pix[y*g.w+x] < on {
 				continue
 			}
 			if start < 0 || y-last > 4 {
@@ -195,7 +222,9 @@ func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64
 			last = y
 			best = max(best, last-start+1)
 		}
-		if float64(best) >= tall {
+		// A stroke filling the whole band is a grid line left by line
+		// removal, not a pulse's edge.
+		if float64(best) >= tall && best < (yb-ya)*9/10 {
 			if n := len(strokes); n == 0 || x-strokes[n-1] > 2 {
 				strokes = append(strokes, x)
 			} else {
