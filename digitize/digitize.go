@@ -335,6 +335,17 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	// is skipped with the gap): the shortest of them is the safe guard.
 	startRef := starts[len(starts)-1]
 	endRef := ends[0]
+	// A grid line left in the working map carries a row's coarse extent
+	// to the grid's edge; where the rows' strong ink ends is the safer
+	// guard then.
+	var strongEnds []int
+	for _, r := range rows {
+		strongEnds = append(strongEnds, strongEnd(g, r, pg.pitch))
+	}
+	sort.Ints(strongEnds)
+	if strongEnds[0] < endRef {
+		endRef = strongEnds[0]
+	}
 	minFall := math.MaxInt
 	for _, f := range falls {
 		if f >= 0 {
@@ -436,6 +447,35 @@ func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
 	}
 	sort.Float64s(ws)
 	return math.Max(0.5, ws[int(q*float64(len(ws)-1))]/2)
+}
+
+// strongEnd returns the last column of row r, within its coarse extent,
+// where the ink near the row reaches 0.6 of the row's usual strength (the
+// median over columns of the column maximum): grid lines left by line
+// removal stay well under it.
+func strongEnd(g *gray, r rowInfo, pitch float64) int {
+	ya, yb := max(0, int(r.base-0.5*pitch)), min(g.h, int(r.base+0.5*pitch))
+	colMax := func(x int) int {
+		m := 0
+		for y := ya; y < yb; y++ {
+			m = max(m, int(g.pix[y*g.w+x]))
+		}
+		return m
+	}
+	var cm []int
+	for x := r.x0; x < r.x1; x += 3 {
+		cm = append(cm, colMax(x))
+	}
+	if len(cm) == 0 {
+		return r.x1
+	}
+	sort.Ints(cm)
+	strong := cm[len(cm)/2] * 6 / 10
+	x := min(r.x1, g.w-1)
+	for x > r.x0 && colMax(x) < strong {
+		x--
+	}
+	return x
 }
 
 // inkCentre returns the ink-weighted centre row of column x over rows

@@ -114,6 +114,45 @@ func walkTrace(g *gray, x, y, ya, yb, dir, gap, solid, stop int, on uint8) (last
 	return last, lo, hi, true
 }
 
+// backOffLine undoes the part of a walk that went on along a grid line
+// left in the working map: a photocopied or grey grid survives line
+// removal in part, at well under the trace's strength, and a trace that
+// ends on such a line is followed to the grid's edge. From the walk's last
+// column, going back (dir −1 from a right end, +1 from a left end) at the
+// level where the walk ended, columns whose ink stays under 0.6 of the
+// trace's usual strength (core, the median column maximum) are a line
+// when there are more than 2 mm of them; the walk then ends at the first
+// strong column before them, and cut is true.
+func backOffLine(g *gray, last, lo, hi, ya, yb, dir, core int, pxPerMM float64) (int, int, int, bool) {
+	strong := uint8(min(255, core*6/10))
+	if hi-lo > int(1.5*pxPerMM) { // a tall run is a stroke, not a line
+		return last, lo, hi, false
+	}
+	a, b := max(ya, lo-2), min(yb-1, hi+2)
+	limit := int(60 * pxPerMM)
+	x := last
+	for n := 0; n < limit; n++ {
+		if x < 0 || x >= g.w {
+			return last, lo, hi, false
+		}
+		peak := uint8(0)
+		for y := a; y <= b; y++ {
+			peak = max(peak, g.pix[y*g.w+x])
+		}
+		if peak >= strong {
+			break
+		}
+		x += dir
+	}
+	if abs(x-last) <= int(2*pxPerMM) || abs(x-last) >= limit {
+		return last, lo, hi, false
+	}
+	if na, nz, ok := runAt(g, x, ya, yb, lo, hi, 2, strong); ok {
+		return x, na, nz, true
+	}
+	return last, lo, hi, false
+}
+
 func abs(v int) int {
 	if v < 0 {
 		return -v
@@ -214,10 +253,16 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 	y := int(r.base)
 	// End: walk right from well inside.
 	if last, lo, hi, ok := walkTrace(g, r.x1-span/8, y, ya, yb, +1, gap, solid, g.w-1, on); ok {
+		cut := false
+		if len(cm) > 0 {
+			last, lo, hi, cut = backOffLine(g, last, lo, hi, ya, yb, -1, cm[len(cm)/2], pxPerMM)
+		}
 		m.end = capEdge(g, last, lo, hi, +1, pxPerMM, hw)
 		// A trace cut by the image edge has no end; a walk that stopped
-		// well short of where the row's ink ends lost the trace.
-		m.okEnd = last < g.w-2 && last >= endRef-int(3*pxPerMM)
+		// well short of where the row's ink ends lost the trace, unless
+		// what went on was a grid line (the row's coarse extent follows
+		// it too).
+		m.okEnd = last < g.w-2 && (cut || last >= endRef-int(3*pxPerMM))
 	}
 	// Start: walk left from well inside, not into the pulse.
 	stop := 0
