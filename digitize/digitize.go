@@ -139,7 +139,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	rows := findRows(g, p)
+	rows := findRows(g, p, cal.GainMMPerMV)
 	if len(rows) == 0 {
 		return nil, ErrNoTrace
 	}
@@ -148,7 +148,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if right >= 2 && right > left {
 		turnResultHalf(cal)
 		g = turnedGray(g)
-		rows = findRows(g, p)
+		rows = findRows(g, p, cal.GainMMPerMV)
 		if len(rows) == 0 {
 			return nil, ErrNoTrace
 		}
@@ -168,7 +168,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
 		rows = fitRows(rows, layoutRows[opt.Layout])
 		if rows == nil {
-			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p)), opt.Layout, layoutRows[opt.Layout])
+			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p, cal.GainMMPerMV)), opt.Layout, layoutRows[opt.Layout])
 		}
 	}
 	hyps := candidates(len(rows), opt)
@@ -188,7 +188,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 			ink2 = InkFromRGB(cal.Rectified)
 		}
 		g2 := prepare(ink2, p)
-		rows2 := findRows(g2, p)
+		rows2 := findRows(g2, p, cal.GainMMPerMV)
 		if opt.Layout == "" {
 			rows2 = trimRows(rows2)
 		} else if layoutRows[opt.Layout] != len(rows2) {

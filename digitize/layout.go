@@ -15,7 +15,7 @@ type rowInfo struct {
 // isoelectric level of a trace is the densest line of ink in its row.
 // Candidates whose ink does not run a long way across the page (header
 // text, lead labels) are dropped.
-func findRows(g *gray, pxPerMM float64) []rowInfo {
+func findRows(g *gray, pxPerMM, gain float64) []rowInfo {
 	prof := make([]float64, g.h)
 	for y := 0; y < g.h; y++ {
 		s := 0
@@ -56,18 +56,38 @@ func findRows(g *gray, pxPerMM float64) []rowInfo {
 	longest := 0
 	type ext struct{ x0, x1, run int }
 	exts := make([]ext, len(cands))
-	for i, y := range cands {
+	// The row's ink is looked for within 6 mm of its level. At a larger
+	// gain the waves leave that band for longer (a T wave of −0.6 mV
+	// reaches 12 mm down at 20 mm/mV); a candidate as dense as a row's
+	// baseline is then given a band that grows with the gain, which a
+	// weak candidate between rows (waves of the rows either side) is not.
+	span := func(y int, half float64) ext {
 		// The profile's peak of a row whose two halves stand at different
 		// levels (the columns of a 6x2 page) may sit at one half's level:
 		// the span is taken at the best of a few levels around it.
+		var best ext
 		for _, d := range []float64{0, -1.5, 1.5} {
 			yy := y + int(d*pxPerMM)
-			x0, x1, run := inkSpan(g, yy-int(6*pxPerMM), yy+int(6*pxPerMM), pxPerMM)
-			if run > exts[i].run {
-				exts[i] = ext{x0, x1, run}
+			x0, x1, run := inkSpan(g, yy-int(half*pxPerMM), yy+int(half*pxPerMM), pxPerMM)
+			if run > best.run {
+				best = ext{x0, x1, run}
 			}
 		}
+		return best
+	}
+	for i, y := range cands {
+		exts[i] = span(y, 6)
 		longest = max(longest, exts[i].run)
+	}
+	if wide := 6 * gain / 10; wide > 6 {
+		for i, y := range cands {
+			if exts[i].run < int(0.55*float64(longest)) && prof[y] >= 0.5*mx {
+				if e := span(y, wide); e.run > exts[i].run {
+					exts[i] = e
+					longest = max(longest, e.run)
+				}
+			}
+		}
 	}
 	for i, y := range cands {
 		if exts[i].run < int(0.55*float64(longest)) || exts[i].run < int(20*pxPerMM) {
