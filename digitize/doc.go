@@ -10,6 +10,18 @@
 // centre y per pixel column, NaN where the trace is lost. Column x covers
 // [x, x+1) and is sampled at its centre x+0.5.
 //
+// Reading a column: the path found by dynamic programming names the run
+// of ink that holds the trace in each column. A line drawn with a round
+// pen is its centre line swept by the pen's disc, so each column's top
+// and bottom edges (to a fraction of a pixel from the coverage summed
+// across them) bound the centre line once eroded by that disc: the top
+// edge from above, tight at peaks and along strokes; the bottom edge from
+// below, tight at troughs and along strokes. Where the bounds meet the
+// centre line lies between them; where they part the column holds a tip,
+// and the flanks say whether a peak or a trough. The pen's half width is
+// measured across flat stretches (slope divided out); the round caps at
+// the trace ends take the thinnest stretch's.
+//
 // Time: seconds on the tracing's clock, 0 at the left edge of the first
 // column of panels. The columns of a 3×4 printout are simultaneous 2.5 s
 // windows of one clock and a rhythm strip runs on the same clock.
