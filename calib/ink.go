@@ -1,6 +1,7 @@
 package calib
 
 import (
+	"encoding/binary"
 	"image"
 	"math"
 	"sort"
@@ -59,7 +60,9 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 		pm = pm[:len(o)]
 		for x := range o {
 			if pm[x] {
-				v := max(src[4*x], src[4*x+1], src[4*x+2])
+				// One load a pixel; the brightest of R, G and B.
+				px := binary.LittleEndian.Uint32(src[4*x : 4*x+4])
+				v := max(px&0xff, px>>8&0xff, px>>16&0xff)
 				o[x] = lut[int(pr[x])<<8|int(v)]
 			}
 		}
@@ -82,15 +85,17 @@ func paperLevel(img *image.NRGBA, b int) (func(y int) []uint8, func(y int) []boo
 	bw, bh := (w+b-1)/b, (h+b-1)/b
 	lev := make([]float32, bw*bh)
 	var hist [256]int
+	smp := max(2, b/12) // some 150 to 250 samples a block
 	lo, hi := float32(255), float32(0)
 	for by := 0; by < bh; by++ {
 		for bx := 0; bx < bw; bx++ {
 			hist = [256]int{}
 			n := 0
-			for y := by * b; y < min(h, by*b+b); y += 2 {
+			for y := by * b; y < min(h, by*b+b); y += smp {
 				row := img.Pix[y*img.Stride:]
-				for x := bx * b; x < min(w, bx*b+b); x += 2 {
-					hist[max(row[4*x], row[4*x+1], row[4*x+2])]++
+				for x := bx * b; x < min(w, bx*b+b); x += smp {
+					px := binary.LittleEndian.Uint32(row[4*x : 4*x+4])
+					hist[max(px&0xff, px>>8&0xff, px>>16&0xff)]++
 					n++
 				}
 			}
@@ -199,7 +204,7 @@ func lineProfile(g *image.Gray, gl gridLines, vertical bool) (hw int, contrast f
 	}
 	mean := make([]float64, n)
 	if vertical {
-		for y := 0; y < h; y += 2 {
+		for y := 0; y < h; y += 4 {
 			row := g.Pix[y*g.Stride:]
 			for x := 0; x < w; x++ {
 				mean[x] += float64(row[x])
@@ -209,7 +214,7 @@ func lineProfile(g *image.Gray, gl gridLines, vertical bool) (hw int, contrast f
 		for y := 0; y < h; y++ {
 			row := g.Pix[y*g.Stride : y*g.Stride+w]
 			var s float64
-			for x := 0; x < w; x += 2 {
+			for x := 0; x < w; x += 4 {
 				s += float64(row[x])
 			}
 			mean[y] = s
@@ -239,9 +244,9 @@ func lineProfile(g *image.Gray, gl gridLines, vertical bool) (hw int, contrast f
 			fold[k] /= cnt[k]
 		}
 	}
-	norm := float64(h / 2)
+	norm := float64((h + 3) / 4) // pixels summed into each mean
 	if !vertical {
-		norm = float64(w / 2)
+		norm = float64((w + 3) / 4)
 	}
 	base := fold[maxD] / norm
 	peak := fold[0] / norm
@@ -310,9 +315,9 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 					best, bestS = c, sum
 				}
 			}
-			hist = [256]int{}
-			for i, e := a0*stepA+best*stepC, a1*stepA+best*stepC; i < e; i += stepA {
-				hist[pix[i]]++
+			line := pix[a0*stepA+best*stepC : a1*stepA+best*stepC]
+			for _, v := range line {
+				hist[v]++
 			}
 			lv, acc := 0, 0
 			for lv = 0; lv < 255; lv++ {
@@ -320,6 +325,9 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 				if 2*acc >= a1-a0 {
 					break
 				}
+			}
+			for _, v := range line {
+				hist[v] = 0 // clear only what was counted
 			}
 			segs = append(segs, segLine{best, a0, a1, lv})
 		}
@@ -335,30 +343,59 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 	if usual < 8 {
 		return
 	}
+	var luts levelLUTs
+	var carry [seg]uint8
 	for _, sg := range segs {
 		l := sg.lv
 		if float64(l) > 1.3*usual+15 {
 			l = int(usual)
 		}
-		rec := (255 << 16) / (256 - l) // (v − l)·255/(256 − l) by multiply-shift
+		tab := luts.get(l)
 		lo, hi := max(sg.c-hw, 0), min(sg.c+hw, across-1)
 		cl, cr := sg.c-hw-1, sg.c+hw+1
-		for a := sg.a0; a < sg.a1; a++ {
-			base := a * stepA
-			var vl, vr uint8
-			if cl >= 0 {
-				vl = pix[base+cl*stepC]
+		// The lines run along the rows: the band is walked row by row.
+		n := sg.a1 - sg.a0
+		for k := range carry[:n] {
+			carry[k] = 0
+		}
+		if cl >= 0 && cr < across {
+			rl, rr := pix[cl*stepC+sg.a0:cl*stepC+sg.a1], pix[cr*stepC+sg.a0:cr*stepC+sg.a1]
+			for k := range rl {
+				carry[k] = min(rl[k], rr[k])
 			}
-			if cr < across {
-				vr = pix[base+cr*stepC]
-			}
-			carry := min(vl, vr)
-			for i, e := base+lo*stepC, base+hi*stepC; i <= e; i += stepC {
-				v := (int(pix[i]) - l) * rec >> 16
-				pix[i] = max(uint8(max(0, min(255, v))), carried(pix[i], carry))
+		}
+		for c := lo; c <= hi; c++ {
+			row := pix[c*stepC+sg.a0 : c*stepC+sg.a1]
+			// Paper (0) stays 0: eight pixels of it are passed at once.
+			for k := 0; k < len(row); k += 8 {
+				e := min(k+8, len(row))
+				if e-k == 8 && binary.LittleEndian.Uint64(row[k:e]) == 0 {
+					continue
+				}
+				for j := k; j < e; j++ {
+					v := row[j]
+					row[j] = keepLine(tab[v], v, carry[j])
+				}
 			}
 		}
 	}
+}
+
+// levelLUTs caches, per line level l, the table v ↦ (v − l)·255/(256 − l)
+// clamped to 0..255 (what a line pixel keeps once the line is taken out).
+type levelLUTs [256]*[256]uint8
+
+func (t *levelLUTs) get(l int) *[256]uint8 {
+	l = clampI(l, 0, 255)
+	if t[l] == nil {
+		tab := new([256]uint8)
+		rec := (255 << 16) / (256 - l) // multiply-shift, as computed before
+		for v := range tab {
+			tab[v] = uint8(max(0, min(255, (v-l)*rec>>16)))
+		}
+		t[l] = tab
+	}
+	return t[l]
 }
 
 // suppressVertical is suppressLines for the vertical lines, walking the
@@ -387,7 +424,7 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 	for bi := 0; bi < nb; bi++ {
 		a0, a1 := bi*seg, min(h, bi*seg+seg)
 		clear(sums)
-		for y := a0; y < a1; y += 2 {
+		for y := a0; y < a1; y += 4 {
 			for x, v := range pix[y*st : y*st+w] {
 				sums[x] += int32(v)
 			}
@@ -440,12 +477,17 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 			lv[i] = int(usual)
 		}
 	}
+	var luts levelLUTs
+	tabs := make([]*[256]uint8, len(lv))
+	for i, l := range lv {
+		tabs[i] = luts.get(l)
+	}
 	for y := 0; y < h; y++ {
 		bi := y / seg
 		row := pix[y*st : y*st+w]
 		for li := 0; li < nl; li++ {
 			c := best[bi*nl+li]
-			l := lv[bi*nl+li]
+			tab := tabs[bi*nl+li]
 			lo, hi := max(c-hw, 0), min(c+hw, w-1)
 			var vl, vr uint8
 			if c-hw-1 >= 0 {
@@ -455,11 +497,12 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 				vr = row[c+hw+1]
 			}
 			carry := min(vl, vr)
-			rec := (255 << 16) / (256 - l)
-			for x := lo; x <= hi; x++ {
-				v := (int(row[x]) - l) * rec >> 16
-				nv := uint8(max(0, min(255, v)))
-				row[x] = max(nv, carried(row[x], carry))
+			band := row[lo : hi+1]
+			if len(band) == 8 && binary.LittleEndian.Uint64(band) == 0 {
+				continue // paper stays paper
+			}
+			for x, v := range band {
+				band[x] = keepLine(tab[v], v, carry)
 			}
 		}
 	}
@@ -526,10 +569,22 @@ func suppressDots(g *image.Gray, gl gridLines) {
 // lie close on either side of the line (the two strokes of a narrow
 // spike), which must not be bridged.
 func carried(v, carry uint8) uint8 {
-	if int(carry) > int(v)+carryTol {
-		return 0
-	}
-	return min(v, carry)
+	// Without branches (the outcome changes from pixel to pixel):
+	// min(v, carry), masked to 0 when carry > v + carryTol.
+	a, c := int(v), int(carry)
+	d := c - a
+	m := a + (d & (d >> 63)) // min(a, c)
+	keep := ^((a + carryTol - c) >> 63)
+	return uint8(m & keep)
+}
+
+// keepLine is max(t, carried(v, carry)) without branches: what a grid-line
+// pixel of ink v keeps, t being what is left of it once the line's own
+// level is taken out.
+func keepLine(t, v, carry uint8) uint8 {
+	k := int(carried(v, carry))
+	d := int(t) - k
+	return uint8(k + (d &^ (d >> 63))) // max(t, k)
 }
 
 // carryTol is how much paler (ink levels) than the ink on both sides a

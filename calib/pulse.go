@@ -1,6 +1,7 @@
 package calib
 
 import (
+	"encoding/binary"
 	"fmt"
 	"image"
 	"math"
@@ -63,15 +64,30 @@ func findPulses(ink *image.Gray, sLo, sHi float64, thr uint8, lean bool) []Pulse
 	for i := range start {
 		start[i] = -1
 	}
+	// Eight columns at a time are passed over while none of them holds a
+	// run and their pixels are paper (0) or, at the usual threshold of
+	// 128, all under it (top bits clear).
+	openRuns := make([]int, (w+7)/8)
+	quiet := func(word uint64) bool {
+		if thr == 128 {
+			return word&0x8080808080808080 == 0
+		}
+		return word == 0
+	}
 	for y := 0; y <= h; y++ {
 		var row []uint8
 		if y < h {
 			row = ink.Pix[y*ink.Stride : y*ink.Stride+w]
 		}
 		for x := 0; x < w; x++ {
+			if x&7 == 0 && x+8 <= w && openRuns[x>>3] == 0 && (y == h || quiet(binary.LittleEndian.Uint64(row[x:x+8]))) {
+				x += 7
+				continue
+			}
 			if y < h && row[x] >= thr {
 				if start[x] < 0 {
 					start[x] = int32(y)
+					openRuns[x>>3]++
 				}
 				continue
 			}
@@ -81,6 +97,7 @@ func findPulses(ink *image.Gray, sLo, sHi float64, thr uint8, lean bool) []Pulse
 					runsByCol[x] = append(runsByCol[x], stroke{x, x, s, y - 1, float64(x * l), float64(l), m * float64(l), m * m * float64(l), float64(x) * m * float64(l)})
 				}
 				start[x] = -1
+				openRuns[x>>3]--
 			}
 		}
 	}

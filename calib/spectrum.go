@@ -3,6 +3,7 @@ package calib
 import (
 	"math"
 	"math/cmplx"
+	"sync"
 )
 
 // fft is an in-place iterative radix-2 Cooley–Tukey transform; len(a) must
@@ -19,19 +20,39 @@ func fft(a []complex128) {
 			a[i], a[j] = a[j], a[i]
 		}
 	}
+	tw := twiddles(n)
 	for size := 2; size <= n; size <<= 1 {
-		step := cmplx.Exp(complex(0, -2*math.Pi/float64(size)))
+		half := size / 2
+		stride := n / size
 		for start := 0; start < n; start += size {
-			w := complex(1, 0)
-			half := size / 2
-			for k := 0; k < half; k++ {
-				t := w * a[start+k+half]
-				a[start+k+half] = a[start+k] - t
-				a[start+k] += t
-				w *= step
+			lo, hi := a[start:start+half], a[start+half:start+size]
+			for k := range lo {
+				t := tw[k*stride] * hi[k]
+				hi[k] = lo[k] - t
+				lo[k] += t
 			}
 		}
 	}
+}
+
+var (
+	twMu    sync.Mutex
+	twCache = map[int][]complex128{}
+)
+
+// twiddles returns exp(-2πi·k/n) for k < n/2, made once per n.
+func twiddles(n int) []complex128 {
+	twMu.Lock()
+	defer twMu.Unlock()
+	if t, ok := twCache[n]; ok {
+		return t
+	}
+	t := make([]complex128, max(1, n/2))
+	for k := range t {
+		t[k] = cmplx.Exp(complex(0, -2*math.Pi*float64(k)/float64(n)))
+	}
+	twCache[n] = t
+	return t
 }
 
 // hann returns the Hann window of length n.
@@ -142,67 +163,57 @@ func gridAngles(wk *work, patches int) [2]angleEst {
 		}
 	}
 	win := hann(n)
-	pw := make([]float64, n*n)
+	hn := n/2 + 1 // the spectrum of a real patch is symmetric: columns 0..n/2 hold it all
+	pw := make([]float64, n*hn)
 	row := make([]complex128, n)
-	data := make([]complex128, n*n)
+	data := make([]complex128, n*hn)
 	for _, c := range centres {
 		var mean float64
 		for y := 0; y < n; y++ {
-			for x := 0; x < n; x++ {
-				mean += float64(wk.dmin[(c[1]+y)*wk.w+c[0]+x])
+			for _, v := range wk.dmin[(c[1]+y)*wk.w+c[0] : (c[1]+y)*wk.w+c[0]+n] {
+				mean += float64(v)
 			}
 		}
 		mean /= float64(n * n)
-		for y := 0; y < n; y++ {
+		// Two real rows in one complex transform (the first as the real
+		// part, the second as the imaginary part), parted by symmetry.
+		for y := 0; y < n; y += 2 {
+			ra := wk.dmin[(c[1]+y)*wk.w+c[0]:]
+			rb := wk.dmin[(c[1]+y+1)*wk.w+c[0]:]
 			for x := 0; x < n; x++ {
-				v := float64(wk.dmin[(c[1]+y)*wk.w+c[0]+x]) - mean
-				row[x] = complex(v*win[x]*win[y], 0)
+				row[x] = complex((float64(ra[x])-mean)*win[x]*win[y], (float64(rb[x])-mean)*win[x]*win[y+1])
 			}
 			fft(row)
-			copy(data[y*n:], row)
+			da, db := data[y*hn:(y+1)*hn], data[(y+1)*hn:(y+2)*hn]
+			for k := 0; k < hn; k++ {
+				z, zc := row[k], cmplx.Conj(row[(n-k)%n])
+				da[k] = (z + zc) / 2
+				db[k] = (z - zc) / complex(0, 2)
+			}
 		}
-		for x := 0; x < n; x++ {
+		for x := 0; x < hn; x++ {
 			for y := 0; y < n; y++ {
-				row[y] = data[y*n+x]
+				row[y] = data[y*hn+x]
 			}
 			fft(row)
 			for y := 0; y < n; y++ {
 				v := row[y]
-				pw[y*n+x] += real(v)*real(v) + imag(v)*imag(v)
+				pw[y*hn+x] += real(v)*real(v) + imag(v)*imag(v)
 			}
 		}
 	}
 	// Radial mean for whitening.
-	rmax := int(float64(n) / 2.3)
-	rmin := max(4, n/64)
-	rad := make([]float64, rmax+2)
-	cnt := make([]float64, rmax+2)
-	var pts []anglePt
-	for ky := 0; ky < n/2; ky++ {
-		for kx := -n/2 + 1; kx < n/2; kx++ {
-			if ky == 0 && kx <= 0 {
-				continue
-			}
-			r := math.Hypot(float64(kx), float64(ky))
-			ri := int(r + 0.5)
-			if ri < rmin || ri > rmax {
-				continue
-			}
-			xi := kx
-			if xi < 0 {
-				xi += n
-			}
-			i := ky*n + xi
-			rad[ri] += pw[i]
-			cnt[ri]++
-			pts = append(pts, anglePt{i, ri, math.Atan2(float64(ky), float64(kx))})
-		}
+	ap := anglePoints(n)
+	rad := make([]float64, ap.rmax+2)
+	for _, p := range ap.pts {
+		rad[p.r] += pw[p.i]
 	}
 	for i := range rad {
-		if cnt[i] > 0 {
-			rad[i] /= cnt[i]
+		if ap.cnt[i] > 0 {
+			rad[i] /= ap.cnt[i]
 		}
 	}
+	rmax, pts := ap.rmax, ap.pts
 	rLow := int(float64(n) / 3.5)
 	var out [2]angleEst
 	for band, rm := range []int{rmax, rLow} {
@@ -256,6 +267,53 @@ func foldAngle(pts []anglePt, pw, rad []float64, rm int) angleEst {
 		near += hist[(best+d+nb)%nb]
 	}
 	return angleEst{deg * math.Pi / 180, near / tot}
+}
+
+// anglePts lists the bins of an n×n spectrum that gridAngles reads: the
+// upper half plane between the radii rmin and rmax, each with its index in
+// the half spectrum (columns 0..n/2; a bin left of the axis is read at its
+// mirror image through the origin), its radius and angle.
+type anglePts struct {
+	pts  []anglePt
+	cnt  []float64 // bins per whole radius
+	rmax int
+}
+
+var (
+	anglePtsMu    sync.Mutex
+	anglePtsCache = map[int]*anglePts{}
+)
+
+func anglePoints(n int) *anglePts {
+	anglePtsMu.Lock()
+	defer anglePtsMu.Unlock()
+	if ap, ok := anglePtsCache[n]; ok {
+		return ap
+	}
+	hn := n/2 + 1
+	ap := &anglePts{rmax: int(float64(n) / 2.3)}
+	rmin := max(4, n/64)
+	ap.cnt = make([]float64, ap.rmax+2)
+	for ky := 0; ky < n/2; ky++ {
+		for kx := -n/2 + 1; kx < n/2; kx++ {
+			if ky == 0 && kx <= 0 {
+				continue
+			}
+			r := math.Hypot(float64(kx), float64(ky))
+			ri := int(r + 0.5)
+			if ri < rmin || ri > ap.rmax {
+				continue
+			}
+			i := ky*hn + kx
+			if kx < 0 {
+				i = ((n-ky)%n)*hn - kx
+			}
+			ap.cnt[ri]++
+			ap.pts = append(ap.pts, anglePt{i, ri, math.Atan2(float64(ky), float64(kx))})
+		}
+	}
+	anglePtsCache[n] = ap
+	return ap
 }
 
 // anglePt is one bin of the 2-D spectrum: its index, radius and angle.

@@ -44,8 +44,20 @@ func poolInk(ink *image.Gray, s float64, thr uint8) *pooledInk {
 		row := ink.Pix[y*ink.Stride : y*ink.Stride+n]
 		on := p.on[(y/bs)*w : (y/bs)*w+w]
 		if thr != 128 {
-			for x, v := range row {
-				if v >= thr {
+			// Paper is 0: eight pixels of it are skipped at once.
+			x := 0
+			for ; x+8 <= n; x += 8 {
+				if binary.LittleEndian.Uint64(row[x:x+8]) == 0 {
+					continue
+				}
+				for j := x; j < x+8; j++ {
+					if row[j] >= thr {
+						on[j/bs] = true
+					}
+				}
+			}
+			for ; x < n; x++ {
+				if row[x] >= thr {
 					on[x/bs] = true
 				}
 			}
@@ -78,12 +90,10 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 	if w < 8 || h < 8 {
 		return 0, 0
 	}
-	on := make([]bool, w*h)
 	rows := make([]float64, h)
 	cols := make([]float64, w)
 	for j := 0; j < h; j++ {
 		src := p.on[(j+r.Min.Y)*p.w+r.Min.X : (j+r.Min.Y)*p.w+r.Max.X]
-		copy(on[j*w:j*w+w], src)
 		for i, v := range src {
 			if v {
 				rows[j]++
@@ -113,7 +123,11 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 	}
 	// Turning is rare: ask for clear evidence before doing it.
 	if sv < 1.4*sh {
-		sk := riseScore(on, w, h, func(i, j int) int { return j*w + i }, w, h)
+		r := make([]int, h)
+		for j := range r {
+			r[j] = int(rows[j])
+		}
+		sk := riseScore(r, w)
 		if dbgGrid != nil {
 			dbgGrid("turn: rise %.4f", sk)
 		}
@@ -124,7 +138,12 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 		return 2, conf
 	}
 	// Upright candidate for q=1: upright (i', j') is grid pixel (w-1-j', i').
-	sk := riseScore(on, w, h, func(i, j int) int { return i*w + (w - 1 - j) }, h, w)
+	// (its rows are the grid's columns, right to left).
+	ur := make([]int, w)
+	for j := range ur {
+		ur[j] = int(cols[w-1-j])
+	}
+	sk := riseScore(ur, h)
 	conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*30)
 	if sk <= 0 {
 		return 1, conf
@@ -133,17 +152,10 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 }
 
 // riseScore is Σ (mean − median of ink rows) / band height over the trace
-// bands of the upright view (index maps upright (i, j) to on[]); negative
-// when the ink rises above the baselines.
-func riseScore(on []bool, _, _ int, idx func(i, j int) int, uw, uh int) float64 {
-	rows := make([]int, uh)
-	for j := 0; j < uh; j++ {
-		for i := 0; i < uw; i++ {
-			if on[idx(i, j)] {
-				rows[j]++
-			}
-		}
-	}
+// bands of the upright view, given its count of inked blocks per row and
+// its width uw; negative when the ink rises above the baselines.
+func riseScore(rows []int, uw int) float64 {
+	uh := len(rows)
 	// Bands: runs of rows separated by at least 2 mm (8 rows) of near-empty rows.
 	gapT := max(1, uw/400)
 	var score, wsum float64
@@ -166,24 +178,26 @@ func riseScore(on []bool, _, _ int, idx func(i, j int) int, uw, uh int) float64 
 		if end-start < 8 {
 			continue
 		}
-		var ys []float64
-		var tot float64
+		// The rows' counts are the ink's distribution over y: its mean,
+		// and its median read off the running count.
+		var tot, mean float64
 		for y := start; y < end; y++ {
-			for c := 0; c < rows[y]; c++ {
-				ys = append(ys, float64(y))
-			}
 			tot += float64(rows[y])
+			mean += float64(y) * float64(rows[y])
 		}
-		if len(ys) < 20 {
+		if tot < 20 {
 			continue
 		}
-		sort.Float64s(ys)
-		med := ys[len(ys)/2]
-		var mean float64
-		for _, y := range ys {
-			mean += y
+		mean /= tot
+		var med float64
+		half, acc := int(tot)/2, 0
+		for y := start; y < end; y++ {
+			acc += rows[y]
+			if acc > half {
+				med = float64(y)
+				break
+			}
 		}
-		mean /= float64(len(ys))
 		score += (mean - med) / float64(end-start) * tot
 		wsum += tot
 	}
@@ -266,11 +280,12 @@ func inkThreshold(ink *image.Gray, r image.Rectangle) uint8 {
 	r = r.Intersect(ink.Rect)
 	var hist [256]int
 	n := 0
-	for y := r.Min.Y; y < r.Max.Y; y += 2 {
-		for _, v := range ink.Pix[y*ink.Stride+r.Min.X : y*ink.Stride+r.Max.X] {
-			hist[v]++
+	for y := r.Min.Y; y < r.Max.Y; y += 4 {
+		row := ink.Pix[y*ink.Stride+r.Min.X : y*ink.Stride+r.Max.X]
+		for x := 0; x < len(row); x += 2 {
+			hist[row[x]]++
+			n++
 		}
-		n += r.Dx()
 	}
 	if n == 0 {
 		return 128
@@ -282,6 +297,9 @@ func inkThreshold(ink *image.Gray, r image.Rectangle) uint8 {
 		if acc > lim {
 			break
 		}
+	}
+	if lv >= 224 {
+		return 128 // traces at (nearly) full strength: the usual half way
 	}
 	return uint8(clampI(lv/2, 48, 128))
 }
