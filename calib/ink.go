@@ -61,7 +61,8 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 		for x := range o {
 			if pm[x] {
 				// One load a pixel; the brightest of R, G and B.
-				px := binary.LittleEndian.Uint32(src[4*x : 4*x+4])
+				q := src[4*x : 4*x+4 : 4*x+4]
+				px := uint32(q[0]) | uint32(q[1])<<8 | uint32(q[2])<<16 | uint32(q[3])<<24
 				v := max(px&0xff, px>>8&0xff, px>>16&0xff)
 				o[x] = lut[int(pr[x])<<8|int(v)]
 			}
@@ -498,9 +499,6 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 			}
 			carry := min(vl, vr)
 			band := row[lo : hi+1]
-			if len(band) == 8 && binary.LittleEndian.Uint64(band) == 0 {
-				continue // paper stays paper
-			}
 			for x, v := range band {
 				band[x] = keepLine(tab[v], v, carry)
 			}
