@@ -368,6 +368,25 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		pg.x0f = median(x0s)
 		pg.x0 = int(math.Round(pg.x0f))
 		pg.x1 = int(math.Round(pg.x0f + L))
+	} else {
+		// No clock from both ends (the traces run to the picture's edge,
+		// say): the starts the walks found still beat the coarse extents,
+		// which a wave leaving the row's band cuts short.
+		var ss []float64
+		for _, m := range marks {
+			if m.okStart {
+				ss = append(ss, m.start)
+			}
+		}
+		if len(ss) > 0 {
+			x1 := pg.x0f + pg.span
+			pg.x0f = median(ss)
+			pg.x0 = int(math.Round(pg.x0f))
+			pg.span = x1 - pg.x0f
+			for i := range pg.rowX0 {
+				pg.rowX0[i] = pg.x0f
+			}
+		}
 	}
 	return pg
 }

@@ -252,9 +252,36 @@ func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float
 			}
 		}
 	}
+	// A pulse is a box: between its rise and its fall the ink runs flat
+	// along the top, at least half a pulse's height above the baseline.
+	// Two strokes of a QRS complex the same distance apart have no such
+	// line between them. (The strokes' own tops say little: a pulse's
+	// sides may stand on grid lines.)
+	flatTop := func(a, b int) bool {
+		n := b - a - 3
+		if n <= 0 {
+			return false
+		}
+		slack := max(2, int(0.2*pxPerMM))
+		for y := ya; y <= int(base-0.5*tall); y++ {
+			inked := 0
+			for x := a + 2; x <= b-2; x++ {
+				for yy := max(0, y-slack); yy <= min(g.h-1, y+slack); yy++ {
+					if g.pix[yy*g.w+x] >= on {
+						inked++
+						break
+					}
+				}
+			}
+			if inked*10 >= n*7 {
+				return true
+			}
+		}
+		return false
+	}
 	for i := 0; i+1 < len(strokes); i++ {
 		d := float64(strokes[i+1]-strokes[i]) / (pxPerMM * speed)
-		if d >= 0.1 && d <= 0.3 {
+		if d >= 0.1 && d <= 0.3 && flatTop(strokes[i], strokes[i+1]) {
 			// Skip the flat lead-out after the fall to the first gap.
 			x := strokes[i+1] + 1
 			for x < x1 && x < strokes[i+1]+int(4*pxPerMM) {
