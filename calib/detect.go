@@ -285,7 +285,6 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		P := turnMat(q, W, Hh)
 		rect, ink = turnNRGBA(rect, q), turnGray(ink, q)
 		M = M.mul(P)
-		T = T.mul(R).mul(P).mul(mat3{s, 0, 0, 0, s, 0, 0, 0, 1}) // upright mm → grid mm
 	}
 	// Report the scale and skew at the middle of the tracing (the ink's
 	// centroid on the paper, away from the page's edges): under

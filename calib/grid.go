@@ -191,7 +191,6 @@ type axisFit struct {
 	ok    bool
 	unit  float64 // mm per fundamental period (1 or 5), set later
 	oneMM bool    // F is known to be the 1 mm lines (they were seen under a 5 mm period)
-	tileO []float64
 }
 
 const tileFFT = 512
@@ -423,12 +422,9 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 		if t.n < 0.9*float64(g.ts*g.ts) {
 			continue
 		}
-		x, y := t.sx/t.n, t.sy/t.n
 		p, off := t.pv, g.vmin+float64(t.iv*g.ts)
-		uc := -g.s*x + g.c*y
 		if useU {
 			p, off = t.pu, g.umin+float64(t.iu*g.ts)
-			uc = g.c*x + g.s*y
 		}
 		mean := weightedMean(p, w)
 		xw = xw[:0]
@@ -436,7 +432,7 @@ func measureTiles(g *gridScan, af *axisFit, useU bool) []tileMeasure {
 			xw = append(xw, (float64(v)-mean)*w[b])
 		}
 		// The phase refers to the window's centre.
-		uc = off + float64(len(p)-1)/2
+		uc := off + float64(len(p)-1)/2
 		// Coarse then fine search of the local fundamental.
 		hc := float64(coarse[len(coarse)-1])
 		step := 0.35 / (fts * hc)

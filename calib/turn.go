@@ -7,19 +7,6 @@ import (
 	"sort"
 )
 
-// decideTurn finds how many counter-clockwise quarter turns make the page
-// upright. Two cues on the ink map pooled to about 4 px/mm: traces run mostly along
-// the time axis (more horizontal than vertical ink neighbours), and QRS
-// complexes and the calibration step rise above the baseline more than
-// they fall below it in most leads, so within a trace row the ink's mean
-// lies above its median when the page is upright (common practice: most
-// leads are predominantly upright; aVR and some others are not, which the
-// sum over all rows outweighs).
-func decideTurn(ink *image.Gray, s float64) (int, float64) {
-	p := poolInk(ink, s, inkThreshold(ink, ink.Rect))
-	return p.decide(image.Rect(0, 0, p.w, p.h))
-}
-
 // pooledInk marks the blocks of bs×bs ink pixels that hold strong ink.
 type pooledInk struct {
 	on   []bool
@@ -83,7 +70,14 @@ func poolInk(ink *image.Gray, s float64, thr uint8) *pooledInk {
 	return p
 }
 
-// decide is decideTurn over the pooled blocks inside r (block units).
+// decide finds how many counter-clockwise quarter turns make the page
+// upright, from the pooled blocks inside r (block units). Two cues:
+// traces run mostly along the time axis (more horizontal than vertical
+// ink neighbours), and QRS complexes and the calibration step rise above
+// the baseline more than they fall below it in most leads, so within a
+// trace row the ink's mean lies above its median when the page is upright
+// (common practice: most leads are predominantly upright; aVR and some
+// others are not, which the sum over all rows outweighs).
 func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 	r = r.Intersect(image.Rect(0, 0, p.w, p.h))
 	w, h := r.Dx(), r.Dy()

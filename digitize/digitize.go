@@ -338,13 +338,8 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	// A grid line left in the working map carries a row's coarse extent
 	// to the grid's edge; where the rows' strong ink ends is the safer
 	// guard then.
-	var strongEnds []int
 	for _, r := range rows {
-		strongEnds = append(strongEnds, strongEnd(g, r, pg.pitch))
-	}
-	sort.Ints(strongEnds)
-	if strongEnds[0] < endRef {
-		endRef = strongEnds[0]
+		endRef = min(endRef, strongEnd(g, r, pg.pitch))
 	}
 	minFall := math.MaxInt
 	for _, f := range falls {
@@ -474,24 +469,13 @@ func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
 // removal stay well under it.
 func strongEnd(g *gray, r rowInfo, pitch float64) int {
 	ya, yb := max(0, int(r.base-0.5*pitch)), min(g.h, int(r.base+0.5*pitch))
-	colMax := func(x int) int {
-		m := 0
-		for y := ya; y < yb; y++ {
-			m = max(m, int(g.pix[y*g.w+x]))
-		}
-		return m
-	}
-	var cm []int
-	for x := r.x0; x < r.x1; x += 3 {
-		cm = append(cm, colMax(x))
-	}
-	if len(cm) == 0 {
+	core := medianColMax(g, r.x0, r.x1, ya, yb)
+	if core < 0 {
 		return r.x1
 	}
-	sort.Ints(cm)
-	strong := cm[len(cm)/2] * 6 / 10
+	strong := core * 6 / 10
 	x := min(r.x1, g.w-1)
-	for x > r.x0 && colMax(x) < strong {
+	for x > r.x0 && colMax(g, x, ya, yb) < strong {
 		x--
 	}
 	return x

@@ -109,8 +109,6 @@ type gray struct {
 	raw  []uint8 // the ink before blur and line removal (nil when not kept)
 }
 
-func (g *gray) at(x, y int) uint8 { return g.pix[y*g.w+x] }
-
 // prepare turns an ink map into the tracer's working map: a small blur
 // (merges fax dithering and JPEG speckle into strokes), then removal of
 // long straight lines: in every stretch of segLen pixels of a row the 8th

@@ -143,7 +143,7 @@ func inspectOne(t *testing.T, seed int64, i int) {
 		t.Logf("  %-4s snr %5.1f r %.3f ls-gain %.3f start %.3f/%.3f best shift %+.0f ms (r %.3f)", l, a.SNRdB, a.R, sre/see, ref.StartS, e.StartS, 1000*sh, shr)
 	}
 	// Where the truth's panels landed on the rectified page.
-	if inv, ok := inv3x3(cal.RectToImage); ok {
+	if inv, ok := samples.Invert(cal.RectToImage); ok {
 		for _, tp := range tr.Panels {
 			ix, iy := samples.Apply(tr.PageToImage, tp.Box[0], tp.BaselineYPx)
 			rx, ry := samples.Apply(inv, ix, iy)
@@ -263,19 +263,6 @@ func wideShift(ref, est *record.Signal) (shift, r float64) {
 		}
 	}
 	return best, bestR
-}
-
-// inv3x3 inverts a row-major 3×3 matrix.
-func inv3x3(m [9]float64) ([9]float64, bool) {
-	a, b, c, d, e, f, g, h, i := m[0], m[1], m[2], m[3], m[4], m[5], m[6], m[7], m[8]
-	A, B, C := e*i-f*h, -(d*i - f*g), d*h-e*g
-	det := a*A + b*B + c*C
-	if math.Abs(det) < 1e-12 {
-		return m, false
-	}
-	return [9]float64{A / det, -(b*i - c*h) / det, (b*f - c*e) / det,
-		B / det, (a*i - c*g) / det, -(a*f - c*d) / det,
-		C / det, -(a*h - b*g) / det, (a*e - b*d) / det}, true
 }
 
 // TestInspectDemo digitizes the embedded demo printout whose name holds

@@ -181,18 +181,12 @@ func gaussSmooth(v []float64, sigma float64) []float64 {
 	return out
 }
 
-// pulseEnd returns the first column right of any calibration pulse at the
-// left of a row starting at x0 around baseline base: a pair of vertical
-// strokes at least 0.6 mV tall, 100–300 ms apart, within the first
-// stretch of the row (common practice: a 1 mV, 200 ms square pulse). It
-// returns x0 when none is found.
-func pulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) int {
-	x, _ := pulseEndFall(g, x0, x1, base, pitch, pxPerMM, speed, gain)
-	return x
-}
-
-// pulseEndFall is pulseEnd that also returns the last column of the
-// pulse's falling stroke (−1 when no pulse is found).
+// pulseEndFall returns the first column right of any calibration pulse
+// at the left of a row starting at x0 around baseline base: a pair of
+// vertical strokes at least 0.6 mV tall, 100–300 ms apart, within the
+// first stretch of the row (common practice: a 1 mV, 200 ms square
+// pulse), and the last column of the pulse's falling stroke. It returns
+// x0 and −1 when none is found.
 func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) (int, int) {
 	if x, fall := pulseEndFallAt(g, x0, x1, base, pitch, pxPerMM, speed, gain, 64); fall >= 0 {
 		return x, fall
@@ -201,19 +195,11 @@ func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64
 	// ink through the blur: look again with strokes counted from a fifth
 	// of the trace's usual strength (the median over the row of the
 	// column maximum).
-	var cm []int
-	for x := x0; x < x1; x += 3 {
-		m := 0
-		for y := max(0, int(base-0.3*pitch)); y < min(g.h, int(base+0.3*pitch)); y++ {
-			m = max(m, int(g.pix[y*g.w+x]))
-		}
-		cm = append(cm, m)
-	}
-	if len(cm) == 0 {
+	core := medianColMax(g, x0, x1, max(0, int(base-0.3*pitch)), min(g.h, int(base+0.3*pitch)))
+	if core < 0 {
 		return x0, -1
 	}
-	sort.Ints(cm)
-	on := uint8(min(64, max(20, cm[len(cm)/2]/5)))
+	on := uint8(min(64, max(20, core/5)))
 	if on >= 64 {
 		return x0, -1
 	}
@@ -437,4 +423,29 @@ func trimRows(rows []rowInfo) []rowInfo {
 		}
 	}
 	return rows
+}
+
+// colMax returns the strongest working-map ink in column x over rows
+// [ya, yb).
+func colMax(g *gray, x, ya, yb int) int {
+	m := 0
+	for y := ya; y < yb; y++ {
+		m = max(m, int(g.pix[y*g.w+x]))
+	}
+	return m
+}
+
+// medianColMax returns a row's usual ink strength: the median, over every
+// third column of [x0, x1), of the column maximum over rows [ya, yb);
+// −1 when there are no columns.
+func medianColMax(g *gray, x0, x1, ya, yb int) int {
+	var cm []int
+	for x := x0; x < x1; x += 3 {
+		cm = append(cm, colMax(g, x, ya, yb))
+	}
+	if len(cm) == 0 {
+		return -1
+	}
+	sort.Ints(cm)
+	return cm[len(cm)/2]
 }

@@ -41,7 +41,6 @@ func Signals(cal *calib.Result, panels []Panel, traces []Trace, rateHz float64) 
 	type part struct {
 		t0, t1 float64
 		mv     []float64 // on the lead's common grid from t0 (index 0 at the lead's start)
-		start  int
 		rhythm bool
 	}
 	type lead struct {

@@ -135,11 +135,7 @@ func backOffLine(g *gray, last, lo, hi, ya, yb, dir, core int, pxPerMM float64) 
 		if x < 0 || x >= g.w {
 			return last, lo, hi, false
 		}
-		peak := uint8(0)
-		for y := a; y <= b; y++ {
-			peak = max(peak, g.pix[y*g.w+x])
-		}
-		if peak >= strong {
+		if colMax(g, x, a, b+1) >= int(strong) {
 			break
 		}
 		x += dir
@@ -237,25 +233,17 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 	// Ink is what reaches a third of the trace's usual strength in this
 	// row (the median over columns of the column maximum): a faint trace
 	// on a dark grid stays below a fixed level in places.
-	var cm []int
-	for x := r.x0; x < r.x1; x += 3 {
-		m := 0
-		for yy := ya; yy < yb; yy++ {
-			m = max(m, int(g.pix[yy*g.w+x]))
-		}
-		cm = append(cm, m)
-	}
-	sort.Ints(cm)
+	core := medianColMax(g, r.x0, r.x1, ya, yb)
 	on := uint8(inkOn)
-	if len(cm) > 0 {
-		on = uint8(min(inkOn, max(24, cm[len(cm)/2]/3)))
+	if core >= 0 {
+		on = uint8(min(inkOn, max(24, core/3)))
 	}
 	y := int(r.base)
 	// End: walk right from well inside.
 	if last, lo, hi, ok := walkTrace(g, r.x1-span/8, y, ya, yb, +1, gap, solid, g.w-1, on); ok {
 		cut := false
-		if len(cm) > 0 {
-			last, lo, hi, cut = backOffLine(g, last, lo, hi, ya, yb, -1, cm[len(cm)/2], pxPerMM)
+		if core >= 0 {
+			last, lo, hi, cut = backOffLine(g, last, lo, hi, ya, yb, -1, core, pxPerMM)
 		}
 		m.end = capEdge(g, last, lo, hi, +1, pxPerMM, hw)
 		// A trace cut by the image edge has no end; a walk that stopped

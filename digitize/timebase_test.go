@@ -79,7 +79,7 @@ func TestResidualTurnStraightened(t *testing.T) {
 		// the forward turn (old → turned) then the inverse of RectToImage.
 		tx := tp.Box[0] + s*(tp.BaselineYPx-h/2)
 		ty := tp.BaselineYPx - s*(tp.Box[0]-w/2)
-		inv, ok := inv3x3(cal.RectToImage)
+		inv, ok := samples.Invert(cal.RectToImage)
 		if !ok {
 			t.Fatal("RectToImage not invertible")
 		}

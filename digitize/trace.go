@@ -138,7 +138,6 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 	maxExt := int(math.Max(0.9*b.pitch, 6*b.halfLine))
 	hw := b.halfLine
 	maxBridge := max(3, int(math.Ceil(2*hw)))
-	ext := 0
 	for x := 0; x < W; x++ {
 		cx := cm[x*H : (x+1)*H]
 		p := path[x]
@@ -148,6 +147,12 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 		}
 		lo, hi := min(p, q), max(p, q)
 		at := func(i int) float32 { return inkLUT[cx[i]] }
+		// pageInk says whether the page had ink at row i of this column
+		// before blur and line removal.
+		col := b.x0 + x
+		pageInk := func(i int) bool {
+			return g.raw != nil && float64(g.raw[(b.y0+i)*g.w+col]) >= inkSolid*norm
+		}
 		runA[x], runZ[x] = -1, -1
 		if at(p) < runThresh {
 			found := -1
@@ -164,7 +169,7 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 				// hidden by) a grid line as dark as itself: keep the
 				// path's row, with low confidence.
 				ys[x] = math.NaN()
-				if g.raw != nil && float64(g.raw[(b.y0+p)*g.w+b.x0+x]) >= inkSolid*norm {
+				if pageInk(p) {
 					hidden[x] = true
 				}
 				continue
@@ -172,48 +177,9 @@ func tracePath(g *gray, b band) (ys []float64, conf []float32) {
 			lo, hi = min(lo, found), max(hi, found)
 		}
 		// A stroke crossing a grid line lost its ink there with the line;
-		// the run goes on across such a gap when the page had ink in it
-		// and the stroke goes on beyond.
-		across := func(i, dir int) int {
-			for d := 1; d <= maxBridge; d++ {
-				j := i + dir*d
-				if j < 0 || j >= H || ext+d > maxExt {
-					return 0
-				}
-				if at(j) >= runThresh {
-					return d
-				}
-				if g.raw == nil || float64(g.raw[(b.y0+j)*g.w+b.x0+x]) < inkSolid*norm {
-					return 0
-				}
-			}
-			return 0
-		}
-		a, z := lo, hi
-		ext = 0
-		for ext < maxExt && a > 0 {
-			if at(a-1) >= runThresh {
-				a--
-				ext++
-			} else if d := across(a, -1); d > 0 {
-				a -= d
-				ext += d
-			} else {
-				break
-			}
-		}
-		ext = 0
-		for ext < maxExt && z < H-1 {
-			if at(z+1) >= runThresh {
-				z++
-				ext++
-			} else if d := across(z, +1); d > 0 {
-				z += d
-				ext += d
-			} else {
-				break
-			}
-		}
+		// the run goes on across such a gap when the page had ink in it.
+		a := extendRun(at, pageInk, lo, -1, H, maxExt, maxBridge)
+		z := extendRun(at, pageInk, hi, +1, H, maxExt, maxBridge)
 		runA[x], runZ[x] = a, z
 		peak := 0.0
 		var sw, swy float64
@@ -401,6 +367,35 @@ func modeY(ys []float64) float64 {
 		return s / n
 	}
 	return c
+}
+
+// extendRun moves a run's end e outward (dir −1 up, +1 down) along ink
+// (at ≥ runThresh) for at most maxExt pixels, across gaps of up to
+// maxBridge pixels where the page had ink (pageInk) and the stroke goes
+// on beyond, and returns the new end.
+func extendRun(at func(int) float32, pageInk func(int) bool, e, dir, H, maxExt, maxBridge int) int {
+	for ext := 0; ext < maxExt; {
+		step := 0
+		for k := 1; k <= maxBridge && ext+k <= maxExt; k++ {
+			j := e + dir*k
+			if j < 0 || j >= H {
+				break
+			}
+			if at(j) >= runThresh {
+				step = k
+				break
+			}
+			if !pageInk(j) {
+				break
+			}
+		}
+		if step == 0 {
+			break
+		}
+		e += dir * step
+		ext += step
+	}
+	return e
 }
 
 // edgeAt returns the sub-pixel position of the run's edge at pixel e

@@ -307,7 +307,9 @@ func mul3(a, b [9]float64) [9]float64 {
 	return c
 }
 
-func inv3(m [9]float64) ([9]float64, bool) {
+// Invert returns the inverse of a 3×3 map as Apply takes it (row-major,
+// homogeneous); ok is false when it is singular.
+func Invert(m [9]float64) ([9]float64, bool) {
 	a, b, c, d, e, f, g, h, i := m[0], m[1], m[2], m[3], m[4], m[5], m[6], m[7], m[8]
 	A, B, C := e*i-f*h, -(d*i - f*g), d*h-e*g
 	det := a*A + b*B + c*C
@@ -383,7 +385,7 @@ func warp(src *image.NRGBA, hm [9]float64, w, h int, bg func(x, y int) color.NRG
 	if float64(w)*float64(h) > 80e6 {
 		return nil, errors.New("samples: warped image would be too large")
 	}
-	inv, ok := inv3(hm)
+	inv, ok := Invert(hm)
 	if !ok {
 		return nil, errors.New("samples: singular page transform")
 	}
