@@ -3,6 +3,7 @@ package digitize
 import (
 	"image"
 	"math"
+	"sort"
 )
 
 // InkFromRGB returns an ink map of a rectified page: 255 where the pixel
@@ -241,24 +242,57 @@ func clampI(v, lo, hi int) int {
 func suppressRows(g *gray, seg int, q float64, xa, xb int) {
 	var hist [256]int
 	cuts := segments(xa, xb, seg)
+	ns := len(cuts) - 1
+	lv := make([]uint8, ns)
 	for y := 0; y < g.h; y++ {
 		row := g.pix[y*g.w : (y+1)*g.w]
-		for k := 0; k+1 < len(cuts); k++ {
+		nz := 0
+		for k := 0; k < ns; k++ {
 			x0, x1 := cuts[k], cuts[k+1]
 			hist = [256]int{}
 			for _, v := range row[x0:x1] {
 				hist[v]++
 			}
-			p := uint8(percentileHist(hist[:], x1-x0, q))
-			if p == 0 {
-				continue
+			lv[k] = uint8(percentileHist(hist[:], x1-x0, q))
+			if lv[k] > 0 {
+				nz++
 			}
+		}
+		// A grid line that ends inside a stretch (the grid stops short of
+		// the printed area a page's margins or noise give) fills too
+		// little of it to show: where most stretches of the row hold a
+		// line, it is followed into the others from their ends.
+		var follow uint8
+		if ns >= 3 && 2*nz >= ns {
+			var ls []int
+			for _, v := range lv {
+				if v > 0 {
+					ls = append(ls, int(v))
+				}
+			}
+			sort.Ints(ls)
+			follow = uint8(ls[len(ls)/2])
+		}
+		for k := 0; k < ns; k++ {
+			x0, x1 := cuts[k], cuts[k+1]
 			// The first and last segments reach out to the page edge.
 			if k == 0 {
 				x0 = 0
 			}
-			if k == len(cuts)-2 {
+			if k == ns-1 {
 				x1 = g.w
+			}
+			p := lv[k]
+			if p == 0 {
+				if follow > 0 {
+					if k > 0 && lv[k-1] > 0 {
+						followLine(row, x0, x1, +1, follow)
+					}
+					if k+1 < ns && lv[k+1] > 0 {
+						followLine(row, x1-1, x0-1, -1, follow)
+					}
+				}
+				continue
 			}
 			for x := x0; x < x1; x++ {
 				if row[x] > p {
@@ -267,6 +301,25 @@ func suppressRows(g *gray, seg int, q float64, xa, xb int) {
 					row[x] = 0
 				}
 			}
+		}
+	}
+}
+
+// followLine subtracts level p from row along x = from, from+dir, … (up
+// to but not including to) while the row holds a line of that level:
+// ink of at least p/2, with breaks of up to 3 pixels.
+func followLine(row []uint8, from, to, dir int, p uint8) {
+	gap := 0
+	for x := from; x != to; x += dir {
+		if row[x] >= p/2 {
+			gap = 0
+		} else if gap++; gap > 3 {
+			return
+		}
+		if row[x] > p {
+			row[x] -= p
+		} else {
+			row[x] = 0
 		}
 	}
 }

@@ -191,17 +191,67 @@ func capEdge(g *gray, last, lo, hi, dir int, pxPerMM, hw float64) float64 {
 	if core <= 0 {
 		return float64(last) + 0.5
 	}
-	// Outermost column holding a tenth of the core or more, searched a
+	// A grid line along the trace (a photocopy's dark grid stays in the
+	// unblurred ink) runs on beyond the cap: each row's level a little
+	// way out is taken off, unless it is as strong as the trace itself
+	// (the lead-out of a pulse close by).
+	bg := make([]float64, yb-ya)
+	a0 := int(math.Ceil(2*hw)) + 3
+	for y := ya; y < yb; y++ {
+		m := math.Inf(1)
+		for a := a0; a < a0+7; a++ {
+			x := last + dir*a
+			if x < 0 || x >= g.w {
+				m = 0
+				break
+			}
+			m = math.Min(m, float64(pix[y*g.w+x]))
+		}
+		if m < 0.75*core {
+			bg[y-ya] = m
+		}
+	}
+	capMax := func(x int) float64 {
+		if x < 0 || x >= g.w {
+			return 0
+		}
+		m := 0.0
+		for y := ya; y < yb; y++ {
+			m = math.Max(m, float64(pix[y*g.w+x])-bg[y-ya])
+		}
+		return m
+	}
+	// A grid line across the cap (a photocopy's dark grid stays in the
+	// unblurred ink) is ink above and below the trace too: the cap ends
+	// there.
+	d := int(math.Ceil(2*hw)) + 2
+	across := func(x int) bool {
+		if x < 0 || x >= g.w || lo-d-5 < 0 || hi+d+6 > g.h {
+			return false
+		}
+		for y := lo - d - 5; y <= lo-d; y++ {
+			if float64(pix[y*g.w+x]) < 0.25*core {
+				return false
+			}
+		}
+		for y := hi + d; y <= hi+d+5; y++ {
+			if float64(pix[y*g.w+x]) < 0.25*core {
+				return false
+			}
+		}
+		return true
+	}
+	// Outermost column holding a quarter of the core or more, searched a
 	// couple of columns either side of where the working map's ink ends
 	// (its blur spreads the ink by a pixel).
 	out := last - 2*dir
 	for x := last - 2*dir; x != last+4*dir; x += dir {
-		if colMax(x) < 0.25*core {
+		if capMax(x) < 0.25*core || across(x) {
 			break
 		}
 		out = x
 	}
-	f := math.Min(1, colMax(out)/core)
+	f := math.Min(1, capMax(out)/core)
 	var edge float64
 	if dir > 0 {
 		edge = float64(out) + f

@@ -102,3 +102,29 @@ func TestTracePathThickPenSpike(t *testing.T) {
 		t.Errorf("flat line off by up to %.1f px", worst)
 	}
 }
+
+// A grid line that ends inside the last stretch of its row (the grid
+// stops short of the area the line removal measures over) fills too
+// little of that stretch to show as a line there; it must still go,
+// while a trace's flat stretch on another row stays.
+func TestGridLineEndingInsideStretch(t *testing.T) {
+	const w, h = 1000, 40
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for x := 0; x < 850; x++ {
+		g.pix[10*w+x] = 150 // grid line: to x = 850, inside the last stretch [800, 1000)
+	}
+	for x := 100; x < 160; x++ {
+		g.pix[30*w+x] = 255 // a short flat stretch of trace
+	}
+	suppressRows(g, 200, 0.08, 0, w)
+	for x := 0; x < w; x++ {
+		if v := g.pix[10*w+x]; v != 0 {
+			t.Fatalf("grid line left at x = %d (%d)", x, v)
+		}
+	}
+	for x := 100; x < 160; x++ {
+		if g.pix[30*w+x] != 255 {
+			t.Fatalf("trace removed at x = %d", x)
+		}
+	}
+}
