@@ -318,7 +318,7 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 				// Only a walk that ended before the dip went along the
 				// lead-out; one that ended after it found a trace that
 				// starts off the lead-out's level.
-				if x, d, ok := afterDip(g, c, a, z, int(6*pxPerMM)); ok && last < d {
+				if x, d, ok := afterDip(g, c, a, z, int(6*pxPerMM), max(2, int(math.Round(0.4*pxPerMM)))); ok && last < d {
 					last, lo, hi, merged = x, a, z, false
 				}
 			}
@@ -334,35 +334,36 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 // the level where the scan starts and returns the first column after it
 // where the ink is back, and the dip's first column; false when none
 // within n columns.
-func afterDip(g *gray, x, lo, hi, n int) (after, dip int, ok bool) {
+func afterDip(g *gray, x, lo, hi, n, e int) (after, dip int, ok bool) {
 	pix := g.raw
 	if pix == nil {
 		pix = g.pix
 	}
 	// Column sums rather than maxima: a speck of dither beside the gap
 	// does not fill it.
-	ya, yb := max(0, lo-1), min(g.h, hi+2)
-	colMax := func(x int) float64 {
+	colSum := func(x, ya, yb int) float64 {
 		m := 0.0
-		for y := ya; y < yb; y++ {
+		for y := max(0, ya); y < min(g.h, yb); y++ {
 			m += float64(pix[y*g.w+x])
 		}
 		return m
 	}
 	core := 0.0
 	for d := 0; d < 3 && x+d < g.w; d++ {
-		core = math.Max(core, colMax(x+d))
+		core = math.Max(core, colSum(x+d, lo-1, hi+2))
 	}
 	if core <= 0 {
 		return 0, 0, false
 	}
+	// The trace may start a little off the lead-out's level (the pulse
+	// drawn from its own baseline): after the dip the ink is looked for
+	// e rows further either way.
 	dip = -1
 	for xx := x; xx < min(g.w, x+n); xx++ {
-		v := colMax(xx)
 		switch {
-		case dip < 0 && v < 0.25*core:
+		case dip < 0 && colSum(xx, lo-1, hi+2) < 0.25*core:
 			dip = xx
-		case dip >= 0 && v >= 0.25*core:
+		case dip >= 0 && colSum(xx, lo-1-e, hi+2+e) >= 0.25*core:
 			return xx, dip, true
 		}
 	}
