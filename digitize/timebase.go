@@ -357,15 +357,23 @@ func afterDip(g *gray, x, lo, hi, n, e int) (after, dip int, ok bool) {
 	}
 	// The trace may start a little off the lead-out's level (the pulse
 	// drawn from its own baseline): after the dip the ink is looked for
-	// e rows further either way.
+	// e rows further either way, over what the gap itself holds there
+	// (a grid line along the lead-out).
 	dip = -1
+	floor := math.Inf(1)
 	for xx := x; xx < min(g.w, x+n); xx++ {
-		switch {
-		case dip < 0 && colSum(xx, lo-1, hi+2) < 0.25*core:
-			dip = xx
-		case dip >= 0 && colSum(xx, lo-1-e, hi+2+e) >= 0.25*core:
+		if dip < 0 {
+			if colSum(xx, lo-1, hi+2) < 0.25*core {
+				dip = xx
+				floor = colSum(xx, lo-1-e, hi+2+e)
+			}
+			continue
+		}
+		v := colSum(xx, lo-1-e, hi+2+e)
+		if v >= floor+0.25*core {
 			return xx, dip, true
 		}
+		floor = math.Min(floor, v)
 	}
 	return 0, 0, false
 }
