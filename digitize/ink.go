@@ -243,36 +243,32 @@ func suppressRows(g *gray, seg int, q float64, xa, xb int) {
 	var hist [256]int
 	cuts := segments(xa, xb, seg)
 	ns := len(cuts) - 1
-	lv := make([]uint8, ns)
+	all := make([]uint8, g.h*ns)
 	for y := 0; y < g.h; y++ {
 		row := g.pix[y*g.w : (y+1)*g.w]
-		nz := 0
 		for k := 0; k < ns; k++ {
 			x0, x1 := cuts[k], cuts[k+1]
 			hist = [256]int{}
 			for _, v := range row[x0:x1] {
 				hist[v]++
 			}
-			lv[k] = uint8(percentileHist(hist[:], x1-x0, q))
-			if lv[k] > 0 {
-				nz++
-			}
+			all[y*ns+k] = uint8(percentileHist(hist[:], x1-x0, q))
 		}
-		// A grid line that ends inside a stretch (the grid stops short of
-		// the printed area a page's margins or noise give) fills too
-		// little of it to show: where most stretches of the row hold a
-		// line, it is followed into the others from their ends.
-		var follow uint8
-		if ns >= 3 && 2*nz >= ns {
-			var ls []int
-			for _, v := range lv {
-				if v > 0 {
-					ls = append(ls, int(v))
-				}
-			}
-			sort.Ints(ls)
-			follow = uint8(ls[len(ls)/2])
+	}
+	// A line is thin: 1 mm above and below it the level is low again.
+	d := max(2, seg/40)
+	lv := make([]uint8, ns)
+	for y := 0; y < g.h; y++ {
+		row := g.pix[y*g.w : (y+1)*g.w]
+		copy(lv, all[y*ns:(y+1)*ns])
+		var above, below []uint8
+		if y-d >= 0 {
+			above = all[(y-d)*ns : (y-d+1)*ns]
 		}
+		if y+d < g.h {
+			below = all[(y+d)*ns : (y+d+1)*ns]
+		}
+		follow := rowLine(lv, above, below)
 		for k := 0; k < ns; k++ {
 			x0, x1 := cuts[k], cuts[k+1]
 			// The first and last segments reach out to the page edge.
@@ -303,6 +299,67 @@ func suppressRows(g *gray, seg int, q float64, xa, xb int) {
 			}
 		}
 	}
+}
+
+// rowLine settles one row's levels lv (per stretch, changed in place)
+// and returns the level of the line the row holds, 0 for none. above
+// and below are the levels of the rows 1 mm away (nil off the map).
+//
+// A flat stretch of trace fills a stretch or two as a grid line would,
+// but stands out of the row: a thin run of stretches well above the
+// stretches either side of it (three times), over less than half the
+// row, is held to their level, and the trace keeps its ink. A grid
+// line's level changes gently along the row (lighting, fading) or stops
+// where the grid does; a dark area (a shadow, the table beyond the
+// page) is not thin. A grid line that ends inside a stretch (the grid
+// stops short of the area measured, which a page's margins or noise
+// widen) fills too little of it to show there: where most stretches
+// hold a line, its median level is returned, for following the line
+// into the others from their ends.
+func rowLine(lv, above, below []uint8) uint8 {
+	ns := len(lv)
+	if ns < 3 {
+		return 0
+	}
+	for a := 0; a < ns; {
+		if lv[a] < 24 {
+			a++
+			continue
+		}
+		z, low := a, lv[a]
+		for z+1 < ns && lv[z+1] >= 24 {
+			z++
+			low = min(low, lv[z])
+		}
+		side := uint8(0)
+		if a > 0 {
+			side = lv[a-1]
+		}
+		if z+1 < ns {
+			side = max(side, lv[z+1])
+		}
+		thin := above != nil && below != nil
+		for k := a; k <= z && thin; k++ {
+			thin = 3*int(above[k]) < int(low) && 3*int(below[k]) < int(low)
+		}
+		if thin && 2*(z-a+1) < ns && int(low) > 3*int(side) {
+			for k := a; k <= z; k++ {
+				lv[k] = side
+			}
+		}
+		a = z + 1
+	}
+	var ls []int
+	for _, v := range lv {
+		if v > 0 {
+			ls = append(ls, int(v))
+		}
+	}
+	if 2*len(ls) < ns {
+		return 0
+	}
+	sort.Ints(ls)
+	return uint8(ls[len(ls)/2])
 }
 
 // followLine subtracts level p from row along x = from, from+dir, … (up

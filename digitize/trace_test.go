@@ -128,3 +128,30 @@ func TestGridLineEndingInsideStretch(t *testing.T) {
 		}
 	}
 }
+
+// A lead that stays flat over a whole 40 mm stretch (a nearly
+// isoelectric aVL at a slow rate) fills that stretch as a grid line
+// would; it stands out of its row, though, and must keep its ink.
+func TestFlatTraceStretchKept(t *testing.T) {
+	const w, h = 1600, 60
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for y := 29; y <= 31; y++ {
+		for x := 600; x < 800; x++ { // the flat trace: one whole stretch [600, 800)
+			g.pix[y*w+x] = 200
+		}
+	}
+	for x := 0; x < w; x++ {
+		g.pix[10*w+x] = 60 // a faint grid line along the whole row
+	}
+	suppressRows(g, 200, 0.08, 0, w)
+	for x := 600; x < 800; x++ {
+		if g.pix[30*w+x] < 190 {
+			t.Fatalf("flat trace removed at x = %d (%d left)", x, g.pix[30*w+x])
+		}
+	}
+	for x := 0; x < w; x++ {
+		if g.pix[10*w+x] != 0 {
+			t.Fatalf("grid line left at x = %d", x)
+		}
+	}
+}
