@@ -155,3 +155,28 @@ func TestFlatTraceStretchKept(t *testing.T) {
 		}
 	}
 }
+
+// The QRS strokes of rows stacked one above another can fill a column
+// as a vertical grid line would; a grid line has others at the grid's
+// pitch beside it and goes, the strokes have none and stay.
+func TestStackedStrokesKeptGridColumnsRemoved(t *testing.T) {
+	const w, h, seg = 400, 800, 400 // seg 400 px: 10 px per mm
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for y := 0; y < h; y++ {
+		for x := 50; x < 350; x += 10 { // a vertical line every 1 mm
+			g.pix[y*w+x] = 90
+		}
+		for x := 203; x <= 205; x++ { // the strokes, 3 px wide, down the whole column
+			g.pix[y*w+x] = 230
+		}
+	}
+	suppressCols(g, seg, 0.05, 0, h)
+	for y := 0; y < h; y += 37 {
+		if v := g.pix[y*w+204]; v < 200 {
+			t.Fatalf("stroke removed at y = %d (%d left)", y, v)
+		}
+		if v := g.pix[y*w+100]; v != 0 {
+			t.Fatalf("grid line left at y = %d (%d)", y, v)
+		}
+	}
+}
