@@ -698,6 +698,13 @@ func nameRhythms(panels []Panel, traces []Trace) {
 		if bestJ < 0 || best > 0.45 {
 			continue
 		}
+		// The layout's usual lead for this strip (II; II, V1, V5 on
+		// 3x4+3: common practice) is kept unless another panel matches
+		// clearly better: neighbouring chest leads look alike, and the
+		// tracing's own errors can tip the balance between them.
+		if e, ok := residualTo(panels, traces, i, panels[i].Lead); ok && e <= 0.45 && e <= best+0.1 {
+			continue
+		}
 		name := panels[bestJ].Lead
 		if bestSign < 0 {
 			name = strings.TrimPrefix(name, "-")
@@ -709,6 +716,17 @@ func nameRhythms(panels []Panel, traces []Trace) {
 // relResidual is the RMS of a − sign·b over their common columns (means
 // removed), relative to b's RMS about its mean; +Inf when they share too
 // little.
+// residualTo returns the relative residual between rhythm strip i and
+// the panel printed as lead name, false when there is none.
+func residualTo(panels []Panel, traces []Trace, i int, name string) (float64, bool) {
+	for j := range panels {
+		if j != i && !panels[j].Rhythm && panels[j].Lead == name {
+			return relResidual(traces[i], traces[j], 1), true
+		}
+	}
+	return 0, false
+}
+
 func relResidual(a, b Trace, sign float64) float64 {
 	lo, hi := max(a.X0, b.X0), min(a.X0+len(a.Y), b.X0+len(b.Y))
 	var sa, sb, n float64
