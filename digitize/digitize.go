@@ -156,7 +156,8 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if opt.Layout == "" {
 		rows = trimRows(rows)
 	}
-	if gn := pulseGain(g, rows, rowPitch(rows, g, p), cal); gn > 0 && gn != cal.GainMMPerMV {
+	gn := pulseGain(g, rows, rowPitch(rows, g, p), cal)
+	if gn > 0 && gn != cal.GainMMPerMV {
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the calibration pulses at the row starts show %g mm/mV (not %g); that gain is used", gn, cal.GainMMPerMV))
 		cal.GainMMPerMV = gn
 	} else if gn == 0 && cal.Source != "user" && !isStandardGain(cal.GainMMPerMV) {
@@ -164,6 +165,9 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		// explains, and the row starts show none: the common 10 mm/mV.
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: %.3g mm/mV is not a standard gain and no calibration pulse leads the rows; 10 mm/mV is assumed", cal.GainMMPerMV))
 		cal.GainMMPerMV = 10
+	}
+	if gn == 0 && noPulse(cal) {
+		readSettings(g, rows, rowPitch(rows, g, p), cal)
 	}
 	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
 		rows = fitRows(rows, layoutRows[opt.Layout])
@@ -194,9 +198,13 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		} else if layoutRows[opt.Layout] != len(rows2) {
 			rows2 = fitRows(rows2, layoutRows[opt.Layout])
 		}
-		if len(rows2) == len(rows) {
-			g, rows = g2, rows2
-			pg = newPage(g, rows, cal)
+		// A turn of at most 1.5° leaves the traces' span as it was (to
+		// 0.04 %); a span that moved found its ends on something else
+		// (a grid line the turn left slanted, which line removal then
+		// misses at the grid's edge).
+		pg2 := newPage(g2, rows2, cal)
+		if len(rows2) == len(rows) && math.Abs(pg2.span-pg.span) <= math.Max(3, 0.005*pg.span) {
+			g, rows, pg = g2, rows2, pg2
 		} else {
 			*cal = saved
 		}
@@ -357,6 +365,7 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		}
 	}
 	tol := math.Max(1.5, 0.3*cal.PxPerMM)
+
 	if x0s, L, b, fitted, ok := timeBase(rows, marks, tol); ok && L > 8 {
 		pg.rowX0, pg.span = x0s, L
 		pg.shear, pg.shearFitted = b, fitted

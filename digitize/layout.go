@@ -1,8 +1,6 @@
 package digitize
 
 import (
-	"fmt"
-	"os"
 	"math"
 	"sort"
 )
@@ -89,11 +87,6 @@ func findRows(g *gray, pxPerMM, gain float64) []rowInfo {
 					longest = max(longest, e.run)
 				}
 			}
-		}
-	}
-	if os.Getenv("TL_DBG") != "" {
-		for i, y := range cands {
-			fmt.Fprintf(os.Stderr, "cand %d prof %.2f ext %v\n", y, prof[y]/mx, exts[i])
 		}
 	}
 	for i, y := range cands {

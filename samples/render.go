@@ -234,7 +234,15 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 	txt := newTexter(st)
 	if st.Header != "" || st.Labels {
 		h := st.Header
-		settings := fmt.Sprintf("%g mm/s   %g mm/mV", st.SpeedMMPerS, st.GainMMPerMV)
+		var settings string
+		switch st.SettingsForm {
+		case 1:
+			settings = fmt.Sprintf("%gmm/s  %gmm/mV", st.SpeedMMPerS, st.GainMMPerMV)
+		case 2:
+			settings = fmt.Sprintf("%g mm/mV  %g mm/s", st.GainMMPerMV, st.SpeedMMPerS)
+		default:
+			settings = fmt.Sprintf("%g mm/s   %g mm/mV", st.SpeedMMPerS, st.GainMMPerMV)
+		}
 		if h != "" {
 			h += "     "
 		}

@@ -37,7 +37,7 @@ const (
 	FontMono             // Go mono
 	FontBold             // Go bold
 	FontDotMatrix        // a 7×13 bitmap font scaled up, blocky
-	numFonts
+	NumFonts
 )
 
 // Style says how a printout looks. DefaultStyle gives the commonest
@@ -72,6 +72,9 @@ type Style struct {
 	// Separators draws a short vertical tick where one column's lead
 	// gives way to the next, as many printers do.
 	Separators bool
+	// SettingsForm picks how the header states speed and gain: 0
+	// "25 mm/s   10 mm/mV", 1 "25mm/s  10mm/mV", 2 "10 mm/mV  25 mm/s".
+	SettingsForm int
 
 	StartS float64 // record time drawn at tracing time 0
 }
@@ -175,7 +178,7 @@ func (st Style) withDefaults() (Style, error) {
 			st.RhythmLeads = []string{"II"}
 		}
 	}
-	if st.Font < 0 || st.Font >= numFonts {
+	if st.Font < 0 || st.Font >= NumFonts {
 		st.Font = FontSans
 	}
 	return st, nil
@@ -267,9 +270,11 @@ func RandomStyle(rng *rand.Rand) Style {
 	st.Pulses = rng.Float64() < 0.9
 	st.Labels = rng.Float64() < 0.95
 	st.LabelPt = u(7, 14)
-	st.Font = pick(numFonts)
+	st.Font = pick(NumFonts)
 	st.Header = headers[pick(len(headers))]
 	st.Separators = rng.Float64() < 0.6
+	// From a value already drawn, so that the suite's other draws stay.
+	st.SettingsForm = int(st.LabelPt*1000) % 3
 	st.StartS = 0
 	return st
 }

@@ -1,0 +1,53 @@
+package digitize
+
+import (
+	"fmt"
+	"testing"
+
+	"tracelift/samples"
+)
+
+// A page printed without calibration pulses states its speed and gain
+// in its text (common practice); they are read in every font the
+// renderer has, in each of the ways it writes them, and a reading that
+// fails gives nothing rather than a wrong setting.
+func TestPrintedSettings(t *testing.T) {
+	settings := [][2]float64{{25, 10}, {50, 5}, {25, 20}, {50, 10}}
+	read, total := 0, 0
+	for font := 0; font < samples.NumFonts; font++ {
+		for form := 0; form < 3; form++ {
+			for k, sg := range settings {
+				st := samples.DefaultStyle()
+				st.Pulses = false
+				st.Font = font
+				st.SettingsForm = form
+				st.SpeedMMPerS, st.GainMMPerMV = sg[0], sg[1]
+				st.DPI = []float64{200, 300}[k%2]
+				st.LabelPt = []float64{8, 11}[(form+k)%2]
+				p := render(t, dipoleRecord(int64(k)), st)
+				cal := truthCal(p)
+				g := prepare(cal.Ink, cal.PxPerMM)
+				rows := findRows(g, cal.PxPerMM, 10)
+				speed, gain := printedSettings(g, rows, rowPitch(rows, g, cal.PxPerMM), cal.PxPerMM)
+				name := fmt.Sprintf("font %d form %d %g mm/s %g mm/mV", font, form, sg[0], sg[1])
+				if (speed != 0 && speed != sg[0]) || (gain != 0 && gain != sg[1]) {
+					t.Errorf("%s: read %g mm/s %g mm/mV", name, speed, gain)
+				}
+				if speed != sg[0] || gain != sg[1] {
+					t.Logf("%s: read %g mm/s %g mm/mV", name, speed, gain)
+				}
+				total += 2
+				if speed == sg[0] {
+					read++
+				}
+				if gain == sg[1] {
+					read++
+				}
+			}
+		}
+	}
+	t.Logf("read %d of %d settings", read, total)
+	if read < total*9/10 {
+		t.Errorf("read %d of %d settings, want 90 %%", read, total)
+	}
+}
