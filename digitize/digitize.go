@@ -241,6 +241,14 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		}
 		bestPanels, bestTraces = pg.assemble(h, segs, c, opt.Leads)
 	}
+	if h.layout == "1x1" && len(opt.Leads) == 0 && len(bestPanels) == 1 && len(bestTraces) == 1 {
+		// A lone strip is named by its label when it can be read; else
+		// it stays the layout's usual II.
+		if name := stripLabel(g, rows[0].base, rows[0].x0, p); name != "" && name != bestPanels[0].Lead {
+			cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the strip's label reads %s; check it", name))
+			bestPanels[0].Lead, bestTraces[0].Lead = name, name
+		}
+	}
 	res := &Result{Layout: h.layout, Cabrera: h.cabrera, Panels: bestPanels, Traces: bestTraces}
 	res.Record = Signals(cal, res.Panels, res.Traces, opt.RateHz)
 	res.Record.Provenance.Layout = h.layout

@@ -31,8 +31,8 @@ func (gl glyph) h() int { return gl.y1 - gl.y0 + 1 }
 func (gl glyph) at(x, y int) bool { return gl.pix[(y-gl.y0)*gl.w()+x-gl.x0] }
 
 // glyphs returns the connected pieces of raw ink (8-connected, ink at
-// or above on) in rows [ya, yb) whose size could be text: 1 to 8 mm
-// tall, at most 8 mm wide.
+// or above on) in rows [ya, yb) whose size could be text (at most 8 mm
+// tall and wide) and that the region's edges do not cut.
 func glyphs(g *gray, ya, yb int, pxPerMM float64, on uint8) []glyph {
 	pix := g.raw
 	if pix == nil {
@@ -83,7 +83,10 @@ func glyphs(g *gray, ya, yb int, pxPerMM float64, on uint8) []glyph {
 					}
 				}
 			}
-			if big || y1-y0+1 < minH/3 {
+			// A piece cut by the region's edge (a wave reaching in from
+			// the trace beyond it) is not text.
+			cut := (y0 == ya && ya > 0) || (y1 == yb-1 && yb < g.h)
+			if big || cut || y1-y0+1 < minH/3 {
 				continue
 			}
 			gl := glyph{x0: x0, y0: y0, x1: x1, y1: y1}
@@ -343,4 +346,131 @@ func readSettings(g *gray, rows []rowInfo, pitch float64, cal *calib.Result) {
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: no calibration pulse; the page's text reads %g mm/s, which is used (check it)", speed))
 		cal.SpeedMMPerS = speed
 	}
+}
+
+// Reading a single strip's lead name. A page holding one strip names
+// its lead only in its label (common practice: the name printed above
+// the trace's start); the names such a strip carries are read from the
+// glyphs' shapes as the settings are: I, II and III are upright strokes
+// alone, V1, V2 and V5 a V (two strokes meeting at the foot) and a
+// digit.
+
+// uprights counts the separate upright strokes of a glyph: groups of
+// adjacent columns each holding a run over 70 % of its height.
+func (gl glyph) uprights() int {
+	n, in := 0, false
+	for x := gl.x0; x <= gl.x1; x++ {
+		tall := gl.colRun(x) >= 0.7
+		if tall && !in {
+			n++
+		}
+		in = tall
+	}
+	return n
+}
+
+// strokesOnly says whether nearly all of a glyph's ink (80 %) between
+// its top and bottom sixths lies in or beside its upright strokes: an I
+// with or without serifs, not a letter with a bowl or an arm.
+func (gl glyph) strokesOnly() bool {
+	tall := make([]bool, gl.w())
+	for x := gl.x0; x <= gl.x1; x++ {
+		tall[x-gl.x0] = gl.colRun(x) >= 0.7
+	}
+	// Serifs are the top and bottom rows' business; the middle holds
+	// the strokes alone.
+	var in, all int
+	for y := gl.y0 + gl.h()/6; y <= gl.y1-gl.h()/6; y++ {
+		for x := gl.x0; x <= gl.x1; x++ {
+			if !gl.at(x, y) {
+				continue
+			}
+			all++
+			i := x - gl.x0
+			if tall[i] || (i > 0 && tall[i-1]) || (i+1 < len(tall) && tall[i+1]) {
+				in++
+			}
+		}
+	}
+	return all > 0 && 5*in >= 4*all
+}
+
+// vee says whether a glyph is a V: two runs of ink a fifth of the way
+// down, one a tenth of the way up from its foot, and no upright stroke.
+func (gl glyph) vee() bool {
+	if gl.h() < 6 || gl.uprights() > 0 {
+		return false
+	}
+	runs := func(y int) int {
+		n, in := 0, false
+		for x := gl.x0; x <= gl.x1; x++ {
+			if gl.at(x, y) && !in {
+				n++
+			}
+			in = gl.at(x, y)
+		}
+		return n
+	}
+	top, bot := gl.y0+gl.h()/5, gl.y1-gl.h()/10
+	return runs(top) == 2 && runs(bot) == 1 && gl.rowSpan(gl.y0, gl.y0+1) > 0.6
+}
+
+// stripLabel reads the lead name printed within 15 mm above a strip's
+// start (baseline y base, ink starting at column x0): "I", "II", "III",
+// "V1", "V2" or "V5", or "" when it reads none of them.
+func stripLabel(g *gray, base float64, x0 int, pxPerMM float64) string {
+	ya, yb := int(base-15*pxPerMM), int(base-1*pxPerMM)
+	xa, xb := x0-int(8*pxPerMM), x0+int(30*pxPerMM)
+	var near []glyph
+	for _, gl := range glyphs(g, ya, yb, pxPerMM, 96) {
+		if gl.x0 >= xa && gl.x1 <= xb && float64(gl.h()) >= 1.2*pxPerMM {
+			near = append(near, gl)
+		}
+	}
+	for _, line := range textLines(near) {
+		// The label: the first word of the line, its glyphs of a height.
+		h := line[0].h()
+		word := []glyph{line[0]}
+		for _, gl := range line[1:] {
+			if gl.x0-word[len(word)-1].x1 > h/2 || math.Abs(float64(gl.h()-h)) > 0.25*float64(h) {
+				break
+			}
+			word = append(word, gl)
+		}
+		// A label stands alone: the next glyph on the line, if any, is
+		// a word's gap away.
+		if n := len(word); n < len(line) && line[n].x0-word[n-1].x1 <= h/2 {
+			continue
+		}
+		switch {
+		case word[0].vee() && len(word) == 2:
+			switch word[1].digit() {
+			case 1:
+				return "V1"
+			case 2:
+				return "V2"
+			case 5:
+				return "V5"
+			}
+		case !word[0].vee():
+			n := 0
+			for _, gl := range word {
+				u := gl.uprights()
+				if u == 0 || !gl.strokesOnly() {
+					n = 0
+					break
+				}
+				n += u
+			}
+			switch n {
+			case 1:
+				return "I"
+			case 2:
+				return "II"
+			case 3:
+				return "III"
+			}
+		}
+	}
+	return ""
 }

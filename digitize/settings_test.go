@@ -51,3 +51,41 @@ func TestPrintedSettings(t *testing.T) {
 		t.Errorf("read %d of %d settings, want 90 %%", read, total)
 	}
 }
+
+// A single strip names its lead only in its label; the names a strip
+// commonly carries are read in every font the renderer has, and a
+// failed reading names nothing rather than a wrong lead.
+func TestStripLabel(t *testing.T) {
+	right, total := 0, 0
+	for font := 0; font < samples.NumFonts; font++ {
+		for k, lead := range []string{"II", "V1", "V5", "I", "III", "V2"} {
+			st := samples.DefaultStyle()
+			st.Layout = samples.Layout1x1
+			st.RhythmLeads = []string{lead}
+			st.Font = font
+			st.DPI = []float64{200, 300}[k%2]
+			st.LabelPt = []float64{8, 10, 12}[(font+k)%3]
+			p := render(t, dipoleRecord(int64(k)), st)
+			cal := truthCal(p)
+			g := prepare(cal.Ink, cal.PxPerMM)
+			rows := findRows(g, cal.PxPerMM, 10)
+			if len(rows) != 1 {
+				t.Fatalf("font %d %s: %d rows", font, lead, len(rows))
+			}
+			got := stripLabel(g, rows[0].base, rows[0].x0, cal.PxPerMM)
+			total++
+			switch got {
+			case lead:
+				right++
+			case "":
+				t.Logf("font %d %s: not read", font, lead)
+			default:
+				t.Errorf("font %d %s: read as %s", font, lead, got)
+			}
+		}
+	}
+	t.Logf("read %d of %d labels", right, total)
+	if right < total*3/4 {
+		t.Errorf("read %d of %d labels, want 3/4", right, total)
+	}
+}
