@@ -22,6 +22,14 @@
 // measured across flat stretches (slope divided out); the round caps at
 // the trace ends take the thinnest stretch's.
 //
+// Printed text: a page without calibration pulses has its speed and gain
+// read from its text ("25 mm/s", "10 mm/mV"), and a lone strip its lead
+// from its label. Both are read from glyph shapes that no typeface
+// decides (the slash between letters, upright strokes, a V, which way a
+// digit's stroke runs), never matched against a font; a reading that
+// fails leaves the assumed setting or II, and one that succeeds is
+// reported in the warnings for checking.
+//
 // Time: seconds on the tracing's clock, 0 at the left edge of the first
 // column of panels. The columns of a 3×4 printout are simultaneous 2.5 s
 // windows of one clock and a rhythm strip runs on the same clock.
