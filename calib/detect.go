@@ -60,6 +60,20 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
+	if found && gm.rmsMM > 0.1 {
+		// A grid that fits poorly (few tiles, crowded traces) on a
+		// photographed sheet: flattened by the sheet's outline, its lines
+		// run straight and may be measured better.
+		if q, ok := sheetQuad(wk); ok {
+			if M, W, H, ok := sheetFrame(q, wk); ok {
+				g2 := remeasure(wk, gm, M, W, H)
+				if dbgGrid != nil {
+					dbgGrid("sheet frame: rms %.3f → %.3f mm", gm.rmsMM, g2.rmsMM)
+				}
+				gm = g2
+			}
+		}
+	}
 	if found {
 		return fromGrid(ctx, pg, wk, gm, opt)
 	}
@@ -91,6 +105,13 @@ func secondPass(wk *work, gm gridModel) gridModel {
 		return gm
 	}
 	M := gm.H.mul(mat3{1 / sw, 0, gm.X0, 0, 1 / sw, gm.Y0, 0, 0, 1}) // flat px → work px
+	return remeasure(wk, gm, M, W, H)
+}
+
+// remeasure measures the grid on the work image resampled to W×H through
+// M (flat px → work px), where the grid's lines should run straight, and
+// keeps that model when it fits better than gm and confirms its scale.
+func remeasure(wk *work, gm gridModel, M mat3, W, H int) gridModel {
 	dmin, err1 := warpPlane(wk.dmin, wk.w, wk.h, M, W, H)
 	dmax, err2 := warpPlane(wk.dmax, wk.w, wk.h, M, W, H)
 	if err1 != nil || err2 != nil {
@@ -105,14 +126,20 @@ func secondPass(wk *work, gm gridModel) gridModel {
 	// The flattened frame must confirm the first scale (a 1 mm / 5 mm mix-up
 	// fits as well as the truth).
 	fx, fy := jacobian(g2.H, (g2.X0+g2.X1)/2, (g2.Y0+g2.Y1)/2)
-	cx, cy := gm.H.apply((gm.X0+gm.X1)/2, (gm.Y0+gm.Y1)/2)
-	if G1, ok := gm.H.inv(); ok {
-		X, Y := G1.apply(cx, cy)
-		ex, ey = jacobian(gm.H, X, Y)
-	}
+	ex, ey := jacobian(gm.H, (gm.X0+gm.X1)/2, (gm.Y0+gm.Y1)/2)
 	rx := math.Hypot(fx[0], fx[1]) / math.Hypot(ex[0], ex[1])
 	ry := math.Hypot(fy[0], fy[1]) / math.Hypot(ey[0], ey[1])
-	if math.Abs(rx-1) > 0.15 || math.Abs(ry-1) > 0.15 {
+	// Unless the first model hardly fits at all (a harmonic taken for the
+	// 5 mm period, one axis lost) and the flattened frame fits closely:
+	// then the second scale is the one to believe, but for a fivefold
+	// ratio (the 1 mm / 5 mm question, which a close fit cannot settle).
+	poorFirst := gm.rmsMM > 0.15 && g2.rmsMM < 0.05
+	fivefold := func(r float64) bool { return (r > 4 && r < 6) || (r > 1.0/6 && r < 0.25) }
+	agree := func(r float64) bool { return math.Abs(r-1) <= 0.15 || (poorFirst && !fivefold(r)) }
+	if dbgGrid != nil {
+		dbgGrid("remeasured: rms %.3f → %.3f mm, scale ratio %.3f × %.3f", gm.rmsMM, g2.rmsMM, rx, ry)
+	}
+	if !agree(rx) || !agree(ry) {
 		return gm
 	}
 	g2.perspTerms = math.Hypot(g2.H[6]*(g2.X1-g2.X0), g2.H[7]*(g2.Y1-g2.Y0))
@@ -175,9 +202,7 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	}
 	ix0, ix1 := minMax(xs)
 	iy0, iy1 := minMax(ys)
-	span := math.Max(gm.X1-gm.X0, gm.Y1-gm.Y0)
-	X0, X1 := math.Max(ix0, gm.X0-0.1*span), math.Min(ix1, gm.X1+0.1*span)
-	Y0, Y1 := math.Max(iy0, gm.Y0-0.1*span), math.Min(iy1, gm.Y1+0.1*span)
+	X0, X1, Y0, Y1 := cropExtent(Hf, gm, ix0, ix1, iy0, iy1)
 	if gm.perspTerms < 0.02 {
 		// A flat scan: keep the whole picture.
 		X0, X1, Y0, Y1 = ix0, ix1, iy0, iy1
@@ -234,7 +259,9 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 			dbgGrid("turn: %d inside the grid, %d over the whole page", q, qf)
 		}
 		switch {
-		case q == 0 || qf == 0:
+		case q == 0 || qf == 0 || q&1 != qf&1:
+			// One view keeps the page as it is, or they disagree even on
+			// which way the traces run: turning is rare, so it stays.
 			q, turnConf = 0, math.Min(turnConf, 0.2)
 		default:
 			turnConf = math.Min(turnConf, 0.3) // sideways: the pulses pick the side
@@ -292,7 +319,7 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	ax, ay := Hf.apply(cx, cy)
 	at := [2]float64{ax, ay}
 	inner := paperBox.Inset(int(3 * s))
-	if cxr, cyr, ok := inkCentroid(ink0, inner); ok {
+	if cxr, cyr, ok := inkMiddle(ink0, inner); ok {
 		// Measured before any turn: map through the unturned frame.
 		T0 := turnMap(0, X0, X1, Y0, Y1)
 		X, Y := T0.mul(R).apply(cxr, cyr)
@@ -337,6 +364,38 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	return res, nil
 }
 
+// cropExtent is the paper extent (mm) of the rectified page under
+// perspective: the measured grid and a margin around it, within the
+// picture. Tiles that the picture's edge or a shadow cuts are not measured,
+// so the grid found may stop well short of the sheet's edge while the
+// traces go on; the margin reaches as far as the model stays sound (its
+// scale within a factor of two of the middle's; beyond, the fit is
+// extrapolated too far to trust).
+func cropExtent(Hf mat3, gm gridModel, ix0, ix1, iy0, iy1 float64) (X0, X1, Y0, Y1 float64) {
+	span := math.Max(gm.X1-gm.X0, gm.Y1-gm.Y0)
+	cx, cy := (gm.X0+gm.X1)/2, (gm.Y0+gm.Y1)/2
+	ex, ey := jacobian(Hf, cx, cy)
+	s0 := math.Hypot(ex[0], ex[1]) + math.Hypot(ey[0], ey[1])
+	sound := func(X, Y float64) bool {
+		ex, ey := jacobian(Hf, X, Y)
+		s := math.Hypot(ex[0], ex[1]) + math.Hypot(ey[0], ey[1])
+		d := Hf[6]*X + Hf[7]*Y + Hf[8]
+		d0 := Hf[6]*cx + Hf[7]*cy + Hf[8]
+		return d*d0 > 0 && s < 2*s0 && s > s0/2
+	}
+	m := 0.1 * span
+	for _, f := range []float64{0.4, 0.25} {
+		M := f * span
+		if sound(gm.X0-M, gm.Y0-M) && sound(gm.X1+M, gm.Y0-M) && sound(gm.X0-M, gm.Y1+M) && sound(gm.X1+M, gm.Y1+M) {
+			m = M
+			break
+		}
+	}
+	X0, X1 = math.Max(ix0, gm.X0-m), math.Min(ix1, gm.X1+m)
+	Y0, Y1 = math.Max(iy0, gm.Y0-m), math.Min(iy1, gm.Y1+m)
+	return
+}
+
 func appendSettings(w []string, ps []Pulse, opt Options) (float64, float64, []string) {
 	g, sp, ws := settleSettings(ps, opt)
 	return g, sp, append(w, ws...)
@@ -357,16 +416,27 @@ func checkHint(pg *Page, res *Result) {
 	}
 }
 
-// inkCentroid is the mean position of strong ink (rect px).
-func inkCentroid(ink *image.Gray, r image.Rectangle) (float64, float64, bool) {
-	var sx, sy, n float64
+// inkMiddle is the middle of the tracing in r (rect px): across, the
+// midpoint between the 2nd and 98th percentiles of the strong ink's
+// columns (the traces run from one side of their panels to the other);
+// down, the mean of its rows leaving out a tenth at each end (the rows of
+// traces are alike, and a single row's baseline is its middle, whatever
+// title stands above). A plain mean would lean toward a title, a crease
+// or a piece of the sheet's edge.
+func inkMiddle(ink *image.Gray, r image.Rectangle) (float64, float64, bool) {
 	r = r.Intersect(ink.Rect)
+	if r.Empty() {
+		return 0, 0, false
+	}
+	cols := make([]int, r.Dx())
+	rows := make([]int, r.Dy())
+	n := 0
 	for y := r.Min.Y; y < r.Max.Y; y += 2 {
 		row := ink.Pix[y*ink.Stride : y*ink.Stride+r.Max.X]
 		for x := r.Min.X; x < len(row); x += 2 {
 			if row[x] >= 128 {
-				sx += float64(x)
-				sy += float64(y)
+				cols[x-r.Min.X]++
+				rows[y-r.Min.Y]++
 				n++
 			}
 		}
@@ -374,7 +444,41 @@ func inkCentroid(ink *image.Gray, r image.Rectangle) (float64, float64, bool) {
 	if n < 10 {
 		return 0, 0, false
 	}
-	return sx / n, sy / n, true
+	lo, hi := quantileIndex(cols, n, 0.02), quantileIndex(cols, n, 0.98)
+	return float64(r.Min.X) + float64(lo+hi)/2, float64(r.Min.Y) + trimmedMean(rows, n, 0.1), true
+}
+
+// trimmedMean is the mean index of histogram h (n counts in all) leaving
+// out the fraction f at each end.
+func trimmedMean(h []int, n int, f float64) float64 {
+	lo, hi := f*float64(n), (1-f)*float64(n)
+	var s, k, acc float64
+	for i, c := range h {
+		// The part of this bin's counts inside [lo, hi).
+		a, b := math.Max(acc, lo), math.Min(acc+float64(c), hi)
+		if b > a {
+			s += float64(i) * (b - a)
+			k += b - a
+		}
+		acc += float64(c)
+	}
+	if k == 0 {
+		return float64(len(h)) / 2
+	}
+	return s / k
+}
+
+// quantileIndex is the first index of histogram h (n counts in all) at
+// which the running count reaches fraction p of n.
+func quantileIndex(h []int, n int, p float64) int {
+	t, acc := int(math.Ceil(p*float64(n))), 0
+	for i, c := range h {
+		acc += c
+		if acc >= t {
+			return i
+		}
+	}
+	return len(h) - 1
 }
 
 // inkPlausible rejects an ink map that is empty or mostly dark (noise).
@@ -495,6 +599,16 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	if dbgGrid != nil {
 		dbgGrid("no grid: bilevel %v border %v pages %v (rect %d×%d, aniso %.2f) pulses %d guess %.3f", bilevel, paperBorder, pages, Wr, Hr, aniso, len(ps), guess)
 	}
+	if len(ps) == 0 && !bilevel && !paperBorder && !opt.ForceUser {
+		// A photographed sheet whose outline shows: flattened, its pulses
+		// stand upright (on the slanted picture they may lean past
+		// reading), and its outline gives the scale failing them.
+		if q, ok := sheetQuad(wk); ok {
+			if r, ok := fromSheetOnly(pg, wk, q, opt); ok {
+				return r, ctx.Err()
+			}
+		}
+	}
 	var fit scaleFit
 	switch {
 	case opt.ForceUser && user > 0:
@@ -565,6 +679,22 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	}
 	res.PxPerMMX, res.PxPerMMY = res.PxPerMM, res.PxPerMM/aniso
 	if res.Source == "pulse" && !bilevel && !paperBorder && fit.gain > 0 && fit.spd > 0 {
+		// A sheet whose outline shows: its perspective is known, and the
+		// page is rectified from it.
+		if q, ok := sheetQuad(wk); ok {
+			r, ok := fromSheet(pg, wk, q, M, ps, fit.gain, fit.spd, opt)
+			if !ok {
+				// The pulses as read on the slanted picture make no
+				// sheet: read them again on the flattened one.
+				r, ok = fromSheetOnly(pg, wk, q, opt)
+			}
+			if ok {
+				if dbgGrid != nil {
+					dbgGrid("sheet %v: %s", q, r.Warnings[0])
+				}
+				return r, ctx.Err()
+			}
+		}
 		// A sheet photographed at a slant is foreshortened more along one
 		// axis than the other: where the pulses stand, their height gives
 		// the scale across the traces and their width the scale along.

@@ -73,7 +73,91 @@ func inkMap(img *image.NRGBA, gl gridLines) (*image.Gray, image.Rectangle) {
 		suppressLines(out, gl, false)
 		suppressDots(out, gl)
 	}
+	clearBackdropEdge(out, paperRow, bsz)
 	return out, box
+}
+
+// clearBackdropEdge removes from the ink map the stretches of the table or
+// lid around a photographed sheet that lie in blocks counted as paper: a
+// block on the sheet's edge holds paper and backdrop both, its level is
+// the paper's, and the backdrop in it reads as a broad band of ink along
+// the edge (long straight "traces" that pull the page's middle and its
+// turn). Ink connected to a backdrop block, within the blocks that touch
+// one, is cleared; a trace stays unless it runs into the backdrop itself.
+func clearBackdropEdge(out *image.Gray, paperRow func(y int) []bool, b int) {
+	w, h := out.Rect.Dx(), out.Rect.Dy()
+	bw, bh := (w+b-1)/b, (h+b-1)/b
+	blk := make([]bool, bw*bh) // paper blocks
+	all := true
+	for by := 0; by < bh; by++ {
+		pm := paperRow(min(h-1, by*b))
+		for bx := 0; bx < bw; bx++ {
+			blk[by*bw+bx] = pm[min(w-1, bx*b)]
+			all = all && blk[by*bw+bx]
+		}
+	}
+	if all {
+		return // a scan: no backdrop
+	}
+	paper := func(bx, by int) bool {
+		return bx < 0 || by < 0 || bx >= bw || by >= bh || blk[by*bw+bx]
+	}
+	// Edge blocks: paper with backdrop among their eight neighbours.
+	edge := make([]bool, bw*bh)
+	for by := 0; by < bh; by++ {
+		for bx := 0; bx < bw; bx++ {
+			if !blk[by*bw+bx] {
+				continue
+			}
+			for dy := -1; dy <= 1 && !edge[by*bw+bx]; dy++ {
+				for dx := -1; dx <= 1; dx++ {
+					if !paper(bx+dx, by+dy) {
+						edge[by*bw+bx] = true
+						break
+					}
+				}
+			}
+		}
+	}
+	const thr = 64
+	inEdge := func(x, y int) bool { return edge[(y/b)*bw+x/b] }
+	var stack []int
+	for by := 0; by < bh; by++ {
+		for bx := 0; bx < bw; bx++ {
+			if !edge[by*bw+bx] {
+				continue
+			}
+			for y := by * b; y < min(h, by*b+b); y++ {
+				for x := bx * b; x < min(w, bx*b+b); x++ {
+					i := y*out.Stride + x
+					if out.Pix[i] < thr {
+						continue
+					}
+					// Seeds: ink beside a backdrop block.
+					if !paper((x-1)/b, y/b) && x > 0 || !paper((x+1)/b, y/b) && x+1 < w ||
+						!paper(x/b, (y-1)/b) && y > 0 || !paper(x/b, (y+1)/b) && y+1 < h {
+						out.Pix[i] = 0
+						stack = append(stack, i)
+					}
+				}
+			}
+		}
+	}
+	for len(stack) > 0 {
+		i := stack[len(stack)-1]
+		stack = stack[:len(stack)-1]
+		x, y := i%out.Stride, i/out.Stride
+		for _, d := range [4][2]int{{-1, 0}, {1, 0}, {0, -1}, {0, 1}} {
+			nx, ny := x+d[0], y+d[1]
+			if nx < 0 || ny < 0 || nx >= w || ny >= h || !inEdge(nx, ny) {
+				continue
+			}
+			if j := ny*out.Stride + nx; out.Pix[j] >= thr {
+				out.Pix[j] = 0
+				stack = append(stack, j)
+			}
+		}
+	}
 }
 
 // paperLevel estimates the paper brightness as the 90th percentile of the

@@ -165,6 +165,16 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 	mv := measureTiles(g, &av, false)
 	unwrap(g, mu)
 	unwrap(g, mv)
+	if len(au.harm) == 1 && len(av.harm) == 1 && !sparseGridOK(g, mu, mv) {
+		// A lone spectral line on each axis, standing out in few tiles:
+		// the texture of a plain sheet through a camera (JPEG, resampling,
+		// noise) rather than a grid, which shows its harmonics and covers
+		// the page.
+		if dbgGrid != nil {
+			dbgGrid("no harmonics and few tiles: not a grid")
+		}
+		return gridModel{}, false
+	}
 
 	// Extent of the valid tiles along each axis, in fundamental periods.
 	spanPeriods := func(ms []tileMeasure, useU bool, F float64) float64 {
@@ -463,4 +473,23 @@ func fewObs(os []obs) bool {
 		n[o.axis]++
 	}
 	return len(os) < 24 || n[0] < 10 || n[1] < 10
+}
+
+// sparseGridOK says whether at least a fifth of the whole tiles carry the
+// grid on each axis.
+func sparseGridOK(g *gridScan, mu, mv []tileMeasure) bool {
+	full, cu, cv := 0, 0, 0
+	for i := range g.tiles {
+		if !g.fullTile(&g.tiles[i]) {
+			continue
+		}
+		full++
+		if mu[i].ok {
+			cu++
+		}
+		if mv[i].ok {
+			cv++
+		}
+	}
+	return 5*cu >= full && 5*cv >= full
 }

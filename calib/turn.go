@@ -121,13 +121,19 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 		for j := range r {
 			r[j] = int(rows[j])
 		}
-		sk := riseScore(r, w)
+		sk, bands := riseScore(r, w)
 		if dbgGrid != nil {
-			dbgGrid("turn: rise %.4f", sk)
+			dbgGrid("turn: rise %.4f over %d bands", sk, bands)
 		}
 		conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*30)
 		if sk <= 0.03 {
 			return 0, conf
+		}
+		if bands < 3 {
+			// One or two rows of traces may well be leads drawn mostly
+			// below their baseline (V1, aVR): weak evidence for turning
+			// a page over.
+			conf = math.Min(conf, 0.5)
 		}
 		return 2, conf
 	}
@@ -137,7 +143,7 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 	for j := range ur {
 		ur[j] = int(cols[w-1-j])
 	}
-	sk := riseScore(ur, h)
+	sk, _ := riseScore(ur, h)
 	conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*30)
 	if sk <= 0 {
 		return 1, conf
@@ -147,12 +153,14 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 
 // riseScore is Σ (mean − median of ink rows) / band height over the trace
 // bands of the upright view, given its count of inked blocks per row and
-// its width uw; negative when the ink rises above the baselines.
-func riseScore(rows []int, uw int) float64 {
+// its width uw; negative when the ink rises above the baselines. It also
+// returns how many bands of some weight it found.
+func riseScore(rows []int, uw int) (float64, int) {
 	uh := len(rows)
 	// Bands: runs of rows separated by at least 2 mm (8 rows) of near-empty rows.
 	gapT := max(1, uw/400)
 	var score, wsum float64
+	var tots []float64
 	j := 0
 	for j < uh {
 		for j < uh && rows[j] <= gapT {
@@ -194,11 +202,24 @@ func riseScore(rows []int, uw int) float64 {
 		}
 		score += (mean - med) / float64(end-start) * tot
 		wsum += tot
+		tots = append(tots, tot)
 	}
 	if wsum == 0 {
-		return 0
+		return 0, 0
 	}
-	return score / wsum
+	// Bands that weigh: a title or a lead's label makes a band of its own
+	// with little ink.
+	big := 0.0
+	for _, t := range tots {
+		big = math.Max(big, t)
+	}
+	bands := 0
+	for _, t := range tots {
+		if t >= 0.3*big {
+			bands++
+		}
+	}
+	return score / wsum, bands
 }
 
 // turnGray rotates g by q counter-clockwise quarter turns (as displayed).

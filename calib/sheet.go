@@ -1,0 +1,650 @@
+package calib
+
+import (
+	"fmt"
+	"image"
+	"math"
+	"sort"
+)
+
+// A photographed sheet with no grid still shows its perspective: its
+// outline against the table is the picture of a rectangle. sheetQuad finds
+// that outline on the work image; the calibration pulses then fix the
+// sheet's millimetres along each side (see fromSheet).
+
+// sheetQuad returns the corners of the sheet in work px (top-left,
+// top-right, bottom-right, bottom-left as seen), or ok=false when no
+// whole sheet stands out from a darker backdrop (a scan, a sheet cut by
+// the picture's edge, a backdrop as bright as the paper).
+func sheetQuad(wk *work) (q [4][2]float64, ok bool) {
+	w, h := wk.w, wk.h
+	if w < 64 || h < 64 {
+		return q, false
+	}
+	// Brightness of the brightest channel: paper is bright in all three.
+	bri := make([]uint8, w*h)
+	var hist [256]int
+	for i, d := range wk.dmax {
+		v := uint8(clampI(int(255-d), 0, 255))
+		bri[i] = v
+		hist[v]++
+	}
+	thr, sep := otsu(hist[:])
+	// The traces' thin lines would wall the paper into cells: a running
+	// maximum over a few pixels erases them (and grows the sheet by as
+	// much on every side, taken off its outline below).
+	bri = maxFilter(bri, w, h, sheetClose)
+	if dbgGrid != nil {
+		dbgGrid("sheet: otsu %d separation %.2f", thr, sep)
+	}
+	if sep < 0.5 {
+		return q, false // no two clear populations
+	}
+	// The sheet: the bright region holding the picture's middle.
+	mask := make([]bool, w*h)
+	seed := -1
+	for r := 0; r < min(w, h)/8 && seed < 0; r++ {
+		// Rings around the middle, for a pixel of paper between the traces.
+		for y := h/2 - r; y <= h/2+r && seed < 0; y++ {
+			for x := w/2 - r; x <= w/2+r; x++ {
+				if (abs(y-h/2) == r || abs(x-w/2) == r) && bri[y*w+x] >= thr {
+					seed = y*w + x
+					break
+				}
+			}
+		}
+	}
+	if seed < 0 {
+		return q, false
+	}
+	stack := []int{seed}
+	mask[seed] = true
+	n := 0
+	for len(stack) > 0 {
+		i := stack[len(stack)-1]
+		stack = stack[:len(stack)-1]
+		n++
+		x := i % w
+		for _, j := range [4]int{i - 1, i + 1, i - w, i + w} {
+			switch {
+			case j == i-1 && x == 0, j == i+1 && x == w-1, j < 0, j >= w*h:
+				continue
+			}
+			if !mask[j] && bri[j] >= thr {
+				mask[j] = true
+				stack = append(stack, j)
+			}
+		}
+	}
+	if n < w*h/6 || n > w*h*9/10 {
+		if dbgGrid != nil {
+			dbgGrid("sheet: region %d of %d px (seed %d)", n, w*h, seed)
+		}
+		return q, false
+	}
+	// Its outline per row (left, right) and per column (top, bottom).
+	ylo, yhi, xlo, xhi := h, -1, w, -1
+	left, right := make([]int, h), make([]int, h)
+	top, bot := make([]int, w), make([]int, w)
+	for x := range top {
+		top[x], bot[x] = -1, -1
+	}
+	for y := 0; y < h; y++ {
+		left[y], right[y] = -1, -1
+		row := mask[y*w : (y+1)*w]
+		for x, m := range row {
+			if !m {
+				continue
+			}
+			if left[y] < 0 {
+				left[y] = x
+			}
+			right[y] = x
+			if top[x] < 0 {
+				top[x] = y
+			}
+			bot[x] = y
+		}
+		if left[y] >= 0 {
+			ylo, yhi = min(ylo, y), max(yhi, y)
+		}
+	}
+	for x := 0; x < w; x++ {
+		if top[x] >= 0 {
+			xlo, xhi = min(xlo, x), max(xhi, x)
+		}
+	}
+	if dbgGrid != nil {
+		dbgGrid("sheet: region %d of %d px, box x %d–%d y %d–%d", n, w*h, xlo, xhi, ylo, yhi)
+	}
+	// A sheet cut by the picture's edge has no outline there.
+	if ylo <= 1 || xlo <= 1 || yhi >= h-2 || xhi >= w-2 {
+		return q, false
+	}
+	// Each side is fitted over the middle 60 % of its extent (away from
+	// the corners, where the next side takes over).
+	side := func(pos []int, lo, hi int, far bool) (line, bool) {
+		var ts, vs []float64
+		a, b := lo+(hi-lo)/5, hi-(hi-lo)/5
+		for t := a; t <= b; t++ {
+			if pos[t] >= 0 {
+				v := float64(pos[t])
+				if far {
+					v += 0.5
+				} else {
+					v -= 0.5
+				}
+				ts, vs = append(ts, float64(t)), append(vs, v)
+			}
+		}
+		return fitLine(ts, vs)
+	}
+	lL, ok1 := side(left, ylo, yhi, false)
+	lR, ok2 := side(right, ylo, yhi, true)
+	lT, ok3 := side(top, xlo, xhi, false)
+	lB, ok4 := side(bot, xlo, xhi, true)
+	if !ok1 || !ok2 || !ok3 || !ok4 {
+		return q, false
+	}
+	// Each side back inward by the running maximum's reach.
+	inward := func(l line, dir float64) line {
+		l.b += dir * sheetClose * math.Sqrt(1+l.a*l.a)
+		return l
+	}
+	lL, lR, lT, lB = inward(lL, 1), inward(lR, -1), inward(lT, 1), inward(lB, -1)
+	// Corners: a row-side (x = a·y + b) meets a column-side (y = a·x + b).
+	meet := func(v, u line) ([2]float64, bool) {
+		// x = v.a·y + v.b, y = u.a·x + u.b
+		d := 1 - v.a*u.a
+		if math.Abs(d) < 1e-6 {
+			return [2]float64{}, false
+		}
+		x := (v.a*u.b + v.b) / d
+		return [2]float64{x, u.a*x + u.b}, true
+	}
+	var oks [4]bool
+	q[0], oks[0] = meet(lL, lT)
+	q[1], oks[1] = meet(lR, lT)
+	q[2], oks[2] = meet(lR, lB)
+	q[3], oks[3] = meet(lL, lB)
+	for i, c := range q {
+		if !oks[i] || c[0] < 0 || c[1] < 0 || c[0] > float64(w-1) || c[1] > float64(h-1) {
+			return q, false
+		}
+	}
+	// The region must fill the quadrilateral (a sheet, not a blob): its
+	// area within a few per cent of the quadrilateral's.
+	// The region's outline must be the quadrilateral's (a sheet, not a
+	// blob): the area inside the outline, row by row (the ink's holes
+	// filled), within 2 % of the quadrilateral's.
+	span := 0
+	for y := ylo; y <= yhi; y++ {
+		if left[y] >= 0 {
+			span += right[y] - left[y] + 1
+		}
+	}
+	if dbgGrid != nil {
+		dbgGrid("sheet: corners %.1f, region over quadrilateral %.4f", q, float64(span)/quadArea(q))
+	}
+	if a := quadArea(q); a <= 0 || math.Abs(float64(span)/a-1) > 0.02 {
+		return q, false
+	}
+	return q, true
+}
+
+// sheetClose is the reach (work px) of the running maximum that erases
+// trace lines before the sheet is outlined: wider than a trace at any
+// work scale (about 0.4 to 0.8 mm).
+const sheetClose = 4
+
+// maxFilter is the running maximum of a w×h plane over (2r+1)² pixels, in
+// two one-dimensional passes.
+func maxFilter(p []uint8, w, h, r int) []uint8 {
+	tmp := make([]uint8, len(p))
+	out := make([]uint8, len(p))
+	for y := 0; y < h; y++ {
+		row, dst := p[y*w:(y+1)*w], tmp[y*w:(y+1)*w]
+		for x := range dst {
+			m := uint8(0)
+			for k := max(0, x-r); k <= min(w-1, x+r); k++ {
+				m = max(m, row[k])
+			}
+			dst[x] = m
+		}
+	}
+	for y := 0; y < h; y++ {
+		dst := out[y*w : (y+1)*w]
+		for x := range dst {
+			m := uint8(0)
+			for k := max(0, y-r); k <= min(h-1, y+r); k++ {
+				m = max(m, tmp[k*w+x])
+			}
+			dst[x] = m
+		}
+	}
+	return out
+}
+
+// line is v = a·t + b.
+type line struct{ a, b float64 }
+
+// fitLine fits v = a·t + b by least squares, then again without the
+// points more than 3 px or three times the median residual off (a
+// shadow, a dog-ear, a crease's dent in the outline).
+func fitLine(ts, vs []float64) (line, bool) {
+	fit := func(keep []bool) (line, bool) {
+		var n, st, sv, stt, stv float64
+		for i := range ts {
+			if keep != nil && !keep[i] {
+				continue
+			}
+			n++
+			st += ts[i]
+			sv += vs[i]
+			stt += ts[i] * ts[i]
+			stv += ts[i] * vs[i]
+		}
+		d := n*stt - st*st
+		if n < 20 || d == 0 {
+			return line{}, false
+		}
+		a := (n*stv - st*sv) / d
+		return line{a, (sv - a*st) / n}, true
+	}
+	l, ok := fit(nil)
+	if !ok {
+		return l, false
+	}
+	res := make([]float64, len(ts))
+	for i := range ts {
+		res[i] = math.Abs(vs[i] - (l.a*ts[i] + l.b))
+	}
+	sorted := append([]float64(nil), res...)
+	sort.Float64s(sorted)
+	lim := math.Max(3*sorted[len(sorted)/2], 1.5)
+	lim = math.Min(lim, 3)
+	keep := make([]bool, len(ts))
+	for i, r := range res {
+		keep[i] = r <= lim
+	}
+	return fit(keep)
+}
+
+// quadArea is the area of a quadrilateral (shoelace), positive when its
+// corners run clockwise on the picture (y down).
+func quadArea(q [4][2]float64) float64 {
+	var a float64
+	for i := range q {
+		j := (i + 1) % 4
+		a += q[i][0]*q[j][1] - q[j][0]*q[i][1]
+	}
+	return a / 2
+}
+
+// otsu returns the threshold that best splits a histogram in two and how
+// well: the between-class variance over the total (0..1).
+func otsu(hist []int) (uint8, float64) {
+	var n, sum float64
+	for v, c := range hist {
+		n += float64(c)
+		sum += float64(v * c)
+	}
+	if n == 0 {
+		return 0, 0
+	}
+	mean := sum / n
+	var tot float64
+	for v, c := range hist {
+		d := float64(v) - mean
+		tot += d * d * float64(c)
+	}
+	if tot == 0 {
+		return 0, 0
+	}
+	best, bestV := 0, -1.0
+	var n0, s0 float64
+	for t := 0; t < len(hist)-1; t++ {
+		n0 += float64(hist[t])
+		s0 += float64(t * hist[t])
+		n1 := n - n0
+		if n0 == 0 || n1 == 0 {
+			continue
+		}
+		m0, m1 := s0/n0, (sum-s0)/n1
+		v := n0 * n1 * (m0 - m1) * (m0 - m1) / n
+		if v > bestV {
+			best, bestV = t+1, v
+		}
+	}
+	return uint8(best), bestV / tot
+}
+
+// quadToSquare is the homography taking the corners q (image px) to the
+// unit square's (0,0), (1,0), (1,1), (0,1).
+func quadToSquare(q [4][2]float64) (mat3, bool) {
+	// The square to the quadrilateral in closed form, then inverted.
+	x0, y0 := q[0][0], q[0][1]
+	x1, y1 := q[1][0], q[1][1]
+	x2, y2 := q[2][0], q[2][1]
+	x3, y3 := q[3][0], q[3][1]
+	dx1, dx2, dx3 := x1-x2, x3-x2, x0-x1+x2-x3
+	dy1, dy2, dy3 := y1-y2, y3-y2, y0-y1+y2-y3
+	den := dx1*dy2 - dx2*dy1
+	if den == 0 {
+		return mat3{}, false
+	}
+	g := (dx3*dy2 - dx2*dy3) / den
+	hh := (dx1*dy3 - dx3*dy1) / den
+	S := mat3{
+		x1 - x0 + g*x1, x3 - x0 + hh*x3, x0,
+		y1 - y0 + g*y1, y3 - y0 + hh*y3, y0,
+		g, hh, 1,
+	}
+	return S.inv()
+}
+
+// fromSheet calibrates a photographed sheet with no grid from its outline
+// and its calibration pulses: the outline is the picture of a rectangle,
+// which fixes the perspective up to the sheet's width and height in mm;
+// each pulse, 1 mV tall and 200 ms wide at the settings read (gain, spd),
+// gives those two lengths. The page is then rectified like a grid page.
+// ps are the pulses as found on the deskewed picture (rect px, through
+// M); ok=false leaves the caller's pulse-only result in place.
+func fromSheet(pg *Page, wk *work, quad [4][2]float64, M mat3, ps []Pulse, gain, spd float64, opt Options) (*Result, bool) {
+	full := w2f(wk.k)
+	var qf [4][2]float64
+	for i, c := range quad {
+		qf[i][0], qf[i][1] = full.apply(c[0], c[1])
+	}
+	Q, ok := quadToSquare(qf)
+	if !ok || len(ps) == 0 || gain <= 0 || spd <= 0 {
+		return nil, false
+	}
+	// Each pulse's height and width as fractions of the sheet's sides.
+	var hs, ws []float64
+	for _, p := range ps {
+		cx, cy := (p.Box[0]+p.Box[2])/2, (p.Box[1]+p.Box[3])/2
+		at := func(x, y float64) (float64, float64) { return Q.apply(M.apply(x, y)) }
+		_, vt := at(cx, cy-p.HeightMM/2)
+		_, vb := at(cx, cy+p.HeightMM/2)
+		ul, _ := at(cx-p.WidthMM/2, cy)
+		ur, _ := at(cx+p.WidthMM/2, cy)
+		if dv, du := math.Abs(vb-vt), math.Abs(ur-ul); dv > 0 && du > 0 {
+			hs = append(hs, gain*pulseMV/dv)
+			ws = append(ws, spd*pulseS/du)
+		}
+	}
+	if len(hs) == 0 {
+		return nil, false
+	}
+	Hmm, Wmm := median(hs), median(ws)
+	// The pulses must agree on the sheet (else the outline is not the
+	// sheet's, or the sheet is not flat), and the sheet must be a sheet.
+	for i := range hs {
+		if math.Abs(hs[i]/Hmm-1) > 0.03 || math.Abs(ws[i]/Wmm-1) > 0.05 {
+			return nil, false
+		}
+	}
+	if !standardSide(Wmm) && !standardSide(Hmm) {
+		return nil, false // pulses misread, or a sheet of no size recorders print on
+	}
+	Qi, ok := Q.inv()
+	if !ok {
+		return nil, false
+	}
+	if dbgGrid != nil {
+		dbgGrid("sheet: pulses say %.1f × %.1f mm (heights %.4g widths %.4g)", Wmm, Hmm, hs, ws)
+	}
+	fl, ok := flattenSheet(pg, Qi, Wmm, Hmm)
+	if !ok {
+		return nil, false
+	}
+	if !fl.paper && len(fl.pulses) >= 2 {
+		// The sheet is no standard size at the pulses' first reading
+		// (one pulse, perhaps, on the slanted picture): read them again on
+		// the flattened page, all of them, and flatten once more.
+		var hs, ws []float64
+		for _, p := range fl.pulses {
+			hs, ws = append(hs, p.HeightMM), append(ws, p.WidthMM)
+		}
+		w2 := fl.Wmm * spd * pulseS / median(ws)
+		h2 := fl.Hmm * gain * pulseMV / median(hs)
+		if dbgGrid != nil {
+			dbgGrid("sheet: flat pulses say %.1f × %.1f mm", w2, h2)
+		}
+		if math.Abs(w2/fl.Wmm-1) < 0.1 && math.Abs(h2/fl.Hmm-1) < 0.1 {
+			if f2, ok := flattenSheet(pg, Qi, w2, h2); ok {
+				fl = f2
+			}
+		}
+	}
+	s, Hf := fl.s, fl.Hf
+	// Scale and skew at the middle of the tracing.
+	X, Y := fl.Wmm/2, fl.Hmm/2
+	if mx, my, ok := inkMiddle(fl.ink, fl.ink.Rect.Inset(int(3*s))); ok {
+		X, Y = mx/s, my/s
+	}
+	ex, ey := jacobian(Hf, X, Y)
+	ax, ay := Hf.apply(X, Y)
+	res := &Result{
+		Rectified: fl.rect, Ink: fl.ink, PxPerMM: s,
+		PxPerMMX: math.Hypot(ex[0], ex[1]), PxPerMMY: math.Hypot(ey[0], ey[1]),
+		RotationDeg: -math.Atan2(ex[1], ex[0]) * 180 / math.Pi,
+		Source:      "pulse", RectToImage: Hf.mul(mat3{1 / s, 0, 0, 0, 1 / s, 0, 0, 0, 1}), ScaleAt: [2]float64{ax, ay},
+		Confidence: math.Min(0.6, 0.3+0.1*float64(max(len(hs), len(fl.pulses)))),
+	}
+	how := "the perspective from the sheet's outline"
+	if fl.paper {
+		how = "the perspective and the sheet's height from its outline, a standard sheet"
+		res.Confidence = math.Min(0.75, res.Confidence+0.15)
+	}
+	res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s, and %s (%.1f × %.1f mm)", gain, spd, how, fl.Wmm, fl.Hmm))
+	res.Pulses = fl.pulses
+	res.GainMMPerMV, res.SpeedMMPerS = gain, spd
+	if len(fl.pulses) > 0 {
+		var ws []string
+		res.GainMMPerMV, res.SpeedMMPerS, ws = settleSettings(fl.pulses, opt)
+		res.Warnings = append(res.Warnings, ws...)
+	}
+	return res, true
+}
+
+// flatSheet is a photographed sheet resampled flat at s px/mm.
+type flatSheet struct {
+	Wmm, Hmm float64 // the sheet's size
+	paper    bool    // snapped to a standard sheet
+	s        float64
+	Hf       mat3 // sheet mm → image px
+	rect     *image.NRGBA
+	ink      *image.Gray
+	pulses   []Pulse // found on the flat page, in mm
+}
+
+// flattenSheet resamples the sheet whose outline maps to the unit square
+// by Qi (unit square → image px) at w × h mm, snapped to a standard sheet
+// when one is near, and finds its pulses again.
+func flattenSheet(pg *Page, Qi mat3, w, h float64) (flatSheet, bool) {
+	fl := flatSheet{Wmm: w, Hmm: h}
+	if sw, sh, ok := snapPaper(w, h); ok {
+		fl.Wmm, fl.Hmm, fl.paper = sw, sh, true
+	}
+	fl.Hf = Qi.mul(mat3{1 / fl.Wmm, 0, 0, 0, 1 / fl.Hmm, 0, 0, 0, 1})
+	ex, ey := jacobian(fl.Hf, fl.Wmm/2, fl.Hmm/2)
+	s := math.Min(math.Max(math.Hypot(ex[0], ex[1]), math.Hypot(ey[0], ey[1])), maxRectPxPerMM)
+	s = math.Max(s, 2)
+	fl.s = s
+	W, H := int(math.Ceil(fl.Wmm*s)), int(math.Ceil(fl.Hmm*s))
+	rect, err := warpPage(pg.Image, fl.Hf.mul(mat3{1 / s, 0, 0, 0, 1 / s, 0, 0, 0, 1}), W, H)
+	if err != nil {
+		return fl, false
+	}
+	fl.rect = rect
+	fl.ink, _ = inkMap(rect, gridLines{s: s})
+	if !inkPlausible(fl.ink) {
+		return fl, false
+	}
+	ps := findPulses(fl.ink, s, s, inkThreshold(fl.ink, fl.ink.Rect), false)
+	for i := range ps {
+		ps[i].HeightMM /= s
+		ps[i].WidthMM /= s
+		if dbgGrid != nil {
+			dbgGrid("sheet: flat pulse %.3f × %.3f mm at %v", ps[i].HeightMM, ps[i].WidthMM, ps[i].Box)
+		}
+	}
+	fl.pulses = ps
+	return fl, true
+}
+
+// snapPaper matches a sheet measured at w × h mm to a standard size
+// (paperSizes, either way up). The width comes from the pulses' widths,
+// centre to centre of their sides, and is good to about 1 %; the height,
+// from their heights, suffers the strokes' thickness and blur and is good
+// to a few per cent, so a standard sheet of that width fixes the height
+// better than the pulses do.
+func snapPaper(w, h float64) (float64, float64, bool) {
+	best, bw, bh := math.Inf(1), 0.0, 0.0
+	for _, ps := range paperSizes {
+		for _, wh := range [][2]float64{{ps[0], ps[1]}, {ps[1], ps[0]}} {
+			ew, eh := math.Abs(w/wh[0]-1), math.Abs(h/wh[1]-1)
+			if ew > 0.02 || eh > 0.05 {
+				continue
+			}
+			if e := ew/0.01 + eh/0.03; e < best {
+				best, bw, bh = e, wh[0], wh[1]
+			}
+		}
+	}
+	return bw, bh, bw > 0
+}
+
+// fromSheetOnly calibrates a photographed sheet with no grid, and no pulse
+// read on the slanted picture, from its outline: flattened as the standard
+// sheet its outline looks most like, its pulses stand upright and are read
+// again; without any, the sheet's size gives the scale (Source "page").
+func fromSheetOnly(pg *Page, wk *work, quad [4][2]float64, opt Options) (*Result, bool) {
+	full := w2f(wk.k)
+	var qf [4][2]float64
+	for i, c := range quad {
+		qf[i][0], qf[i][1] = full.apply(c[0], c[1])
+	}
+	Q, ok := quadToSquare(qf)
+	if !ok {
+		return nil, false
+	}
+	Qi, ok := Q.inv()
+	if !ok {
+		return nil, false
+	}
+	dist := func(a, b [2]float64) float64 { return math.Hypot(a[0]-b[0], a[1]-b[1]) }
+	aspect := (dist(qf[0], qf[1]) + dist(qf[3], qf[2])) / (dist(qf[0], qf[3]) + dist(qf[1], qf[2]))
+	// The standard sheet, either way up, nearest in aspect.
+	W0, H0, best := 0.0, 0.0, math.Inf(1)
+	for _, ps := range paperSizes {
+		for _, wh := range [][2]float64{{ps[0], ps[1]}, {ps[1], ps[0]}} {
+			if e := math.Abs(math.Log(aspect * wh[1] / wh[0])); e < best {
+				W0, H0, best = wh[0], wh[1], e
+			}
+		}
+	}
+	if best > 0.15 {
+		return nil, false // no sheet of a standard size seen at a moderate slant
+	}
+	fl, ok := flattenSheet(pg, Qi, W0, H0)
+	if !ok {
+		return nil, false
+	}
+	var hs, ws []float64
+	for _, p := range fl.pulses {
+		hs, ws = append(hs, p.HeightMM), append(ws, p.WidthMM)
+	}
+	if len(hs) > 0 {
+		// The flattened page's millimetres are right to the paper guess's
+		// error (under 10 %), and standard gains and speeds lie twofold
+		// apart: the pulses' settings are plain to read.
+		g, okG := snap(median(hs)/pulseMV, stdGains, 0.12)
+		sp, okS := snap(median(ws)/pulseS, stdSpeeds, 0.12)
+		if okG && okS {
+			w2, h2 := fl.Wmm*sp*pulseS/median(ws), fl.Hmm*g*pulseMV/median(hs)
+			if dbgGrid != nil {
+				dbgGrid("sheet only: aspect %.3f, %v × %v mm; pulses say %.4g mm/mV %.4g mm/s, %.1f × %.1f mm", aspect, W0, H0, g, sp, w2, h2)
+			}
+			// The pulses may only refine the sheet guessed from its
+			// outline (A4 or Letter, the outline's aspect a little off
+			// under perspective); a reading far from it is no pulse.
+			near := func(r float64) bool { return r > 0.88 && r < 1.14 }
+			if near(w2/W0) && near(h2/H0) {
+				if f2, ok := flattenSheet(pg, Qi, w2, h2); ok {
+					res := sheetResult(f2, max(len(hs), len(f2.pulses)), opt)
+					res.Warnings = append([]string{fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s, and the perspective from the sheet's outline (%.1f × %.1f mm)", g, sp, f2.Wmm, f2.Hmm)}, res.Warnings...)
+					return res, true
+				}
+			}
+		}
+	}
+	if opt.UserPxPerMM > 0 || opt.UserDPI > 0 {
+		return nil, false // the scale given by hand is the better witness
+	}
+	fl.pulses = nil // what was found fits no pulse at this sheet's size
+	res := sheetResult(fl, 0, opt)
+	res.Source, res.Confidence = "page", 0.2
+	res.Warnings = append([]string{fmt.Sprintf("no grid or calibration pulse found: the scale assumes the sheet is a whole %.0f × %.0f mm sheet (its outline's shape), with the perspective from its outline; check it against a known distance", W0, H0)}, res.Warnings...)
+	return res, true
+}
+
+// sheetResult fills a Result from a flattened sheet: the scale and skew at
+// the middle of the tracing, and the settings from the pulses on it.
+func sheetResult(fl flatSheet, n int, opt Options) *Result {
+	s, Hf := fl.s, fl.Hf
+	X, Y := fl.Wmm/2, fl.Hmm/2
+	if mx, my, ok := inkMiddle(fl.ink, fl.ink.Rect.Inset(int(3*s))); ok {
+		X, Y = mx/s, my/s
+	}
+	ex, ey := jacobian(Hf, X, Y)
+	ax, ay := Hf.apply(X, Y)
+	res := &Result{
+		Rectified: fl.rect, Ink: fl.ink, PxPerMM: s,
+		PxPerMMX: math.Hypot(ex[0], ex[1]), PxPerMMY: math.Hypot(ey[0], ey[1]),
+		RotationDeg: -math.Atan2(ex[1], ex[0]) * 180 / math.Pi,
+		Source:      "pulse", RectToImage: Hf.mul(mat3{1 / s, 0, 0, 0, 1 / s, 0, 0, 0, 1}), ScaleAt: [2]float64{ax, ay},
+		Confidence: math.Min(0.6, 0.3+0.1*float64(n)),
+	}
+	if fl.paper {
+		res.Confidence = math.Min(0.75, res.Confidence+0.15)
+	}
+	res.Pulses = fl.pulses
+	res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, fl.pulses, opt)
+	return res
+}
+
+// sheetFrame is the flat frame of the sheet outlined by q (work px): M
+// maps its W×H px, the sheet's mean side lengths, to work px.
+func sheetFrame(q [4][2]float64, wk *work) (M mat3, W, H int, ok bool) {
+	Q, ok := quadToSquare(q)
+	if !ok {
+		return M, 0, 0, false
+	}
+	Qi, ok := Q.inv()
+	if !ok {
+		return M, 0, 0, false
+	}
+	dist := func(a, b [2]float64) float64 { return math.Hypot(a[0]-b[0], a[1]-b[1]) }
+	W = int((dist(q[0], q[1]) + dist(q[3], q[2])) / 2)
+	H = int((dist(q[0], q[3]) + dist(q[1], q[2])) / 2)
+	if W < 256 || H < 256 || W*H > 3*wk.w*wk.h {
+		return M, 0, 0, false
+	}
+	return Qi.mul(mat3{1 / float64(W), 0, 0, 0, 1 / float64(H), 0, 0, 0, 1}), W, H, true
+}
+
+// standardSide says whether a length (mm) is within 4 % of a side of a
+// standard sheet (paperSizes).
+func standardSide(mm float64) bool {
+	for _, ps := range paperSizes {
+		for _, side := range ps {
+			if math.Abs(mm/side-1) <= 0.04 {
+				return true
+			}
+		}
+	}
+	return false
+}
