@@ -357,11 +357,18 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	for _, r := range rows {
 		endRef = min(endRef, strongEnd(g, r, pg.pitch))
 	}
-	minFall := math.MaxInt
+	// Pulses found in two rows or more guard the starts, and so does one
+	// row's when calib saw pulses on the page; otherwise one row's alone
+	// may be a wave taken for a pulse, and guards only its own row.
+	minFall, nFall := math.MaxInt, 0
 	for _, f := range falls {
 		if f >= 0 {
 			minFall = min(minFall, f)
+			nFall++
 		}
+	}
+	if nFall < 2 && len(cal.Pulses) == 0 {
+		minFall = math.MaxInt
 	}
 	for i, r := range rows {
 		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i], capHW, startRef, endRef)
