@@ -1,11 +1,9 @@
 package calib
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"image"
-	"image/jpeg"
 	"image/png"
 	"math"
 	"os"
@@ -36,18 +34,11 @@ func benchPage(t testing.TB, seed int64, i int, conds []string, dpi float64) (*P
 	if err != nil {
 		t.Fatalf("render: %v", err)
 	}
-	var buf bytes.Buffer
-	name := "case.png"
-	if sc.Condition == "photo" {
-		name = "case.jpg"
-		err = jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
-	} else {
-		err = (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&buf, po.Image)
-	}
+	name, data, err := sc.File(po)
 	if err != nil {
 		t.Fatal(err)
 	}
-	pg, err := Decode(buf.Bytes(), name, LoadOptions{})
+	pg, err := Decode(data, name, LoadOptions{})
 	if err != nil {
 		t.Fatalf("decode: %v", err)
 	}

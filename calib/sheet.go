@@ -418,25 +418,10 @@ func fromSheet(pg *Page, wk *work, quad [4][2]float64, M mat3, ps []Pulse, gain,
 			}
 		}
 	}
-	s, Hf := fl.s, fl.Hf
-	// Scale and skew at the middle of the tracing.
-	X, Y := fl.Wmm/2, fl.Hmm/2
-	if mx, my, ok := inkMiddle(fl.ink, fl.ink.Rect.Inset(int(3*s))); ok {
-		X, Y = mx/s, my/s
-	}
-	ex, ey := jacobian(Hf, X, Y)
-	ax, ay := Hf.apply(X, Y)
-	res := &Result{
-		Rectified: fl.rect, Ink: fl.ink, PxPerMM: s,
-		PxPerMMX: math.Hypot(ex[0], ex[1]), PxPerMMY: math.Hypot(ey[0], ey[1]),
-		RotationDeg: -math.Atan2(ex[1], ex[0]) * 180 / math.Pi,
-		Source:      "pulse", RectToImage: Hf.mul(mat3{1 / s, 0, 0, 0, 1 / s, 0, 0, 0, 1}), ScaleAt: [2]float64{ax, ay},
-		Confidence: math.Min(0.6, 0.3+0.1*float64(max(len(hs), len(fl.pulses)))),
-	}
+	res := sheetGeometry(fl, max(len(hs), len(fl.pulses)))
 	how := "the perspective from the sheet's outline"
 	if fl.paper {
 		how = "the perspective and the sheet's height from its outline, a standard sheet"
-		res.Confidence = math.Min(0.75, res.Confidence+0.15)
 	}
 	res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s, and %s (%.1f × %.1f mm)", gain, spd, how, fl.Wmm, fl.Hmm))
 	res.Pulses = fl.pulses
@@ -591,9 +576,20 @@ func fromSheetOnly(pg *Page, wk *work, quad [4][2]float64, opt Options) (*Result
 	return res, true
 }
 
-// sheetResult fills a Result from a flattened sheet: the scale and skew at
-// the middle of the tracing, and the settings from the pulses on it.
+// sheetResult fills a Result from a flattened sheet: its geometry
+// (sheetGeometry) and the settings from the pulses on it.
 func sheetResult(fl flatSheet, n int, opt Options) *Result {
+	res := sheetGeometry(fl, n)
+	res.Pulses = fl.pulses
+	res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, fl.pulses, opt)
+	return res
+}
+
+// sheetGeometry fills a Result's page and geometry from a flattened
+// sheet: the scale and skew at the middle of the tracing, and a
+// confidence from the n pulses that agree with it (more for a standard
+// sheet's size).
+func sheetGeometry(fl flatSheet, n int) *Result {
 	s, Hf := fl.s, fl.Hf
 	X, Y := fl.Wmm/2, fl.Hmm/2
 	if mx, my, ok := inkMiddle(fl.ink, fl.ink.Rect.Inset(int(3*s))); ok {
@@ -611,8 +607,6 @@ func sheetResult(fl flatSheet, n int, opt Options) *Result {
 	if fl.paper {
 		res.Confidence = math.Min(0.75, res.Confidence+0.15)
 	}
-	res.Pulses = fl.pulses
-	res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, fl.pulses, opt)
 	return res
 }
 

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"image"
 	"image/color"
-	"image/jpeg"
 	"image/png"
 	"math"
 	"os"
@@ -38,23 +37,15 @@ func benchPrintout(t testing.TB, seed int64, i int) (*samples.Printout, string, 
 	if v, err := strconv.ParseFloat(os.Getenv("TRACELIFT_CASE_DPI"), 64); err == nil && v > 0 {
 		sc.Style.DPI = v
 	}
-	cond := sc.Condition
 	po, err := sc.Printout()
 	if err != nil {
 		t.Fatal(err)
 	}
-	var buf bytes.Buffer
-	name := "case.png"
-	if cond == "photo" {
-		name = "case.jpg"
-		err = jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
-	} else {
-		err = (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&buf, po.Image)
-	}
+	name, data, err := sc.File(po)
 	if err != nil {
 		t.Fatal(err)
 	}
-	return po, name, buf.Bytes()
+	return po, name, data
 }
 
 // TestInspectBenchCase runs one bench case end to end and writes the

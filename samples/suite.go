@@ -1,6 +1,9 @@
 package samples
 
 import (
+	"bytes"
+	"image/jpeg"
+	"image/png"
 	"math"
 	"math/rand"
 
@@ -63,4 +66,17 @@ func (c SuiteCase) Printout() (*Printout, error) {
 		return nil, err
 	}
 	return Degrade(po, c.Degradation)
+}
+
+// File encodes the case's printout as a file would arrive: a JPEG
+// (quality 90) for a phone photo, a PNG otherwise. It returns the file's
+// name (case.jpg or case.png) and bytes.
+func (c SuiteCase) File(po *Printout) (string, []byte, error) {
+	var buf bytes.Buffer
+	if c.Condition == "photo" {
+		err := jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
+		return "case.jpg", buf.Bytes(), err
+	}
+	err := (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&buf, po.Image)
+	return "case.png", buf.Bytes(), err
 }

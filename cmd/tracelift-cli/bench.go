@@ -1,13 +1,10 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"encoding/csv"
 	"flag"
 	"fmt"
-	"image/jpeg"
-	"image/png"
 	"io"
 	"math"
 	"os"
@@ -115,22 +112,14 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 		c.Err = err.Error()
 		return c
 	}
-	cond := sc.Condition
 	// Encode as a file would arrive, then decode it like any input.
-	var buf bytes.Buffer
-	name := "case.png"
-	if cond == "photo" {
-		name = "case.jpg"
-		err = jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
-	} else {
-		err = (&png.Encoder{CompressionLevel: png.BestSpeed}).Encode(&buf, po.Image)
-	}
+	name, data, err := sc.File(po)
 	if err != nil {
 		c.Err = err.Error()
 		return c
 	}
 	t0 := time.Now()
-	pg, err := calib.Decode(buf.Bytes(), name, calib.LoadOptions{})
+	pg, err := calib.Decode(data, name, calib.LoadOptions{})
 	c.DecodeMS = ms(time.Since(t0))
 	if err != nil {
 		c.Err = err.Error()
