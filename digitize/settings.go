@@ -415,11 +415,21 @@ func (gl glyph) vee() bool {
 	return runs(top) == 2 && runs(bot) == 1 && gl.rowSpan(gl.y0, gl.y0+1) > 0.6
 }
 
-// stripLabel reads the lead name printed within 15 mm above a strip's
+// stripLabel reads the lead name printed within 25 mm above a strip's
 // start (baseline y base, ink starting at column x0): "I", "II", "III",
 // "V1", "V2" or "V5", or "" when it reads none of them.
 func stripLabel(g *gray, base float64, x0 int, pxPerMM float64) string {
-	ya, yb := int(base-15*pxPerMM), int(base-1*pxPerMM)
+	if name := readStripLabel(g, base, x0, pxPerMM); name != "" || g.raw == nil {
+		return name
+	}
+	// A grid as dark as the text (a photocopy, a fax) joins the glyphs
+	// into one piece in the raw ink; the working map has the lines taken
+	// out.
+	return readStripLabel(&gray{w: g.w, h: g.h, pix: g.pix}, base, x0, pxPerMM)
+}
+
+func readStripLabel(g *gray, base float64, x0 int, pxPerMM float64) string {
+	ya, yb := int(base-25*pxPerMM), int(base-1*pxPerMM)
 	xa, xb := x0-int(8*pxPerMM), x0+int(30*pxPerMM)
 	var near []glyph
 	for _, gl := range glyphs(g, ya, yb, pxPerMM, 96) {
