@@ -322,6 +322,14 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		r := &rows[i]
 		var fall int
 		r.x0, fall = pulseEndFall(g, r.x0, r.x1, r.base, pg.pitch, cal.PxPerMM, cal.SpeedMMPerS, cal.GainMMPerMV)
+		if fall < 0 {
+			// calib may have seen this row's pulse where the row's own
+			// search did not (a photocopy's noise along its lead-in).
+			if x, ok := calibPulseEnd(cal.Pulses, r.base, pg.pitch, r.x1); ok {
+				fall = x
+				r.x0 = max(r.x0, x+1)
+			}
+		}
 		starts = append(starts, r.x0)
 		ends = append(ends, r.x1)
 		falls = append(falls, fall)
@@ -408,6 +416,19 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		}
 	}
 	return pg
+}
+
+// calibPulseEnd returns the last column of a pulse calib found standing
+// on the baseline base (its foot within a fifth of the pitch) left of
+// the middle of a row that ends at x1, false when there is none.
+func calibPulseEnd(ps []calib.Pulse, base, pitch float64, x1 int) (int, bool) {
+	for _, p := range ps {
+		b := p.Box
+		if math.Abs(b[3]-base) <= 0.2*pitch && b[1] < base && b[2] < float64(x1)/2 {
+			return int(math.Floor(b[2])), true
+		}
+	}
+	return 0, false
 }
 
 // strokeHalfWidth estimates half the trace's line width, to a fraction
