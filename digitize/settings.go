@@ -396,9 +396,13 @@ func (gl glyph) strokesOnly() bool {
 }
 
 // vee says whether a glyph is a V: two runs of ink a fifth of the way
-// down, one a tenth of the way up from its foot, and no upright stroke.
+// down, one narrow run a tenth of the way up from its foot, and at most
+// one upright stroke.
 func (gl glyph) vee() bool {
-	if gl.h() < 6 || gl.uprights() > 0 {
+	// A bold V's strokes meet in an upright run at its foot: one upright
+	// is allowed, and the foot must be narrow (a seriffed II joined at
+	// its serifs has a foot as wide as itself).
+	if gl.h() < 6 || gl.uprights() > 1 {
 		return false
 	}
 	runs := func(y int) int {
@@ -412,7 +416,7 @@ func (gl glyph) vee() bool {
 		return n
 	}
 	top, bot := gl.y0+gl.h()/5, gl.y1-gl.h()/10
-	return runs(top) == 2 && runs(bot) == 1 && gl.rowSpan(gl.y0, gl.y0+1) > 0.6
+	return runs(top) == 2 && runs(bot) == 1 && gl.rowSpan(gl.y0, gl.y0+1) > 0.6 && gl.rowSpan(bot, bot+1) < 0.5
 }
 
 // stripLabel reads the lead name printed within 25 mm above a strip's

