@@ -244,7 +244,10 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if h.layout == "1x1" && len(opt.Leads) == 0 && len(bestPanels) == 1 && len(bestTraces) == 1 {
 		// A lone strip is named by its label when it can be read; else
 		// it stays the layout's usual II.
-		if name := stripLabel(g, rows[0].base, rows[0].x0, p); name != "" && name != bestPanels[0].Lead {
+		switch name := stripLabel(g, rows[0].base, rows[0].x0, p); {
+		case name == "":
+			cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the strip's label could not be read; it is taken as %s (check it, or name it by hand)", bestPanels[0].Lead))
+		case name != bestPanels[0].Lead:
 			cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the strip's label reads %s; check it", name))
 			bestPanels[0].Lead, bestTraces[0].Lead = name, name
 		}

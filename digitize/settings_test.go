@@ -2,6 +2,7 @@ package digitize
 
 import (
 	"fmt"
+	"strings"
 	"testing"
 
 	"tracelift/samples"
@@ -87,5 +88,27 @@ func TestStripLabel(t *testing.T) {
 	t.Logf("read %d of %d labels", right, total) // 24 of 24 when written
 	if right < total*3/4 {
 		t.Errorf("read %d of %d labels, want 3/4", right, total)
+	}
+}
+
+// A lone strip whose label cannot be read keeps the usual II, and the
+// warnings say so: a misnamed lead must not pass unnoticed.
+func TestStripLabelUnreadWarns(t *testing.T) {
+	st := samples.DefaultStyle()
+	st.Layout = samples.Layout1x1
+	st.RhythmLeads = []string{"V1"}
+	st.Labels = false
+	p := render(t, dipoleRecord(3), st)
+	cal := truthCal(p)
+	res := runOn(t, cal, Options{})
+	if len(res.Panels) != 1 || res.Panels[0].Lead != "II" {
+		t.Fatalf("panels %+v", res.Panels)
+	}
+	warned := false
+	for _, w := range cal.Warnings {
+		warned = warned || strings.Contains(w, "label could not be read")
+	}
+	if !warned {
+		t.Errorf("no warning that the label went unread: %q", cal.Warnings)
 	}
 }
