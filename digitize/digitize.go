@@ -156,7 +156,8 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if opt.Layout == "" {
 		rows = trimRows(rows)
 	}
-	gn := pulseGain(g, rows, rowPitch(rows, g, p), cal)
+	pitch := rowPitch(rows, g, p)
+	gn := pulseGain(g, rows, pitch, cal)
 	if gn > 0 && gn != cal.GainMMPerMV {
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the calibration pulses at the row starts show %g mm/mV (not %g); that gain is used", gn, cal.GainMMPerMV))
 		cal.GainMMPerMV = gn
@@ -167,7 +168,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		cal.GainMMPerMV = 10
 	}
 	if gn == 0 && noPulse(cal) {
-		readSettings(g, rows, rowPitch(rows, g, p), cal)
+		readSettings(g, rows, pitch, cal)
 	}
 	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
 		rows = fitRows(rows, layoutRows[opt.Layout])
@@ -391,7 +392,6 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		}
 	}
 	tol := math.Max(1.5, 0.3*cal.PxPerMM)
-
 	if x0s, L, b, fitted, ok := timeBase(rows, marks, tol); ok && L > 8 {
 		pg.rowX0, pg.span = x0s, L
 		pg.shear, pg.shearFitted = b, fitted
@@ -761,9 +761,6 @@ func nameRhythms(panels []Panel, traces []Trace) {
 	}
 }
 
-// relResidual is the RMS of a − sign·b over their common columns (means
-// removed), relative to b's RMS about its mean; +Inf when they share too
-// little.
 // residualTo returns the relative residual between rhythm strip i and
 // the panel printed as lead name, false when there is none.
 func residualTo(panels []Panel, traces []Trace, i int, name string) (float64, bool) {
@@ -775,6 +772,9 @@ func residualTo(panels []Panel, traces []Trace, i int, name string) (float64, bo
 	return 0, false
 }
 
+// relResidual is the RMS of a − sign·b over their common columns (means
+// removed), relative to b's RMS about its mean; +Inf when they share too
+// little.
 func relResidual(a, b Trace, sign float64) float64 {
 	lo, hi := max(a.X0, b.X0), min(a.X0+len(a.Y), b.X0+len(b.Y))
 	var sa, sb, n float64

@@ -384,10 +384,11 @@ func followLine(row []uint8, from, to, dir int, p uint8) {
 func suppressCols(g *gray, seg int, q float64, ya, yb int) {
 	w := g.w
 	hist := make([]uint16, w*256)
+	lvl := make([]uint8, w)
+	keep := make([]uint8, w)
+	offs := gridOffsets(seg)
 	cuts := segments(ya, yb, seg)
-	ns := len(cuts) - 1
-	all := make([]uint8, ns*w) // level of stretch k in column x at k·w + x
-	for k := 0; k < ns; k++ {
+	for k := 0; k+1 < len(cuts); k++ {
 		y0, y1 := cuts[k], cuts[k+1]
 		clear(hist)
 		for y := y0; y < y1; y++ {
@@ -397,7 +398,6 @@ func suppressCols(g *gray, seg int, q float64, ya, yb int) {
 			}
 		}
 		kq := int(q * float64(y1-y0))
-		lvl := all[k*w : (k+1)*w]
 		for x := 0; x < w; x++ {
 			h := hist[x*256 : x*256+256]
 			c := 0
@@ -410,56 +410,13 @@ func suppressCols(g *gray, seg int, q float64, ya, yb int) {
 				}
 			}
 		}
-	}
-	// The QRS strokes of rows stacked one above another (at 20 mm/mV a
-	// deep S wave reaches the next row's R) can fill a stretch of a
-	// column as a grid line would. A grid line has others 1 mm and 5 mm
-	// away (the grid's pitch) at a like level; a stroke has none, and
-	// keeps its ink.
-	mm := float64(seg) / 40
-	var offs []int
-	for _, d := range []float64{1, 5} {
-		c := int(math.Round(d * mm))
-		offs = append(offs, c-1, c, c+1, -c-1, -c, -c+1)
-	}
-	keep := make([]uint8, w)
-	for k := 0; k < ns; k++ {
-		lvl := all[k*w : (k+1)*w]
-		copy(keep, lvl)
-		for x, v := range lvl {
-			if v < 24 {
-				continue
-			}
-			grid := false
-			for _, o := range offs {
-				if j := x + o; j >= 0 && j < w && 3*int(lvl[j]) >= int(v) {
-					grid = true
-					break
-				}
-			}
-			if !grid {
-				keep[x] = 0
-			}
-		}
-		copy(lvl, keep)
-	}
-	for k := 0; k < ns; k++ {
-		y0, y1 := cuts[k], cuts[k+1]
-		lvl := all[k*w : (k+1)*w]
-		any := false
-		for _, v := range lvl {
-			if v > 0 {
-				any = true
-				break
-			}
-		}
-		if !any {
+		if !keepGridColumns(lvl, keep, offs) {
 			continue
 		}
 		if k == 0 {
 			y0 = 0
 		}
-		if k == ns-1 {
+		if k == len(cuts)-2 {
 			y1 = g.h
 		}
 		for y := y0; y < y1; y++ {
@@ -474,4 +431,49 @@ func suppressCols(g *gray, seg int, q float64, ya, yb int) {
 			}
 		}
 	}
+}
+
+// gridOffsets returns the column offsets, within a pixel, of the grid's
+// lines 1 mm and 5 mm either side of a column (seg is 40 mm).
+func gridOffsets(seg int) []int {
+	mm := float64(seg) / 40
+	var offs []int
+	for _, d := range []float64{1, 5} {
+		c := int(math.Round(d * mm))
+		offs = append(offs, c-1, c, c+1, -c-1, -c, -c+1)
+	}
+	return offs
+}
+
+// keepGridColumns keeps, of one stretch's column levels lvl, only those a
+// grid line explains (keep is scratch space of the same length), and says
+// whether any level is left. The QRS strokes of rows stacked one above
+// another (at 20 mm/mV a deep S wave reaches the next row's R) can fill a
+// stretch of a column as a grid line would; a grid line has others 1 mm
+// or 5 mm away (offs) at a third of its level or more, a stroke has none
+// and keeps its ink.
+func keepGridColumns(lvl, keep []uint8, offs []int) bool {
+	copy(keep, lvl)
+	for x, v := range lvl {
+		if v < 24 {
+			continue
+		}
+		pitched := false
+		for _, o := range offs {
+			if j := x + o; j >= 0 && j < len(lvl) && 3*int(lvl[j]) >= int(v) {
+				pitched = true
+				break
+			}
+		}
+		if !pitched {
+			keep[x] = 0
+		}
+	}
+	copy(lvl, keep)
+	for _, v := range lvl {
+		if v > 0 {
+			return true
+		}
+	}
+	return false
 }
