@@ -320,7 +320,7 @@ func rowPitch(rows []rowInfo, g *gray, pxPerMM float64) float64 {
 func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	pg := &page{g: g, rows: rows, pxPerMM: cal.PxPerMM, pxPerS: cal.PxPerMM * cal.SpeedMMPerS}
 	pg.pitch = rowPitch(rows, g, cal.PxPerMM)
-	pg.halfLn = strokeHalfWidth(g, rows)
+	pg.halfLn = strokeHalfWidth(g, rows, cal.PxPerMM)
 	var starts, ends, falls []int
 	for i := range rows {
 		r := &rows[i]
@@ -357,7 +357,7 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	// The round cap at a trace's end is one disc of the pen: its radius
 	// is the thinnest stretch's half width (noise and slope only thicken
 	// a line down a column), not the typical one.
-	capHW := strokeHalfWidthQ(g, rows, 0.05)
+	capHW := strokeHalfWidthQ(g, rows, 0.05, cal.PxPerMM)
 	// The coarse extents err outward at the ends (specks within 3 mm
 	// of the trace join it) and inward at the starts (a pulse's lead-out
 	// is skipped with the gap): the shortest of them is the safe guard.
@@ -437,18 +437,22 @@ func calibPulseEnd(ps []calib.Pulse, base, pitch float64, x1 int) (int, bool) {
 // strokeHalfWidth estimates half the trace's line width, to a fraction
 // of a pixel: across a flat stretch of line the ink coverage summed down
 // a column is the line's width (the blur keeps sums).
-func strokeHalfWidth(g *gray, rows []rowInfo) float64 {
-	return strokeHalfWidthQ(g, rows, 0.5)
+func strokeHalfWidth(g *gray, rows []rowInfo, pxPerMM float64) float64 {
+	return strokeHalfWidthQ(g, rows, 0.5, pxPerMM)
 }
 
 // strokeHalfWidthQ is strokeHalfWidth at quantile q of the columns
 // sampled: a slope only thickens a line down a column, so a low quantile
 // is the width across the line itself.
-func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
+func strokeHalfWidthQ(g *gray, rows []rowInfo, q, pxPerMM float64) float64 {
 	pix := g.raw
 	if pix == nil {
 		pix = g.pix
 	}
+	// A flat stretch of line runs down a column for the pen's width and
+	// the blur's: up to 1.2 mm for the thickest pens (1 mm).
+	flat := max(16, int(1.2*pxPerMM))
+	reach := max(40, int(3*pxPerMM))
 	var ws []float64
 	for _, r := range rows {
 		y := int(r.base)
@@ -457,13 +461,13 @@ func strokeHalfWidthQ(g *gray, rows []rowInfo, q float64) float64 {
 				continue
 			}
 			a, b := y, y
-			for a > 0 && g.pix[(a-1)*g.w+x] >= 32 && y-a < 40 {
+			for a > 0 && g.pix[(a-1)*g.w+x] >= 32 && y-a < reach {
 				a--
 			}
-			for b < g.h-1 && g.pix[(b+1)*g.w+x] >= 32 && b-y < 40 {
+			for b < g.h-1 && g.pix[(b+1)*g.w+x] >= 32 && b-y < reach {
 				b++
 			}
-			if b-a > 16 { // not a flat stretch
+			if b-a > flat { // not a flat stretch
 				continue
 			}
 			core, sum := 0.0, 0.0
@@ -620,11 +624,15 @@ func (pg *page) segBounds(n, r int) []float64 {
 func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 	margin := int(math.Ceil(pg.halfLn + 0.3*pg.pxPerMM)) // clear of separator ticks at a boundary
 	out := make([][]segTrace, len(pg.rows))
+	edges := make([][]*pathEdges, len(pg.rows))
+	offs := make([][]int, len(pg.rows))
 	for r, row := range pg.rows {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
 		out[r] = make([]segTrace, n)
+		edges[r] = make([]*pathEdges, n)
+		offs[r] = make([]int, n)
 		xs := pg.segBounds(n, r)
 		for s := 0; s < n; s++ {
 			a, b := int(math.Round(xs[s])), int(math.Round(xs[s+1]))
@@ -641,19 +649,40 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 			bd := band{x0: ta, x1: min(tb, pg.g.w), home: row.base, pitch: pg.pitch, halfLine: math.Max(pg.halfLn, 1)}
 			bd.y0 = max(0, int(row.base-0.95*pg.pitch))
 			bd.y1 = min(pg.g.h, int(row.base+0.95*pg.pitch))
-			ys, cf := tracePath(pg.g, bd)
+			edges[r][s] = followPath(pg.g, bd)
 			st := segTrace{x0: a, y: make([]float64, b-a), conf: make([]float32, b-a)}
 			for i := range st.y {
 				st.y[i] = math.NaN()
 			}
+			out[r][s] = st
+			offs[r][s] = ta - a
+		}
+	}
+	// One pen drew the page: its radius is fitted to every trace's
+	// strokes at once.
+	var all []*pathEdges
+	for _, es := range edges {
+		for _, e := range es {
+			if e != nil {
+				all = append(all, e)
+			}
+		}
+	}
+	R := fitPenRadius(all, math.Max(pg.halfLn, 1))
+	for r := range edges {
+		for s, e := range edges[r] {
+			if e == nil {
+				continue
+			}
+			ys, cf := e.finish(R)
+			st := out[r][s]
 			for i := range ys {
-				j := ta - a + i
+				j := offs[r][s] + i
 				if j >= 0 && j < len(st.y) {
 					st.y[j] = ys[i] + 0.5 // pixel index to continuous coordinates
 					st.conf[j] = cf[i]
 				}
 			}
-			out[r][s] = st
 		}
 	}
 	return out, nil

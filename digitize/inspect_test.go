@@ -37,6 +37,7 @@ func benchPrintout(t testing.TB, seed int64, i int) (*samples.Printout, string, 
 	if v, err := strconv.ParseFloat(os.Getenv("TRACELIFT_CASE_DPI"), 64); err == nil && v > 0 {
 		sc.Style.DPI = v
 	}
+	t.Logf("case %d: pen %.2f mm (half width %.2f px at %.0f dpi)", i, sc.Style.TraceWidthMM, sc.Style.TraceWidthMM*sc.Style.DPI/25.4/2, sc.Style.DPI)
 	po, err := sc.Printout()
 	if err != nil {
 		t.Fatal(err)

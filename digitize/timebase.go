@@ -182,12 +182,39 @@ func capEdge(g *gray, last, lo, hi, dir int, pxPerMM, hw float64) float64 {
 		}
 		return m
 	}
-	// The line's core level: the median column maximum well inside.
+	// The line's core level: the median column maximum well inside, over
+	// a taller band than the cap's (a steep wave leaves the cap's rows
+	// within a millimetre), or the cap's own strongest ink.
 	var cores []float64
 	for d := k; d < 3*k; d++ {
-		cores = append(cores, colMax(last-dir*d))
+		x := last - dir*d
+		if x < 0 || x >= g.w {
+			continue
+		}
+		m := 0.0
+		for y := max(0, lo-1-2*k); y < min(g.h, hi+2+2*k); y++ {
+			m = math.Max(m, float64(pix[y*g.w+x]))
+		}
+		cores = append(cores, m)
 	}
-	core := median(cores)
+	// Columns the wave has left are no measure of it.
+	top := 0.0
+	for _, c := range cores {
+		top = math.Max(top, c)
+	}
+	held := cores[:0]
+	for _, c := range cores {
+		if c >= 0.25*top {
+			held = append(held, c)
+		}
+	}
+	core := 0.0
+	if len(held) > 0 {
+		core = median(held)
+	}
+	for d := 0; d < k && core <= 0; d++ {
+		core = math.Max(core, colMax(last-dir*d))
+	}
 	if core <= 0 {
 		return float64(last) + 0.5
 	}

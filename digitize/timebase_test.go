@@ -96,3 +96,47 @@ func TestResidualTurnStraightened(t *testing.T) {
 		t.Errorf("median SNR %.1f dB after straightening, want ≥ 20", med)
 	}
 }
+
+// A trace whose first sample sits on a steep wave leaves the rows of its
+// round cap within a column or two. Its start is still the cap's outer
+// edge less the pen's radius (a round pen's stroke is its centre line
+// swept by a disc; common practice for plotter and thermal-head traces,
+// from memory), not the outermost inked column.
+func TestCapEdgeSteepStart(t *testing.T) {
+	const w, h, r = 200, 120, 2.5
+	const x0, y0 = 100.3, 90.0
+	c := func(x float64) float64 { return y0 - 9*(x-x0) } // 9 px up per column
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for y := 0; y < h; y++ {
+		for x := 90; x < 120; x++ {
+			n := 0
+			for sy := 0; sy < 4; sy++ {
+				for sx := 0; sx < 4; sx++ {
+					px, py := float64(x)+(float64(sx)+0.5)/4, float64(y)+(float64(sy)+0.5)/4
+					for u := x0; u <= x0+8; u += 0.02 {
+						if math.Hypot(px-u, py-c(u)) <= r {
+							n++
+							break
+						}
+					}
+				}
+			}
+			g.pix[y*w+x] = uint8(n * 255 / 16)
+		}
+	}
+	// The outermost column a walk reaches, and its run.
+	last := -1
+	for x := 90; x < 120 && last < 0; x++ {
+		for y := 0; y < h; y++ {
+			if g.pix[y*w+x] >= 64 {
+				last = x
+				break
+			}
+		}
+	}
+	lo, hi, _ := runAt(g, last, 0, h, int(y0)-4, int(y0)+4, 4, 64)
+	got := capEdge(g, last, lo, hi, -1, 10, r)
+	if math.Abs(got-x0) > 0.5 {
+		t.Errorf("start at x %.2f, want %.2f (outermost inked column %d)", got, x0, last)
+	}
+}

@@ -180,3 +180,56 @@ func TestStackedStrokesKeptGridColumnsRemoved(t *testing.T) {
 		}
 	}
 }
+
+// The pen's radius for reading strokes is fitted to the strokes
+// themselves: the width measured across flat stretches overstates it (a
+// soft line's shoulders, the blur), and a disc too large makes the two
+// edges of a steep stroke disagree, so the stroke is read off its line.
+// Here the flat width is given 20 % too wide; the spike (12 px of rise
+// per column on its flanks) must still be read to half a pixel, its tip
+// included. (A round pen's stroke is its
+// centre line swept by a disc: common practice for plotter and
+// thermal-head traces, from memory.)
+func TestTracePathFitsPenRadius(t *testing.T) {
+	const r = 2.0
+	g, truth := drawThickSpike(120, 220, 190, 150, 12, r)
+	ys, _ := tracePath(g, band{x0: 0, x1: 120, y0: 0, y1: 220, home: 190, pitch: 220, halfLine: 1.2 * r})
+	var se float64
+	n := 0
+	for x := 48; x < 72; x++ {
+		d := ys[x] + 0.5 - truth[x]
+		se += d * d
+		n++
+	}
+	if rms := math.Sqrt(se / float64(n)); rms > 0.5 {
+		t.Errorf("spike read off by %.2f px rms down the column", rms)
+	}
+	tip := math.Min(ys[59], ys[60]) + 0.5
+	if d := tip - truth[59]; math.Abs(d) > 0.7 {
+		t.Errorf("spike tip at y %.1f, want %.1f", tip, truth[59])
+	}
+}
+
+// A grid line left on the page (a fax's broken grid escapes line
+// removal) crossing a flat stretch of trace is no stroke of it: the
+// trace goes on at its level across the line.
+func TestTracePathLineCrossingFlat(t *testing.T) {
+	const w, h = 120, 200
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for x := 0; x < w; x++ {
+		for y := 99; y <= 101; y++ {
+			g.pix[y*w+x] = 255
+		}
+	}
+	for y := 80; y < 190; y++ { // mostly below the trace
+		for x := 60; x <= 62; x++ {
+			g.pix[y*w+x] = 255
+		}
+	}
+	ys, _ := tracePath(g, band{x0: 0, x1: w, y0: 0, y1: h, home: 100, pitch: 200, halfLine: 1.5})
+	for x := 50; x < 72; x++ {
+		if d := ys[x] + 0.5 - 100.5; math.Abs(d) > 1 {
+			t.Errorf("x %d: trace at y %.1f, want 100.5", x, ys[x]+0.5)
+		}
+	}
+}
