@@ -674,6 +674,12 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		// A fax with neither grid nor pulse: the sheet fills the scan.
 		res.Source, res.PxPerMM, res.Confidence = "page", pages[0], 0.25
 		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale assumes the fax holds a whole A4 or Letter sheet; check it against a known distance")
+	case paperBorder && len(pages) > 0:
+		// A scan of a whole sheet of plain paper whose pulses cannot be
+		// told apart (drawn into one another): its shape is that of a
+		// standard sheet, which gives the scale.
+		res.Source, res.PxPerMM, res.Confidence = "page", pages[0], 0.2
+		res.Warnings = append(res.Warnings, "no grid or calibration pulse found: the scale assumes the scan holds a whole A4 or Letter sheet edge to edge; check it against a known distance")
 	default:
 		return nil, fmt.Errorf("calib: %s: %w", stem(pg.Path), ErrNoScale)
 	}

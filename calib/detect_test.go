@@ -315,8 +315,17 @@ func TestNoGridFallbacks(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := Detect(context.Background(), &Page{Image: p.Image}, Options{}); !errors.Is(err, ErrNoScale) {
-		t.Fatalf("no grid, no pulse: %v, want ErrNoScale", err)
+	// A whole sheet edge to edge: its shape (A4, ISO 216) gives the
+	// scale, with a warning to check it.
+	res, err = Detect(context.Background(), &Page{Image: p.Image}, Options{})
+	if err != nil || res.Source != "page" || math.Abs(res.PxPerMM/p.Truth.PxPerMMX-1) > 0.01 || len(res.Warnings) == 0 {
+		t.Fatalf("no grid, no pulse, whole sheet: %v %+v", err, res)
+	}
+	// Cropped to no standard sheet's shape: nothing gives the scale.
+	b := p.Image.Bounds()
+	crop := p.Image.SubImage(image.Rect(b.Min.X, b.Min.Y, b.Min.X+b.Dx()*85/100, b.Max.Y)).(*image.NRGBA)
+	if _, err := Detect(context.Background(), &Page{Image: crop}, Options{}); !errors.Is(err, ErrNoScale) {
+		t.Fatalf("no grid, no pulse, cropped: %v, want ErrNoScale", err)
 	}
 	res, err = Detect(context.Background(), &Page{Image: p.Image}, Options{UserPxPerMM: 7.874})
 	if err != nil || res.Source != "user" {
