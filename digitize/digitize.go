@@ -155,6 +155,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	}
 	if opt.Layout == "" {
 		rows = trimRows(rows)
+		rows = dropTextRows(g, rows, rowPitch(rows, g, p))
 	}
 	pitch := rowPitch(rows, g, p)
 	gn := pulseGain(g, rows, pitch, cal)

@@ -141,3 +141,31 @@ func TestLeadLaws(t *testing.T) {
 		t.Error("reconciled lead I equals the raw trace exactly; reconciliation did nothing")
 	}
 }
+
+// A line of header text found as a row beside a lone strip makes two
+// rows, which no layout draws: the text, broken between its letters and
+// words, goes and the trace, inked in every column, stays.
+func TestDropTextRows(t *testing.T) {
+	const w, h = 1000, 400
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for x := 100; x < 600; x++ { // text: 6 px glyphs, 3 px apart, a word gap every 40 px
+		if x%9 < 6 && x%40 < 34 {
+			for y := 50; y < 58; y++ {
+				g.pix[y*w+x] = 255
+			}
+		}
+	}
+	for x := 50; x < 950; x++ { // the trace
+		y := 250 + int(20*math.Sin(float64(x)/15))
+		g.pix[y*w+x] = 255
+	}
+	rows := []rowInfo{{base: 54, x0: 100, x1: 600}, {base: 250, x0: 50, x1: 950}}
+	got := dropTextRows(g, rows, 150)
+	if len(got) != 1 || got[0].base != 250 {
+		t.Fatalf("rows kept %+v, want the trace's alone", got)
+	}
+	// Rows that fit a layout are left alone.
+	if got := dropTextRows(g, rows[1:], 150); len(got) != 1 {
+		t.Fatalf("a lone trace row dropped")
+	}
+}

@@ -449,3 +449,57 @@ func medianColMax(g *gray, x0, x1, ya, yb int) int {
 	sort.Ints(cm)
 	return cm[len(cm)/2]
 }
+
+// rowContinuity is the fraction of the columns of row r's extent that
+// hold ink within 0.45 of the row pitch of its baseline. A trace crosses
+// every column; a line of text leaves gaps between its words and
+// letters.
+func rowContinuity(g *gray, r rowInfo, pitch float64) float64 {
+	ya, yb := max(0, int(r.base-0.45*pitch)), min(g.h, int(r.base+0.45*pitch)+1)
+	n, on := 0, 0
+	for x := max(0, r.x0); x < min(g.w, r.x1); x++ {
+		n++
+		if colMax(g, x, ya, yb) >= inkOn {
+			on++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return float64(on) / float64(n)
+}
+
+// dropTextRows removes, from rows whose count fits no layout, the rows
+// that are broken like a line of text (under 90 % of their columns
+// inked), most broken first, when that leaves a count some layout
+// draws; otherwise rows is returned as it is.
+func dropTextRows(g *gray, rows []rowInfo, pitch float64) []rowInfo {
+	if validRowCount(len(rows)) {
+		return rows
+	}
+	type scored struct {
+		i int
+		c float64
+	}
+	var broken []scored
+	for i, r := range rows {
+		if c := rowContinuity(g, r, pitch); c < 0.9 {
+			broken = append(broken, scored{i, c})
+		}
+	}
+	sort.Slice(broken, func(a, b int) bool { return broken[a].c < broken[b].c })
+	drop := make(map[int]bool)
+	for _, b := range broken {
+		drop[b.i] = true
+		if validRowCount(len(rows) - len(drop)) {
+			var out []rowInfo
+			for i, r := range rows {
+				if !drop[i] {
+					out = append(out, r)
+				}
+			}
+			return out
+		}
+	}
+	return rows
+}
