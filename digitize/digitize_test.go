@@ -169,3 +169,21 @@ func TestDropTextRows(t *testing.T) {
 		t.Fatalf("a lone trace row dropped")
 	}
 }
+
+// A nearly flat lead on a fax breaks up under the dither, and its row
+// is dropped for its broken ink: eleven rows fit no layout. The dropped
+// candidate one row spacing below the last row is put back (twelve
+// rows, 12x1); one at another distance (a header line) is not.
+func TestAddFaintRows(t *testing.T) {
+	var rows []rowInfo
+	for i := 0; i < 11; i++ {
+		rows = append(rows, rowInfo{base: 200.5 + 100*float64(i), x0: 90 + i%2, x1: 2140})
+	}
+	got := addFaintRows(rows, []int{120, 1300})
+	if len(got) != 12 || got[11].base != 1300.5 || got[11].x0 != 90 || got[11].x1 != 2140 {
+		t.Fatalf("rows %+v", got)
+	}
+	if got := addFaintRows(rows, []int{120}); len(got) != 11 {
+		t.Fatalf("a header line put back: %d rows", len(got))
+	}
+}

@@ -53,6 +53,7 @@ func findRows(g *gray, pxPerMM, gain float64) []rowInfo {
 		}
 	}
 	var rows []rowInfo
+	var faint []int // dense enough for a row, but its ink broken up
 	longest := 0
 	type ext struct{ x0, x1, run int }
 	exts := make([]ext, len(cands))
@@ -91,6 +92,9 @@ func findRows(g *gray, pxPerMM, gain float64) []rowInfo {
 	}
 	for i, y := range cands {
 		if exts[i].run < int(0.55*float64(longest)) || exts[i].run < int(20*pxPerMM) {
+			if exts[i].run >= int(20*pxPerMM) && prof[y] >= 0.25*mx {
+				faint = append(faint, y)
+			}
 			continue
 		}
 		rows = append(rows, rowInfo{base: float64(y) + 0.5, x0: exts[i].x0, x1: exts[i].x1})
@@ -114,6 +118,48 @@ func findRows(g *gray, pxPerMM, gain float64) []rowInfo {
 			keep = append(keep, r)
 		}
 		rows = keep
+	}
+	return addFaintRows(rows, faint)
+}
+
+// addFaintRows puts back, into rows whose count fits no layout, the
+// candidates dropped for broken ink (a nearly flat trace on a fax, its
+// thin line broken by the dither) that stand one row spacing beyond the
+// first or last row or midway in a double gap, when that gives a count
+// some layout draws. A row put back spans what the others span.
+func addFaintRows(rows []rowInfo, faint []int) []rowInfo {
+	if len(rows) < 3 || validRowCount(len(rows)) || len(faint) == 0 {
+		return rows
+	}
+	var gaps, x0s, x1s []float64
+	for i := range rows {
+		if i > 0 {
+			gaps = append(gaps, rows[i].base-rows[i-1].base)
+		}
+		x0s = append(x0s, float64(rows[i].x0))
+		x1s = append(x1s, float64(rows[i].x1))
+	}
+	med := median(gaps)
+	x0, x1 := int(median(x0s)), int(median(x1s))
+	fits := func(d float64) bool { return math.Abs(d-med) <= 0.15*med }
+	out := append([]rowInfo(nil), rows...)
+	for _, y := range faint {
+		b := float64(y) + 0.5
+		first, last := out[0].base, out[len(out)-1].base
+		ok := fits(first-b) || fits(b-last)
+		for i := 1; i < len(out) && !ok; i++ {
+			if fits(b-out[i-1].base) && fits(out[i].base-b) {
+				ok = true
+			}
+		}
+		if !ok {
+			continue
+		}
+		out = append(out, rowInfo{base: b, x0: x0, x1: x1})
+		sort.Slice(out, func(i, j int) bool { return out[i].base < out[j].base })
+		if validRowCount(len(out)) {
+			return out
+		}
 	}
 	return rows
 }
