@@ -327,7 +327,8 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 		// well short of where the row's ink ends lost the trace, unless
 		// what went on was a grid line (the row's coarse extent follows
 		// it too).
-		m.okEnd = last < g.w-2 && (cut || last >= endRef-int(3*pxPerMM))
+		m.okEnd = last < g.w-2 && (cut || last >= endRef-int(3*pxPerMM) ||
+			sparseAfter(g, last, endRef, (lo+hi)/2, int(3*pxPerMM), on))
 	}
 	// Start: walk left from well inside, not into the pulse.
 	stop := 0
@@ -573,4 +574,23 @@ func solve3(A [3][3]float64, v [3]float64) ([3]float64, bool) {
 		x[c] = s / A[c][c]
 	}
 	return x, true
+}
+
+// sparseAfter reports whether the columns (last, ref] hold ink within
+// band rows of y in under a third of them: specks (a fax's, a
+// photocopy's) carried the row's coarse extent on past a trace that
+// really ends at last, where a trace lost at a break would go on inked.
+func sparseAfter(g *gray, last, ref, y, band int, on uint8) bool {
+	if ref <= last {
+		return false
+	}
+	ya, yb := max(0, y-band), min(g.h, y+band+1)
+	n, inked := 0, 0
+	for x := last + 1; x <= min(ref, g.w-1); x++ {
+		n++
+		if colMax(g, x, ya, yb) >= int(on) {
+			inked++
+		}
+	}
+	return n > 0 && 3*inked < n
 }

@@ -140,3 +140,27 @@ func TestCapEdgeSteepStart(t *testing.T) {
 		t.Errorf("start at x %.2f, want %.2f (outermost inked column %d)", got, x0, last)
 	}
 }
+
+// Specks beyond a trace's end (a fax's) carry the row's coarse extent
+// on; the walk that stopped at the trace's end is right then. A trace
+// that goes on inked after a break is not ended.
+func TestSparseAfter(t *testing.T) {
+	const w, h = 300, 60
+	g := &gray{w: w, h: h, pix: make([]uint8, w*h)}
+	for x := 0; x <= 100; x++ {
+		g.pix[30*w+x] = 255
+	}
+	for x := 110; x < 160; x += 12 { // specks, 2 px each
+		g.pix[(26+x%7)*w+x] = 255
+		g.pix[(26+x%7)*w+x+1] = 255
+	}
+	if !sparseAfter(g, 100, 160, 30, 10, 64) {
+		t.Error("specks after the end taken for more trace")
+	}
+	for x := 110; x < 160; x++ {
+		g.pix[31*w+x] = 255
+	}
+	if sparseAfter(g, 100, 160, 30, 10, 64) {
+		t.Error("a trace going on after a break taken for specks")
+	}
+}
