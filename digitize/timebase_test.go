@@ -4,6 +4,7 @@ import (
 	"math"
 	"testing"
 
+	"tracelift/calib"
 	"tracelift/samples"
 )
 
@@ -162,5 +163,29 @@ func TestSparseAfter(t *testing.T) {
 	}
 	if sparseAfter(g, 100, 160, 30, 10, 64) {
 		t.Error("a trace going on after a break taken for specks")
+	}
+}
+
+// A page of 12-lead traces spans 10 s at 25 mm/s (common practice).
+// Where calib's scale comes from a pulse, a span 0.2 % off 10 s (the
+// pulse's width read to a fraction of a pixel) corrects it; a span
+// within a pixel or two of 10 s, a grid's scale, or a span far from any
+// standard one (a page fitted to 9.8 s) does not.
+func TestSpanScale(t *testing.T) {
+	cal := &calib.Result{PxPerMM: 11.833, SpeedMMPerS: 25, Source: "pulse"}
+	px := 10 * 11.811 * 25 // the true scale's 10 s
+	k, spanS, want := spanScale(px, cal)
+	if want != 10 || math.Abs(cal.PxPerMM*k-11.811) > 0.002 {
+		t.Errorf("pulse scale 11.833, span %.3f s: k %.5f (want %.5f)", spanS, k, 11.811/11.833)
+	}
+	if k, _, _ := spanScale(10*11.833*25+2, cal); k != 1 {
+		t.Errorf("a span 2 px off 10 s corrected (k %.5f)", k)
+	}
+	if k, _, _ := spanScale(9.8*11.833*25, cal); k != 1 {
+		t.Errorf("a 9.8 s page stretched to 10 s (k %.5f)", k)
+	}
+	grid := &calib.Result{PxPerMM: 11.833, SpeedMMPerS: 25, Source: "grid"}
+	if k, _, _ := spanScale(px, grid); k != 1 {
+		t.Errorf("a grid's scale corrected from the span (k %.5f)", k)
 	}
 }
