@@ -3,6 +3,7 @@ package csvio
 import (
 	"bytes"
 	"math"
+	"strings"
 	"testing"
 )
 
@@ -32,6 +33,9 @@ func FuzzRead(f *testing.F) {
 		for _, s := range r1.Signals {
 			if n := s.Lead; len(n) >= 2 && n[0] == '\'' && n[len(n)-1] == '\'' {
 				return // Read strips one pair of single quotes per read
+			}
+			if n := s.Lead; strings.HasSuffix(n, ")") || strings.HasSuffix(n, "]") {
+				return // Read takes a trailing bracket as the lead's unit, one per read
 			}
 		}
 		onGrid := true // Write resamples leads that start between grid points
