@@ -626,14 +626,12 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 	margin := int(math.Ceil(pg.halfLn + 0.3*pg.pxPerMM)) // clear of separator ticks at a boundary
 	out := make([][]segTrace, len(pg.rows))
 	edges := make([][]*pathEdges, len(pg.rows))
-	offs := make([][]int, len(pg.rows))
 	for r, row := range pg.rows {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
 		out[r] = make([]segTrace, n)
 		edges[r] = make([]*pathEdges, n)
-		offs[r] = make([]int, n)
 		xs := pg.segBounds(n, r)
 		for s := 0; s < n; s++ {
 			a, b := int(math.Round(xs[s])), int(math.Round(xs[s+1]))
@@ -656,7 +654,6 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 				st.y[i] = math.NaN()
 			}
 			out[r][s] = st
-			offs[r][s] = ta - a
 		}
 	}
 	// One pen drew the page: its radius is fitted to every trace's
@@ -678,7 +675,7 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 			ys, cf := e.finish(R)
 			st := out[r][s]
 			for i := range ys {
-				j := offs[r][s] + i
+				j := e.b.x0 - st.x0 + i // the band starts margin px into the segment
 				if j >= 0 && j < len(st.y) {
 					st.y[j] = ys[i] + 0.5 // pixel index to continuous coordinates
 					st.conf[j] = cf[i]

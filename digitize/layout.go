@@ -496,23 +496,30 @@ func medianColMax(g *gray, x0, x1, ya, yb int) int {
 	return cm[len(cm)/2]
 }
 
+// inkedShare is the fraction of the columns [x0, x1) that hold ink (on
+// or more) somewhere in rows [ya, yb); ok is false when there are none.
+func inkedShare(g *gray, x0, x1, ya, yb, on int) (share float64, ok bool) {
+	x0, x1 = max(0, x0), min(g.w, x1)
+	if x1 <= x0 {
+		return 0, false
+	}
+	inked := 0
+	for x := x0; x < x1; x++ {
+		if colMax(g, x, ya, yb) >= on {
+			inked++
+		}
+	}
+	return float64(inked) / float64(x1-x0), true
+}
+
 // rowContinuity is the fraction of the columns of row r's extent that
 // hold ink within 0.45 of the row pitch of its baseline. A trace crosses
 // every column; a line of text leaves gaps between its words and
 // letters.
 func rowContinuity(g *gray, r rowInfo, pitch float64) float64 {
 	ya, yb := max(0, int(r.base-0.45*pitch)), min(g.h, int(r.base+0.45*pitch)+1)
-	n, on := 0, 0
-	for x := max(0, r.x0); x < min(g.w, r.x1); x++ {
-		n++
-		if colMax(g, x, ya, yb) >= inkOn {
-			on++
-		}
-	}
-	if n == 0 {
-		return 0
-	}
-	return float64(on) / float64(n)
+	c, _ := inkedShare(g, r.x0, r.x1, ya, yb, inkOn)
+	return c
 }
 
 // dropTextRows removes, from rows whose count fits no layout, the rows

@@ -585,12 +585,6 @@ func sparseAfter(g *gray, last, ref, y, band int, on uint8) bool {
 		return false
 	}
 	ya, yb := max(0, y-band), min(g.h, y+band+1)
-	n, inked := 0, 0
-	for x := last + 1; x <= min(ref, g.w-1); x++ {
-		n++
-		if colMax(g, x, ya, yb) >= int(on) {
-			inked++
-		}
-	}
-	return n > 0 && 3*inked < n
+	c, ok := inkedShare(g, last+1, ref+1, ya, yb, int(on))
+	return ok && c < 1.0/3
 }

@@ -46,7 +46,7 @@ type pathEdges struct {
 	path         []int     // path row per column, band rows
 	ys           []float64 // centre of a flat stretch (short), NaN where lost
 	conf         []float32
-	runA, runZ   []int     // the run, band rows; −1 where lost
+	runA         []int     // the run's top row, band rows; −1 where lost
 	upper, lower []float64 // the run's top and bottom edge, px
 	short        []bool    // a flat stretch: its edges are its centre ± the pen radius
 	hidden       []bool    // lost under a grid line as dark as the trace
@@ -154,7 +154,6 @@ func followPath(g *gray, b band) *pathEdges {
 	ys := make([]float64, W)
 	conf := make([]float32, W)
 	runA := make([]int, W)
-	runZ := make([]int, W)
 	upper := make([]float64, W) // top edge of the run, px
 	hidden := make([]bool, W)
 	lower := make([]float64, W) // bottom edge
@@ -177,7 +176,7 @@ func followPath(g *gray, b band) *pathEdges {
 		pageInk := func(i int) bool {
 			return g.raw != nil && float64(g.raw[(b.y0+i)*g.w+col]) >= inkSolid*norm
 		}
-		runA[x], runZ[x] = -1, -1
+		runA[x] = -1
 		if at(p) < runThresh {
 			found := -1
 			for d := 1; d <= 2 && found < 0; d++ {
@@ -204,7 +203,7 @@ func followPath(g *gray, b band) *pathEdges {
 		// the run goes on across such a gap when the page had ink in it.
 		a := extendRun(at, pageInk, lo, -1, H, maxExt, maxBridge)
 		z := extendRun(at, pageInk, hi, +1, H, maxExt, maxBridge)
-		runA[x], runZ[x] = a, z
+		runA[x] = a
 		peak := 0.0
 		var sw, swy float64
 		for i := a; i <= z; i++ {
@@ -230,7 +229,7 @@ func followPath(g *gray, b band) *pathEdges {
 		}
 		conf[x] = float32(c)
 	}
-	return &pathEdges{b: b, path: path, ys: ys, conf: conf, runA: runA, runZ: runZ,
+	return &pathEdges{b: b, path: path, ys: ys, conf: conf, runA: runA,
 		upper: upper, lower: lower, short: short, hidden: hidden}
 }
 
