@@ -45,3 +45,42 @@ func TestCompareFindsShift(t *testing.T) {
 		t.Fatalf("SNR %.1f after alignment", a.SNRdB)
 	}
 }
+
+// The outside evaluation's scoring (../shared/data/outside-printouts/README.md):
+// a blank counts as error with the de-meaned estimate taken as 0 there. An
+// estimate exact over the first half of a zero-mean sine window and blank
+// over the second leaves an error equal to the reference over half the
+// window: Σref²/Σerr² = 2, so 10·log10(2) = 3.01 dB, where Compare, which
+// skips the blank, reads it as perfect.
+func TestCompareStrictCountsBlanks(t *testing.T) {
+	ref := Signal{Lead: II, RateHz: 500}
+	est := Signal{Lead: II, RateHz: 500}
+	for i := 0; i < 5000; i++ {
+		v := math.Sin(2 * math.Pi * 1.0 * float64(i) / 500)
+		ref.MV = append(ref.MV, v)
+		if i < 2500 {
+			est.MV = append(est.MV, v+0.4) // an offset, removed with the mean
+		} else {
+			est.MV = append(est.MV, math.NaN())
+		}
+	}
+	s := CompareStrict(&ref, &est, 0, 10)
+	if math.Abs(s.SNRdB-10*math.Log10(2)) > 0.05 {
+		t.Fatalf("strict SNR %.3f dB, want 3.01", s.SNRdB)
+	}
+	if math.Abs(s.Coverage-0.5) > 0.01 {
+		t.Fatalf("coverage %.3f, want 0.5", s.Coverage)
+	}
+	if c := Compare(&ref, &est, 0, 10); c.SNRdB < 60 {
+		t.Fatalf("Compare skips blanks: %.1f dB", c.SNRdB)
+	}
+	if m := CompareStrict(&ref, nil, 0, 10); m.SNRdB != 0 {
+		t.Fatalf("a missing lead scores %.2f dB, want 0", m.SNRdB)
+	}
+	// The shift is searched in whole 2 ms steps: an estimate 12 ms late
+	// is found at 12 ms.
+	late := Signal{Lead: II, RateHz: 500, StartS: 0.012, MV: ref.MV}
+	if a := CompareStrict(&ref, &late, 0.5, 9.5); math.Abs(a.ShiftS-0.012) > 1e-9 || a.SNRdB < 40 {
+		t.Fatalf("shift %.4f s, SNR %.1f dB", a.ShiftS, a.SNRdB)
+	}
+}

@@ -55,12 +55,16 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	csvOut := fs.String("csv", "", "also write one row per case to this CSV file")
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
 	dpi := fs.Float64("dpi", 0, "render every case at this dpi (default: vary, 150–600)")
+	outside := fs.String("outside", "", "instead of rendering, score the printouts of another renderer in this folder (outside*.json truth beside each picture)")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: tracelift-cli bench [options]")
 		fs.PrintDefaults()
 	}
 	if _, code, ok := parseCommand(fs, args, stderr); !ok {
 		return code
+	}
+	if *outside != "" {
+		return benchOutside(*outside, stdout, stderr)
 	}
 	var condList []string
 	for _, c := range strings.Split(*conds, ",") {
@@ -138,23 +142,29 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 		c.GainOK = math.Abs(o.Calib.GainMMPerMV-tr.GainMMPerMV) < 0.02*tr.GainMMPerMV
 		c.SpeedOK = math.Abs(o.Calib.SpeedMMPerS-tr.SpeedMMPerS) < 0.02*tr.SpeedMMPerS
 	}
+	var est *record.Record
 	if err != nil {
 		c.Err = err.Error()
-		return c
+	} else {
+		est = o.Digitized.Record
 	}
-	est := o.Digitized.Record
+	// Scored as a user meets the result (record.CompareStrict): a blank
+	// counts as error and a lead not recovered, or a page that failed,
+	// as 0 dB for each lead drawn.
+	std := &record.Record{}
 	for _, ref := range tr.Signals.Signals {
-		if !record.IsStandard(ref.Lead) {
-			continue
+		if record.IsStandard(ref.Lead) {
+			std.Signals = append(std.Signals, ref)
 		}
-		e := est.Lead(ref.Lead)
-		if e == nil {
+	}
+	for _, a := range record.CompareRecordStrict(std, est) {
+		if est != nil && est.Lead(a.Lead) == nil {
 			c.Missing++
-			c.SNR = append(c.SNR, math.Inf(-1))
-			continue
 		}
-		a := record.Compare(&ref, e, ref.StartS, ref.EndS())
 		c.SNR = append(c.SNR, a.SNRdB)
+	}
+	if err != nil {
+		return c
 	}
 	if f := o.Findings; f != nil {
 		var want axisTruth
@@ -203,12 +213,7 @@ func printBenchTable(w io.Writer, cases []benchCase, conds []string) {
 				speed++
 			}
 			missing += c.Missing
-			for _, s := range c.SNR {
-				if math.IsInf(s, -1) {
-					s = -10 // a missing lead counts as a very poor one
-				}
-				snr = append(snr, s)
-			}
+			snr = append(snr, c.SNR...)
 			ax = appendFinite(ax, c.AxisErr)
 			hr = appendFinite(hr, c.HRErr)
 			qrs = appendFinite(qrs, c.QRSErr)
