@@ -16,6 +16,8 @@ import (
 	"strings"
 	"sync"
 	"time"
+
+	"tracelift/record/ledger"
 )
 
 // Status of one file in a batch.
@@ -35,6 +37,9 @@ type FileResult struct {
 	TimingsMS map[string]float64
 	PeakRSSMB float64 // peak resident memory of the worker process, when known
 	CPUSecond float64 // processor time of the worker process (user + system), when known
+	// Page is the page digitized, from 1, for a file of several pages; 0
+	// otherwise. The output folder's ledger records it with the file.
+	Page int `json:",omitempty"`
 }
 
 // ProcessFunc digitizes the image at in and writes its outputs into dir
@@ -164,6 +169,10 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	}
 	if err := refuseLink(rep.LogPath); err != nil {
 		return nil, err
+	}
+	// The log and the summary replace or extend only a batch's own.
+	if err := ledger.Claim(root, ledger.Source{Path: "a batch run"}, []string{filepath.Base(rep.LogPath), filepath.Base(rep.SummaryPath)}, nil); err != nil {
+		return nil, fmt.Errorf("batch: %w", err)
 	}
 	logf, err := os.OpenFile(rep.LogPath, os.O_RDWR|os.O_APPEND|os.O_CREATE, 0o644)
 	if err != nil {
@@ -334,7 +343,7 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 			return r
 		}
 	}
-	outs, err := placeOutputs(scratch, dir)
+	outs, err := placeOutputs(scratch, dir, ledger.FileSource(in.Path, fr.Page), in.Path)
 	r.Outputs = outs
 	if err != nil {
 		r.Error = err.Error()

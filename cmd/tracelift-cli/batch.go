@@ -103,7 +103,10 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	for _, f := range formats {
 		plain = plain || f == pipeline.FormatWFDB // WFDB record names are plain
 	}
-	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}, PlainStems: plain})
+	if err := batch.CheckFolders(pos[0], b.common.out); err != nil {
+		return usageErr(err.Error())
+	}
+	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}, PlainStems: plain, Out: b.common.out})
 	if err != nil {
 		return usageErr(err.Error() + "; give a folder of images or a text file listing them")
 	}
@@ -233,6 +236,7 @@ func digitizeOne(ctx context.Context, c *commonFlags, formats []string, in, dir,
 	if err != nil {
 		return fr, namingFile(err, in)
 	}
+	fr.Page = pipeline.PageSource(o).Page
 	if _, err := pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper}); err != nil {
 		return fr, namingFile(err, in)
 	}

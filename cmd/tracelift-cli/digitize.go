@@ -9,8 +9,10 @@ import (
 	"os"
 	"os/signal"
 	"strings"
+	"syscall"
 
 	"tracelift/pipeline"
+	"tracelift/record/ledger"
 )
 
 func init() {
@@ -109,15 +111,20 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
 		return 2
 	}
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
-	defer stop()
 	formats, _ := pipeline.ParseFormats(c.formats)
+	stem := outputStem(pos[0], formats)
+	if err := precheckOutputs(c.out, stem, formats, pos[0]); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		return 1
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
 	o, err := pipeline.Process(ctx, pos[0], c.options())
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
 	}
-	files, err := pipeline.Export(o, c.out, pipeline.Stem(pos[0]), formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
+	files, err := pipeline.Export(o, c.out, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
@@ -127,4 +134,47 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stdout, "wrote", f)
 	}
 	return 0
+}
+
+// outputStem is the output file name of the image at path without
+// extension: its own stem, with characters a WFDB record name may not hold
+// made '_' when WFDB is among the formats (as batch does), so that no export
+// fails half-way on the name.
+func outputStem(path string, formats []string) string {
+	stem := pipeline.Stem(path)
+	for _, f := range formats {
+		if f == pipeline.FormatWFDB {
+			return plainName(stem)
+		}
+	}
+	return stem
+}
+
+// plainName keeps letters, digits, '_', '-' and '.'; others become '_'.
+func plainName(s string) string {
+	s = strings.Map(func(r rune) rune {
+		if r == '_' || r == '-' || r == '.' || r >= '0' && r <= '9' || r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' {
+			return r
+		}
+		return '_'
+	}, s)
+	if s == "" || s == "." || s == ".." {
+		s = "record"
+	}
+	return s
+}
+
+// precheckOutputs refuses, before the image is read, an output folder
+// where an export would replace the input or a file tracelift did not
+// write. (Whether an output of tracelift there belongs to this very page is
+// known once the page is loaded; Export checks that.)
+func precheckOutputs(dir, stem string, formats []string, input string) error {
+	if fi, err := os.Stat(dir); err != nil || !fi.IsDir() {
+		return nil // made by Export, or refused there with its reason
+	}
+	err := ledger.Check(dir, ledger.FileSource(input, 0), pipeline.OutputNames(stem, formats), []string{input})
+	if err != nil && !errors.Is(err, ledger.ErrOtherSource) {
+		return err
+	}
+	return nil
 }

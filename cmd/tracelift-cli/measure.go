@@ -14,6 +14,7 @@ import (
 	"tracelift/record"
 	"tracelift/record/atomic"
 	"tracelift/record/csvio"
+	"tracelift/record/ledger"
 	"tracelift/record/wfdb"
 )
 
@@ -42,6 +43,14 @@ func cmdMeasure(args []string, stdout, stderr io.Writer) int {
 	if len(files) == 0 || *out == "" {
 		fs.Usage()
 		return 2
+	}
+	stems := map[string]string{}
+	for _, path := range files {
+		st := strings.ToLower(measureStem(path))
+		if prev, ok := stems[st]; ok {
+			return usageError(stderr, "measure", fmt.Sprintf("%s and %s would both be written as %s.json; measure them into different -o folders", prev, path, measureStem(path)))
+		}
+		stems[st] = path
 	}
 	if err := os.MkdirAll(*out, 0o755); err != nil {
 		fmt.Fprintf(stderr, "measure: cannot create the output directory: %v\n", err)
@@ -98,8 +107,11 @@ func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error 
 	if err != nil {
 		return err
 	}
-	stem := strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+	stem := measureStem(path)
 	dst := filepath.Join(dir, stem+".json")
+	if err := ledger.Claim(dir, ledger.FileSource(path, 0), []string{stem + ".json"}, []string{path, path + ".hea"}); err != nil {
+		return err
+	}
 	err = atomic.WriteFile(dst, func(w io.Writer) error {
 		enc := json.NewEncoder(w)
 		enc.SetIndent("", "  ")
@@ -113,4 +125,10 @@ func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error 
 		fmt.Fprintf(stdout, "written: %s\n\n", dst)
 	}
 	return nil
+}
+
+// measureStem is the output name of a record: its file name without the
+// extension.
+func measureStem(path string) string {
+	return strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
 }
