@@ -115,17 +115,29 @@ func walk(root string, skip []string) ([]Input, error) {
 		if !hasImageExt(name) {
 			return nil
 		}
-		if d.Type()&fs.ModeSymlink != 0 {
-			// A link to a file is followed; a link to a folder is not walked.
-			if fi, err := os.Stat(p); err != nil || !fi.Mode().IsRegular() {
-				return nil
-			}
-		} else if !d.Type().IsRegular() {
-			return nil
-		}
 		rel, err := filepath.Rel(root, p)
 		if err != nil {
 			return nil
+		}
+		notRegular := func(what string) error {
+			// Named like an image but no file to read (a FIFO, a device, a
+			// link to one): reported, not skipped without a word.
+			ins = append(ins, Input{Path: p, Rel: filepath.ToSlash(rel), Err: "batch: " + p + " is " + what + ", not an image file saved on disk; remove it or replace it with the file"})
+			return nil
+		}
+		if d.Type()&fs.ModeSymlink != 0 {
+			// A link to a file is followed; a link to a folder is not walked.
+			fi, err := os.Stat(p)
+			switch {
+			case err != nil:
+				return notRegular("a broken link")
+			case fi.IsDir():
+				return nil
+			case !fi.Mode().IsRegular():
+				return notRegular("a link to a " + fi.Mode().Type().String() + " file")
+			}
+		} else if !d.Type().IsRegular() {
+			return notRegular("a special file (" + d.Type().String() + ")")
 		}
 		ins = append(ins, Input{Path: p, Rel: filepath.ToSlash(rel)})
 		return nil

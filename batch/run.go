@@ -67,6 +67,9 @@ type Options struct {
 	Expect []string
 	// NoResume digitizes every file even when its outputs are up to date.
 	NoResume bool
+	// MaxBytes bounds the size of an input file; 0 = 200 MB (calib's
+	// default).
+	MaxBytes int64
 	// OnResult is called once per file, in completion order, from a single
 	// goroutine (progress display).
 	OnResult func(done, total int, r Result)
@@ -188,7 +191,11 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	}
 	defer os.RemoveAll(work)
 
-	w := &worker{root: root, work: work, proc: proc, timeout: timeout, grace: grace,
+	maxBytes := opt.MaxBytes
+	if maxBytes <= 0 {
+		maxBytes = 200 << 20
+	}
+	w := &worker{root: root, work: work, proc: proc, timeout: timeout, grace: grace, maxBytes: maxBytes,
 		expect: expected(opt.Expect), resume: !opt.NoResume}
 	todo := make(chan Input)
 	done := make(chan Result)
@@ -274,6 +281,7 @@ type worker struct {
 	root, work     string
 	proc           ProcessFunc
 	timeout, grace time.Duration
+	maxBytes       int64
 	expect         []string
 	resume         bool
 }
@@ -299,7 +307,14 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 		r.Error = err.Error()
 		return r
 	}
-	sha, err := hashFile(in.Path)
+	// The hash is part of the page's work: under its deadline, stopped by
+	// an interrupt.
+	hctx, hcancel := ctx, context.CancelFunc(func() {})
+	if w.timeout > 0 {
+		hctx, hcancel = context.WithTimeout(ctx, w.timeout)
+	}
+	sha, err := hashFile(hctx, in.Path, w.maxBytes)
+	hcancel()
 	if err != nil {
 		r.Error = err.Error()
 		return r
@@ -428,7 +443,9 @@ func (w *worker) upToDate(dir, stem, sha string) (Findings, []string, bool) {
 	return f, outs, true
 }
 
-func hashFile(p string) (string, error) {
+// hashFile hashes the regular file at p (a link to one is followed), at
+// most max bytes, checking ctx between blocks.
+func hashFile(ctx context.Context, p string, max int64) (string, error) {
 	fi, err := os.Stat(p)
 	if err != nil {
 		if errors.Is(err, fs.ErrNotExist) {
@@ -439,14 +456,38 @@ func hashFile(p string) (string, error) {
 	if fi.IsDir() {
 		return "", fmt.Errorf("batch: %s is a folder, not an image file", p)
 	}
+	if !fi.Mode().IsRegular() {
+		return "", fmt.Errorf("batch: %s is not a regular file (%v); list image files saved on disk", p, fi.Mode().Type())
+	}
+	if fi.Size() > max {
+		return "", fmt.Errorf("batch: %s is %d bytes, over the %d byte limit; scan at a lower resolution or raise --max-megabytes", p, fi.Size(), max)
+	}
 	f, err := os.Open(p)
 	if err != nil {
 		return "", fmt.Errorf("batch: cannot read %s: %s; check its permissions", p, errText(err))
 	}
 	defer f.Close()
+	if fi, err := f.Stat(); err != nil || !fi.Mode().IsRegular() {
+		return "", fmt.Errorf("batch: %s is not a regular file; list image files saved on disk", p)
+	}
 	h := sha256.New()
-	if _, err := io.Copy(h, f); err != nil {
-		return "", fmt.Errorf("batch: cannot read %s: %s", p, errText(err))
+	buf := make([]byte, 1<<20)
+	var n int64
+	for {
+		if err := ctx.Err(); err != nil {
+			return "", fmt.Errorf("batch: stopped while reading %s: %w", p, err)
+		}
+		k, err := f.Read(buf)
+		h.Write(buf[:k])
+		if n += int64(k); n > max {
+			return "", fmt.Errorf("batch: %s grew over the %d byte limit while read; raise --max-megabytes or copy it first", p, max)
+		}
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return "", fmt.Errorf("batch: cannot read %s: %s", p, errText(err))
+		}
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
 }

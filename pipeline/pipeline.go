@@ -48,6 +48,9 @@ func (t Timings) Total() time.Duration { return t.Load + t.Calib + t.Digitize + 
 // Process runs every stage on the image file at path.
 func Process(ctx context.Context, path string, opt Options) (*Outcome, error) {
 	t0 := time.Now()
+	if opt.Load.Context == nil {
+		opt.Load.Context = ctx
+	}
 	pg, err := calib.Load(path, opt.Load)
 	if err != nil {
 		return nil, err

@@ -11,6 +11,7 @@ import (
 	"os"
 	"os/exec"
 	"os/signal"
+	"path/filepath"
 	"regexp"
 	"runtime"
 	"strings"
@@ -139,6 +140,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	opt := batch.Options{
 		Out: b.common.out, Jobs: b.jobs, ShardK: k, ShardN: n, PageTimeout: timeout,
 		Expect: extensions(formats), NoResume: b.noResume, OnResult: prog.result,
+		MaxBytes: int64(b.common.maxMB * 1e6),
 	}
 	if n > 1 {
 		fmt.Fprintf(stderr, "shard %d of %d: %d of %d files\n", k, n, len(ins), len(all))
@@ -257,7 +259,7 @@ func namingFile(err error, in string) error {
 	if !strings.Contains(err.Error(), in) {
 		err = fmt.Errorf("%s: %w", in, err)
 	}
-	return advise(err)
+	return advise(err, in)
 }
 
 // hasAdvice matches messages that already say what to do.
@@ -265,8 +267,19 @@ var hasAdvice = regexp.MustCompile(`(?i)\b(give|check|scan|try|use|raise|save|ch
 
 // advise adds what to do to an error that only says what went wrong,
 // chosen by the kind of error (the stages' sentinel errors).
-func advise(err error) error {
-	if err == nil || hasAdvice.MatchString(err.Error()) {
+//
+// Whether the message already says what to do is judged on its words with
+// the file's path taken out: a path holding "scan" or "check" is no advice.
+func advise(err error, path string) error {
+	if err == nil {
+		return err
+	}
+	words := err.Error()
+	if path != "" {
+		words = strings.ReplaceAll(words, path, "")
+		words = strings.ReplaceAll(words, filepath.Base(path), "")
+	}
+	if hasAdvice.MatchString(words) {
 		return err
 	}
 	var what string
@@ -275,6 +288,8 @@ func advise(err error) error {
 		what = "check the path and the spelling of the file name"
 	case errors.Is(err, fs.ErrPermission):
 		what = "check that you may read the file"
+	case errors.Is(err, calib.ErrEncrypted):
+		what = "save or print the page again without a password, or export it as PNG"
 	case errors.Is(err, calib.ErrFormat):
 		what = "check that the file opens in an image viewer; if it is damaged or cut short, scan or export the page again as PNG, TIFF, JPEG or PDF"
 	case errors.Is(err, calib.ErrTooBig):

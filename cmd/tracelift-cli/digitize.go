@@ -11,6 +11,7 @@ import (
 	"strings"
 	"syscall"
 
+	"tracelift/digitize"
 	"tracelift/pipeline"
 	"tracelift/record/ledger"
 )
@@ -84,6 +85,38 @@ func (c *commonFlags) check() error {
 	case "a4", "letter":
 	default:
 		return fmt.Errorf("--paper %q: a4 or letter", c.paper)
+	}
+	return c.checkNumbers()
+}
+
+// checkNumbers refuses option values no page can have, before any file is
+// read. 0 means "not given" for the hand-given scale and settings.
+func (c *commonFlags) checkNumbers() error {
+	for _, r := range []struct {
+		name, unit string
+		v, lo, hi  float64
+	}{
+		// Scans and photos of paper lie between fax (about 100 dpi) and
+		// archival scans (a few thousand dpi).
+		{"--dpi", "dots per inch", c.dpi, 20, 10000},
+		{"--px-per-mm", "pixels per mm", c.pxPerMM, 20 / 25.4, 10000 / 25.4},
+		// Gains and speeds printed on electrocardiographs: 2.5 to 40 mm/mV
+		// and 5 to 100 mm/s (common practice); the bounds leave room.
+		{"--gain", "mm/mV", c.gain, 1, 100},
+		{"--speed", "mm/s", c.speed, 1, 500},
+	} {
+		if r.v != 0 && !(r.v >= r.lo && r.v <= r.hi) {
+			return fmt.Errorf("%s %v: give a value between %g and %g %s, or leave it out", r.name, r.v, r.lo, r.hi, r.unit)
+		}
+	}
+	if !(c.maxMP > 0 && c.maxMP <= 1e5) {
+		return fmt.Errorf("--max-megapixels %v: give a positive number (at most 100000)", c.maxMP)
+	}
+	if !(c.maxMB > 0 && c.maxMB <= 1e6) {
+		return fmt.Errorf("--max-megabytes %v: give a positive number (at most 1000000)", c.maxMB)
+	}
+	if err := digitize.CheckOptions(c.options().Digitize); err != nil {
+		return fmt.Errorf("--layout/--order: %w", err)
 	}
 	return nil
 }

@@ -75,7 +75,7 @@ func readRecord(path string) (*record.Record, error) {
 	ext := strings.ToLower(filepath.Ext(path))
 	switch ext {
 	case ".csv", ".txt":
-		f, err := os.Open(path)
+		f, err := openRegular(path)
 		if err != nil {
 			return nil, err
 		}
@@ -131,4 +131,25 @@ func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error 
 // extension.
 func measureStem(path string) string {
 	return strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+}
+
+// openRegular opens path only when it is a regular file (a link to one is
+// followed): a FIFO would block, a device such as /dev/zero never ends.
+func openRegular(path string) (*os.File, error) {
+	fi, err := os.Stat(path)
+	if err != nil {
+		return nil, err
+	}
+	if !fi.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s is not a regular file (%v); give a record file saved on disk", path, fi.Mode().Type())
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	if fi, err := f.Stat(); err != nil || !fi.Mode().IsRegular() {
+		f.Close()
+		return nil, fmt.Errorf("%s is not a regular file; give a record file saved on disk", path)
+	}
+	return f, nil
 }
