@@ -185,11 +185,17 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	if err := endLine(logf); err != nil {
 		return nil, fmt.Errorf("batch: the log: %w", err)
 	}
-	work, err := os.MkdirTemp(root, ".tracelift-work-")
+	removeStaleWork(root)
+	work, err := os.MkdirTemp(root, workPrefix)
 	if err != nil {
 		return nil, fmt.Errorf("batch: %w", err)
 	}
 	defer os.RemoveAll(work)
+	release, err := lockWork(work)
+	if err != nil {
+		return nil, fmt.Errorf("batch: locking the scratch folder: %w", err)
+	}
+	defer release()
 
 	maxBytes := opt.MaxBytes
 	if maxBytes <= 0 {
@@ -508,3 +514,25 @@ func endLine(f *os.File) error {
 	}
 	return err
 }
+
+// workPrefix names a batch's scratch folders inside OUT.
+const workPrefix = ".tracelift-work-"
+
+// removeStaleWork removes the scratch folders that batches killed before
+// their clean-up (kill -9, a power cut) left in root; those of batches
+// still running (other shards on the same OUT) hold their lock and stay.
+func removeStaleWork(root string) {
+	ents, err := os.ReadDir(root)
+	if err != nil {
+		return
+	}
+	for _, e := range ents {
+		if e.IsDir() && strings.HasPrefix(e.Name(), workPrefix) {
+			if d := filepath.Join(root, e.Name()); staleWork(d) {
+				os.RemoveAll(d)
+			}
+		}
+	}
+}
+
+func timeSince(t time.Time) float64 { return time.Since(t).Seconds() }

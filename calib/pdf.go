@@ -51,6 +51,7 @@ func decodePDF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	infoCmd := exec.CommandContext(ctx, "pdfinfo", "-f", strconv.Itoa(n), "-l", strconv.Itoa(n), in)
 	var infoErr bytes.Buffer
 	infoCmd.Stderr = &infoErr
+	dieWithUs(infoCmd)
 	info, err := infoCmd.Output()
 	if err != nil {
 		if parent.Err() != nil {
@@ -79,6 +80,7 @@ func decodePDF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	cmd := exec.CommandContext(ctx, "pdftoppm", "-png", "-r", strconv.Itoa(dpi), "-f", strconv.Itoa(n), "-l", strconv.Itoa(n), "-singlefile", in, out)
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr
+	dieWithUs(cmd)
 	if err := cmd.Run(); err != nil {
 		if parent.Err() != nil {
 			return fmt.Errorf("calib: %s: stopped: %w", name, parent.Err())
