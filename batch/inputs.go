@@ -331,6 +331,9 @@ func ParseShard(s string) (k, n int, err error) {
 	if !ok || err != nil || n < 1 || k < 1 || k > n {
 		return 0, 0, errors.New("batch: --shard takes K/N with 1 ≤ K ≤ N, e.g. 2/8")
 	}
+	if n > MaxShards {
+		return 0, 0, fmt.Errorf("batch: --shard %s: at most %d shards", s, MaxShards)
+	}
 	return k, n, nil
 }
 

@@ -217,3 +217,21 @@ func TestStaleWorkRemoved(t *testing.T) {
 		t.Errorf("the running batch's scratch folder was removed: %v", err)
 	}
 }
+
+// A summary named for two thousand million shards is refused at once
+// instead of listing every missing shard.
+func TestMergeRefusesAbsurdShardCounts(t *testing.T) {
+	dir := t.TempDir()
+	for _, name := range []string{"summary-1-of-2000000000.csv", "summary-0-of-3.csv", "summary-99999999999999999999-of-3.csv"} {
+		p := filepath.Join(dir, name)
+		if err := WriteSummaryFile(p, nil); err != nil {
+			t.Fatal(err)
+		}
+		if _, err := Merge([]string{p}, nil); err == nil || !strings.Contains(err.Error(), "shards") {
+			t.Errorf("%s: %v", name, err)
+		}
+	}
+	if _, _, err := ParseShard("1/2000000000"); err == nil {
+		t.Error("--shard 1/2000000000 accepted")
+	}
+}

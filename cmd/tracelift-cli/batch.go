@@ -36,6 +36,10 @@ func init() {
 // not listed.
 const serveArg = "__serve"
 
+// jobsPerCore caps --jobs at this many pages per usable CPU (pages wait on
+// the disk or poppler a little, so a few more than one per core can help).
+const jobsPerCore = 4
+
 type batchFlags struct {
 	common      commonFlags
 	jobs        int
@@ -86,6 +90,12 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	}
 	if b.jobs < 1 {
 		return usageErr(fmt.Sprintf("--jobs %d: give at least 1", b.jobs))
+	}
+	// A page takes a core and a few hundred MB: more workers than a few per
+	// core only share the cores and add memory.
+	if most := jobsPerCore * runtime.GOMAXPROCS(0); b.jobs > most {
+		fmt.Fprintf(stderr, "tracelift-cli batch: --jobs %d is more than %d per CPU this process may use; running %d at once\n", b.jobs, jobsPerCore, most)
+		b.jobs = most
 	}
 	if b.pageTimeout < 0 {
 		return usageErr("--page-timeout: give a duration such as 90s or 5m, or 0 for no limit")
