@@ -1,14 +1,17 @@
 package main
 
 import (
+	"context"
 	"encoding/json"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"os"
+	"os/signal"
 	"path/filepath"
 	"strings"
+	"syscall"
 
 	"tracelift/axis"
 	"tracelift/record"
@@ -56,8 +59,16 @@ func cmdMeasure(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "measure: cannot create the output directory: %v\n", err)
 		return 1
 	}
+	// An interrupt stops between records; the record being written is
+	// finished (atomically), so nothing is left half-written.
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
 	failed := 0
 	for _, path := range files {
+		if ctx.Err() != nil {
+			fmt.Fprintln(stderr, "measure: interrupted; records not measured yet were left out")
+			return 1
+		}
 		if err := measureOne(path, *out, *beatLead, *quiet, stdout); err != nil {
 			fmt.Fprintf(stderr, "measure: %s: %v\n", path, err)
 			failed++
