@@ -72,6 +72,9 @@ func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, er
 		return o, fmt.Errorf("%s: %w", pg.Path, err)
 	}
 	o.Calib = cal
+	if err := checkLooksLikeECG(cal, opt); err != nil {
+		return o, fmt.Errorf("%s: %w", pg.Path, err)
+	}
 	if err := ctx.Err(); err != nil {
 		return o, err
 	}
