@@ -114,12 +114,21 @@ func DetectBeats(s *record.Signal) ([]float64, error) {
 // edgeS is half a normal QRS duration (about 50–60 ms, common practice).
 const edgeS = 0.06
 
+// MaxRateHz bounds the sample rate the engine accepts. Electrocardiographs
+// sample at 250 Hz to a few kHz, pacemaker-spike detection at up to about
+// 32 kHz (from memory); 100 kHz leaves room and keeps every window of the
+// detector (rate × seconds) far inside an int.
+const MaxRateHz = 100e3
+
 func detectLead(s *record.Signal) (*leadDetections, error) {
 	if s == nil || len(s.MV) == 0 {
 		return nil, ErrNoLead
 	}
 	if !(s.RateHz >= 50) || math.IsInf(s.RateHz, 0) {
 		return nil, fmt.Errorf("axis: lead %s: sample rate %v Hz is too low to detect beats (need ≥ 50 Hz)", s.Lead, s.RateHz)
+	}
+	if s.RateHz > MaxRateHz {
+		return nil, fmt.Errorf("axis: lead %s: sample rate %g Hz is over the %g Hz this engine reads; check the record's time column or header", s.Lead, s.RateHz, float64(MaxRateHz))
 	}
 	fs := s.RateHz
 	x := bridgeGaps(s.MV, int(maxBridgeS*fs))

@@ -13,6 +13,8 @@ import (
 	"strconv"
 	"strings"
 	"unicode"
+
+	"tracelift/record/ledger"
 )
 
 // Input is one file to digitize.
@@ -41,6 +43,11 @@ type CollectOptions struct {
 	// PlainStems limits output stems to letters, digits, '_', '-' and '.'
 	// (others become '_'), as WFDB record names must be.
 	PlainStems bool
+	// Out is the batch's output folder, when known: an input whose outputs
+	// are already there under its plain stem (the folder's ledger says so)
+	// keeps that stem when a new file of the same name appears beside it,
+	// so a finished page is neither redone under a new name nor orphaned.
+	Out string
 }
 
 // Collect returns the inputs named by src: every image file below a folder
@@ -63,7 +70,7 @@ func Collect(src string, opt CollectOptions) ([]Input, error) {
 		return nil, err
 	}
 	sort.Slice(ins, func(a, b int) bool { return ins[a].Rel < ins[b].Rel })
-	assignStems(ins, opt.PlainStems)
+	assignStems(ins, opt.PlainStems, ownerCheck(opt.Out))
 	return ins, nil
 }
 
@@ -108,17 +115,29 @@ func walk(root string, skip []string) ([]Input, error) {
 		if !hasImageExt(name) {
 			return nil
 		}
-		if d.Type()&fs.ModeSymlink != 0 {
-			// A link to a file is followed; a link to a folder is not walked.
-			if fi, err := os.Stat(p); err != nil || !fi.Mode().IsRegular() {
-				return nil
-			}
-		} else if !d.Type().IsRegular() {
-			return nil
-		}
 		rel, err := filepath.Rel(root, p)
 		if err != nil {
 			return nil
+		}
+		notRegular := func(what string) error {
+			// Named like an image but no file to read (a FIFO, a device, a
+			// link to one): reported, not skipped without a word.
+			ins = append(ins, Input{Path: p, Rel: filepath.ToSlash(rel), Err: "batch: " + p + " is " + what + ", not an image file saved on disk; remove it or replace it with the file"})
+			return nil
+		}
+		if d.Type()&fs.ModeSymlink != 0 {
+			// A link to a file is followed; a link to a folder is not walked.
+			fi, err := os.Stat(p)
+			switch {
+			case err != nil:
+				return notRegular("a broken link")
+			case fi.IsDir():
+				return nil
+			case !fi.Mode().IsRegular():
+				return notRegular("a link to a " + fi.Mode().Type().String() + " file")
+			}
+		} else if !d.Type().IsRegular() {
+			return notRegular("a special file (" + d.Type().String() + ")")
 		}
 		ins = append(ins, Input{Path: p, Rel: filepath.ToSlash(rel)})
 		return nil
@@ -217,7 +236,10 @@ func cleanComponent(c string) string {
 // extension, made unique within its folder (case-insensitively, for file
 // systems that fold case) by adding the extension, then a counter. The
 // inputs are sorted, so every shard computes the same stems.
-func assignStems(ins []Input, plain bool) {
+//
+// owns, when not nil, says whether the input at index i already has its
+// outputs under stem; such an input keeps the stem within its group.
+func assignStems(ins []Input, plain bool, owns func(in Input, stem string) bool) {
 	key := func(dir, stem string) string { return strings.ToLower(dir + "/" + stem) }
 	count := map[string]int{}
 	stemOf := func(rel string) string {
@@ -236,7 +258,19 @@ func assignStems(ins []Input, plain bool) {
 		count[key(path.Dir(ins[i].Rel), stemOf(ins[i].Rel))]++
 	}
 	used := map[string]bool{}
+	if owns != nil {
+		for i := range ins {
+			dir, stem := path.Dir(ins[i].Rel), stemOf(ins[i].Rel)
+			if count[key(dir, stem)] > 1 && !used[key(dir, stem)] && owns(ins[i], stem) {
+				used[key(dir, stem)] = true
+				ins[i].Stem = stem
+			}
+		}
+	}
 	for i := range ins {
+		if ins[i].Stem != "" {
+			continue
+		}
 		dir := path.Dir(ins[i].Rel)
 		stem := stemOf(ins[i].Rel)
 		if count[key(dir, stem)] > 1 {
@@ -297,6 +331,9 @@ func ParseShard(s string) (k, n int, err error) {
 	if !ok || err != nil || n < 1 || k < 1 || k > n {
 		return 0, 0, errors.New("batch: --shard takes K/N with 1 ≤ K ≤ N, e.g. 2/8")
 	}
+	if n > MaxShards {
+		return 0, 0, fmt.Errorf("batch: --shard %s: at most %d shards", s, MaxShards)
+	}
 	return k, n, nil
 }
 
@@ -306,4 +343,26 @@ func errText(err error) string {
 		return pe.Err.Error()
 	}
 	return err.Error()
+}
+
+// ownerCheck returns the owns function of assignStems for the output
+// folder out ("" = none): the folder mirroring the input's holds
+// <stem>.json written for that input's file.
+func ownerCheck(out string) func(in Input, stem string) bool {
+	if out == "" {
+		return nil
+	}
+	return func(in Input, stem string) bool {
+		if in.Err != "" {
+			return false
+		}
+		dir := out
+		for _, c := range strings.Split(path.Dir(in.Rel), "/") {
+			if c != "." && c != "" {
+				dir = filepath.Join(dir, cleanComponent(c))
+			}
+		}
+		src, ok := ledger.Owner(dir, stem+".json")
+		return ok && src.Path == ledger.RealPath(in.Path)
+	}
 }

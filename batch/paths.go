@@ -9,6 +9,8 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+
+	"tracelift/record/ledger"
 )
 
 // outDir returns the folder below root (an absolute path with no symbolic
@@ -74,7 +76,11 @@ func refuseLink(p string) error {
 // placeOutputs moves every file from the scratch folder into dir with
 // rename(2), the ".json" document last, so a reader that finds the document
 // finds the rest. It returns the final paths.
-func placeOutputs(scratch, dir string) ([]string, error) {
+//
+// Before anything moves, the names are claimed in dir's ledger for src: a
+// file tracelift did not write there, or wrote for another page, or the
+// input itself, is never replaced (record/ledger).
+func placeOutputs(scratch, dir string, src ledger.Source, input string) ([]string, error) {
 	ents, err := os.ReadDir(scratch)
 	if err != nil {
 		return nil, fmt.Errorf("batch: %w", err)
@@ -88,15 +94,21 @@ func placeOutputs(scratch, dir string) ([]string, error) {
 	sort.SliceStable(names, func(a, b int) bool {
 		return !strings.HasSuffix(names[a], ".json") && strings.HasSuffix(names[b], ".json")
 	})
-	var out []string
 	for _, n := range names {
 		dst := filepath.Join(dir, n)
 		if err := refuseLink(dst); err != nil {
-			return out, err
+			return nil, err
 		}
 		if fi, err := os.Lstat(dst); err == nil && fi.IsDir() {
-			return out, fmt.Errorf("batch: %s is a folder where an output file should go; move it away", dst)
+			return nil, fmt.Errorf("batch: %s is a folder where an output file should go; move it away", dst)
 		}
+	}
+	if err := ledger.Claim(dir, src, names, []string{input}); err != nil {
+		return nil, fmt.Errorf("batch: %w", err)
+	}
+	var out []string
+	for _, n := range names {
+		dst := filepath.Join(dir, n)
 		if err := os.Rename(filepath.Join(scratch, n), dst); err != nil {
 			return out, fmt.Errorf("batch: %w", err)
 		}

@@ -17,6 +17,7 @@ func setGroup(cmd *exec.Cmd) {
 		cmd.SysProcAttr = &syscall.SysProcAttr{}
 	}
 	cmd.SysProcAttr.Setpgid = true
+	dieWithParent(cmd.SysProcAttr)
 }
 
 func killGroup(cmd *exec.Cmd) {

@@ -16,6 +16,8 @@ import (
 	"strings"
 	"sync"
 	"time"
+
+	"tracelift/record/ledger"
 )
 
 // Status of one file in a batch.
@@ -35,6 +37,9 @@ type FileResult struct {
 	TimingsMS map[string]float64
 	PeakRSSMB float64 // peak resident memory of the worker process, when known
 	CPUSecond float64 // processor time of the worker process (user + system), when known
+	// Page is the page digitized, from 1, for a file of several pages; 0
+	// otherwise. The output folder's ledger records it with the file.
+	Page int `json:",omitempty"`
 }
 
 // ProcessFunc digitizes the image at in and writes its outputs into dir
@@ -62,6 +67,9 @@ type Options struct {
 	Expect []string
 	// NoResume digitizes every file even when its outputs are up to date.
 	NoResume bool
+	// MaxBytes bounds the size of an input file; 0 = 200 MB (calib's
+	// default).
+	MaxBytes int64
 	// OnResult is called once per file, in completion order, from a single
 	// goroutine (progress display).
 	OnResult func(done, total int, r Result)
@@ -165,6 +173,10 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	if err := refuseLink(rep.LogPath); err != nil {
 		return nil, err
 	}
+	// The log and the summary replace or extend only a batch's own.
+	if err := ledger.Claim(root, ledger.Source{Path: "a batch run"}, []string{filepath.Base(rep.LogPath), filepath.Base(rep.SummaryPath)}, nil); err != nil {
+		return nil, fmt.Errorf("batch: %w", err)
+	}
 	logf, err := os.OpenFile(rep.LogPath, os.O_RDWR|os.O_APPEND|os.O_CREATE, 0o644)
 	if err != nil {
 		return nil, fmt.Errorf("batch: opening the log: %w", err)
@@ -173,13 +185,23 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	if err := endLine(logf); err != nil {
 		return nil, fmt.Errorf("batch: the log: %w", err)
 	}
-	work, err := os.MkdirTemp(root, ".tracelift-work-")
+	removeStaleWork(root)
+	work, err := os.MkdirTemp(root, workPrefix)
 	if err != nil {
 		return nil, fmt.Errorf("batch: %w", err)
 	}
 	defer os.RemoveAll(work)
+	release, err := lockWork(work)
+	if err != nil {
+		return nil, fmt.Errorf("batch: locking the scratch folder: %w", err)
+	}
+	defer release()
 
-	w := &worker{root: root, work: work, proc: proc, timeout: timeout, grace: grace,
+	maxBytes := opt.MaxBytes
+	if maxBytes <= 0 {
+		maxBytes = 200 << 20
+	}
+	w := &worker{root: root, work: work, proc: proc, timeout: timeout, grace: grace, maxBytes: maxBytes,
 		expect: expected(opt.Expect), resume: !opt.NoResume}
 	todo := make(chan Input)
 	done := make(chan Result)
@@ -265,6 +287,7 @@ type worker struct {
 	root, work     string
 	proc           ProcessFunc
 	timeout, grace time.Duration
+	maxBytes       int64
 	expect         []string
 	resume         bool
 }
@@ -290,7 +313,14 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 		r.Error = err.Error()
 		return r
 	}
-	sha, err := hashFile(in.Path)
+	// The hash is part of the page's work: under its deadline, stopped by
+	// an interrupt.
+	hctx, hcancel := ctx, context.CancelFunc(func() {})
+	if w.timeout > 0 {
+		hctx, hcancel = context.WithTimeout(ctx, w.timeout)
+	}
+	sha, err := hashFile(hctx, in.Path, w.maxBytes)
+	hcancel()
 	if err != nil {
 		r.Error = err.Error()
 		return r
@@ -334,7 +364,7 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 			return r
 		}
 	}
-	outs, err := placeOutputs(scratch, dir)
+	outs, err := placeOutputs(scratch, dir, ledger.FileSource(in.Path, fr.Page), in.Path)
 	r.Outputs = outs
 	if err != nil {
 		r.Error = err.Error()
@@ -419,7 +449,9 @@ func (w *worker) upToDate(dir, stem, sha string) (Findings, []string, bool) {
 	return f, outs, true
 }
 
-func hashFile(p string) (string, error) {
+// hashFile hashes the regular file at p (a link to one is followed), at
+// most max bytes, checking ctx between blocks.
+func hashFile(ctx context.Context, p string, max int64) (string, error) {
 	fi, err := os.Stat(p)
 	if err != nil {
 		if errors.Is(err, fs.ErrNotExist) {
@@ -430,14 +462,38 @@ func hashFile(p string) (string, error) {
 	if fi.IsDir() {
 		return "", fmt.Errorf("batch: %s is a folder, not an image file", p)
 	}
+	if !fi.Mode().IsRegular() {
+		return "", fmt.Errorf("batch: %s is not a regular file (%v); list image files saved on disk", p, fi.Mode().Type())
+	}
+	if fi.Size() > max {
+		return "", fmt.Errorf("batch: %s is %d bytes, over the %d byte limit; scan at a lower resolution or raise --max-megabytes", p, fi.Size(), max)
+	}
 	f, err := os.Open(p)
 	if err != nil {
 		return "", fmt.Errorf("batch: cannot read %s: %s; check its permissions", p, errText(err))
 	}
 	defer f.Close()
+	if fi, err := f.Stat(); err != nil || !fi.Mode().IsRegular() {
+		return "", fmt.Errorf("batch: %s is not a regular file; list image files saved on disk", p)
+	}
 	h := sha256.New()
-	if _, err := io.Copy(h, f); err != nil {
-		return "", fmt.Errorf("batch: cannot read %s: %s", p, errText(err))
+	buf := make([]byte, 1<<20)
+	var n int64
+	for {
+		if err := ctx.Err(); err != nil {
+			return "", fmt.Errorf("batch: stopped while reading %s: %w", p, err)
+		}
+		k, err := f.Read(buf)
+		h.Write(buf[:k])
+		if n += int64(k); n > max {
+			return "", fmt.Errorf("batch: %s grew over the %d byte limit while read; raise --max-megabytes or copy it first", p, max)
+		}
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return "", fmt.Errorf("batch: cannot read %s: %s", p, errText(err))
+		}
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
 }
@@ -458,3 +514,25 @@ func endLine(f *os.File) error {
 	}
 	return err
 }
+
+// workPrefix names a batch's scratch folders inside OUT.
+const workPrefix = ".tracelift-work-"
+
+// removeStaleWork removes the scratch folders that batches killed before
+// their clean-up (kill -9, a power cut) left in root; those of batches
+// still running (other shards on the same OUT) hold their lock and stay.
+func removeStaleWork(root string) {
+	ents, err := os.ReadDir(root)
+	if err != nil {
+		return
+	}
+	for _, e := range ents {
+		if e.IsDir() && strings.HasPrefix(e.Name(), workPrefix) {
+			if d := filepath.Join(root, e.Name()); staleWork(d) {
+				os.RemoveAll(d)
+			}
+		}
+	}
+}
+
+func timeSince(t time.Time) float64 { return time.Since(t).Seconds() }

@@ -185,6 +185,11 @@ func FindSummaries(args []string) ([]string, error) {
 	return out, nil
 }
 
+// MaxShards bounds N in summary-K-of-N.csv and in --shard K/N: a job
+// array of a hundred thousand tasks is already far beyond any archive a
+// shard per page would need, and listing missing shards stays small.
+const MaxShards = 100_000
+
 // Merge joins summaries. A file in more than one summary is listed in
 // Duplicates and kept once (its "ok" or "skipped" row before a failed one,
 // else the first). Shard file names (summary-K-of-N.csv) are checked for
@@ -195,8 +200,11 @@ func Merge(paths []string, expected []string) (*MergeReport, error) {
 	shards := map[int]map[int]bool{}
 	for _, p := range paths {
 		if m := shardName.FindStringSubmatch(filepath.Base(p)); m != nil {
-			k, _ := strconv.Atoi(m[1])
-			n, _ := strconv.Atoi(m[2])
+			k, err1 := strconv.Atoi(m[1])
+			n, err2 := strconv.Atoi(m[2])
+			if err1 != nil || err2 != nil || n < 1 || n > MaxShards || k < 1 || k > n {
+				return nil, fmt.Errorf("batch: %s names shard %s of %s; a batch has 1 to %d shards, K from 1 to N: rename or remove it", p, m[1], m[2], MaxShards)
+			}
 			if shards[n] == nil {
 				shards[n] = map[int]bool{}
 			}

@@ -2,6 +2,7 @@ package calib
 
 import (
 	"bytes"
+	"context"
 	"crypto/sha256"
 	"encoding/binary"
 	"encoding/hex"
@@ -23,6 +24,9 @@ type LoadOptions struct {
 	Page      int   // 0-based page of a multi-page TIFF or PDF
 	MaxPixels int64 // pixel budget checked from the header before decoding; 0 = 200e6
 	MaxBytes  int64 // file size budget; 0 = 200 MB
+	// Context, when set, stops the helper programs (poppler for a PDF)
+	// when it is cancelled.
+	Context context.Context
 }
 
 const (
@@ -55,13 +59,16 @@ func Load(path string, opt LoadOptions) (*Page, error) {
 	if fi.IsDir() {
 		return nil, fmt.Errorf("calib: %s is a folder, not an image file: %w", path, ErrFormat)
 	}
+	if !fi.Mode().IsRegular() { // a FIFO blocks, /dev/zero never ends
+		return nil, fmt.Errorf("calib: %s is not a regular file (%v); give an image file saved on disk: %w", path, fi.Mode().Type(), ErrFormat)
+	}
 	if fi.Size() > opt.maxBytes() {
 		return nil, fmt.Errorf("calib: %s is %d bytes, over the %d byte limit; scan at a lower resolution or raise the limit: %w",
 			path, fi.Size(), opt.maxBytes(), ErrTooBig)
 	}
-	data, err := os.ReadFile(path)
+	data, err := readBounded(path, opt.maxBytes())
 	if err != nil {
-		return nil, fmt.Errorf("calib: %s: %w", path, err)
+		return nil, err
 	}
 	pg, err := Decode(data, path, opt)
 	if err != nil {
@@ -83,7 +90,7 @@ func Decode(data []byte, name string, opt LoadOptions) (*Page, error) {
 		return nil, fmt.Errorf("calib: %s is empty or too short to be an image; give a PNG, JPEG, TIFF or PDF file: %w", name, ErrFormat)
 	}
 	if opt.Page < 0 {
-		return nil, fmt.Errorf("calib: %s: page %d does not exist (pages count from 0): %w", name, opt.Page, ErrFormat)
+		return nil, fmt.Errorf("calib: %s: page %d does not exist (pages count from 1): %w", name, opt.Page+1, ErrFormat)
 	}
 	sum := sha256.Sum256(data)
 	pg := &Page{Path: name, SHA256: hex.EncodeToString(sum[:]), PageCount: 1}
@@ -108,7 +115,7 @@ func Decode(data []byte, name string, opt LoadOptions) (*Page, error) {
 		return nil, err
 	}
 	if pg.PageIndex >= pg.PageCount && pg.PageCount > 0 {
-		return nil, fmt.Errorf("calib: %s has %d page(s); page %d does not exist: %w", name, pg.PageCount, pg.PageIndex, ErrFormat)
+		return nil, fmt.Errorf("calib: %s has %d page(s); page %d does not exist (pages count from 1): %w", name, pg.PageCount, pg.PageIndex+1, ErrFormat)
 	}
 	b := pg.Image.Bounds()
 	if b.Dx() < 1 || b.Dy() < 1 {
@@ -132,7 +139,7 @@ func checkSize(name string, w, h int, opt LoadOptions) error {
 
 func pageOnly(name string, opt LoadOptions) error {
 	if opt.Page != 0 {
-		return fmt.Errorf("calib: %s has a single page; page %d does not exist: %w", name, opt.Page, ErrFormat)
+		return fmt.Errorf("calib: %s has a single page; page %d does not exist (pages count from 1): %w", name, opt.Page+1, ErrFormat)
 	}
 	return nil
 }
@@ -482,7 +489,7 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	pg.PageCount = len(offs)
 	pg.PageIndex = opt.Page
 	if opt.Page >= len(offs) {
-		return fmt.Errorf("calib: %s has %d page(s); page %d does not exist (pages count from 0): %w", name, len(offs), opt.Page, ErrFormat)
+		return fmt.Errorf("calib: %s has %d page(s); page %d does not exist (pages count from 1): %w", name, len(offs), opt.Page+1, ErrFormat)
 	}
 	ents, _ := readIFD(data, bo, offs[opt.Page])
 	var w, h uint32
@@ -514,7 +521,7 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	bo.PutUint32(ov.hdr[4:], uint32(offs[opt.Page]))
 	img, err := decodeTIFFSafe(ov)
 	if err != nil {
-		return fmt.Errorf("calib: %s page %d: damaged or unsupported TIFF (%v): %w", name, opt.Page, err, ErrFormat)
+		return fmt.Errorf("calib: %s page %d: damaged or unsupported TIFF (%v): %w", name, opt.Page+1, err, ErrFormat)
 	}
 	pg.Image = img
 	return nil

@@ -41,21 +41,35 @@ func decodePDF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	if err := os.WriteFile(in, data, 0o600); err != nil {
 		return fmt.Errorf("calib: %s: %w", name, err)
 	}
-	ctx, cancel := context.WithTimeout(context.Background(), pdfTimeout)
+	parent := opt.Context
+	if parent == nil {
+		parent = context.Background()
+	}
+	ctx, cancel := context.WithTimeout(parent, pdfTimeout)
 	defer cancel()
 	n := opt.Page + 1
-	info, err := exec.CommandContext(ctx, "pdfinfo", "-f", strconv.Itoa(n), "-l", strconv.Itoa(n), in).Output()
+	infoCmd := exec.CommandContext(ctx, "pdfinfo", "-f", strconv.Itoa(n), "-l", strconv.Itoa(n), in)
+	var infoErr bytes.Buffer
+	infoCmd.Stderr = &infoErr
+	dieWithUs(infoCmd)
+	info, err := infoCmd.Output()
 	if err != nil {
-		return fmt.Errorf("calib: %s: damaged PDF or page %d missing (pdfinfo: %v): %w", name, opt.Page, err, ErrFormat)
+		if parent.Err() != nil {
+			return fmt.Errorf("calib: %s: stopped: %w", name, parent.Err())
+		}
+		if isEncrypted(data, infoErr.String()) {
+			return fmt.Errorf("calib: %s is an encrypted (password-protected) PDF; save or print the page again without a password, or export it as PNG: %w", name, ErrEncrypted)
+		}
+		return fmt.Errorf("calib: %s: damaged PDF or page %d missing (pdfinfo: %v): %w", name, n, err, ErrFormat)
 	}
 	pages, wpt, hpt := parsePDFInfo(info, n)
 	pg.PageCount = pages
 	pg.PageIndex = opt.Page
 	if pages > 0 && opt.Page >= pages {
-		return fmt.Errorf("calib: %s has %d page(s); page %d does not exist (pages count from 0): %w", name, pages, opt.Page, ErrFormat)
+		return fmt.Errorf("calib: %s has %d page(s); page %d does not exist (pages count from 1): %w", name, pages, n, ErrFormat)
 	}
 	if wpt <= 0 || hpt <= 0 {
-		return fmt.Errorf("calib: %s: cannot read the size of page %d: %w", name, opt.Page, ErrFormat)
+		return fmt.Errorf("calib: %s: cannot read the size of page %d: %w", name, n, ErrFormat)
 	}
 	dpi := pdfDPI
 	wpx, hpx := int(wpt/72*float64(dpi)+1), int(hpt/72*float64(dpi)+1)
@@ -66,17 +80,21 @@ func decodePDF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	cmd := exec.CommandContext(ctx, "pdftoppm", "-png", "-r", strconv.Itoa(dpi), "-f", strconv.Itoa(n), "-l", strconv.Itoa(n), "-singlefile", in, out)
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr
+	dieWithUs(cmd)
 	if err := cmd.Run(); err != nil {
-		return fmt.Errorf("calib: %s page %d: pdftoppm failed (%v %s): %w", name, opt.Page, err, strings.TrimSpace(stderr.String()), ErrFormat)
+		if parent.Err() != nil {
+			return fmt.Errorf("calib: %s: stopped: %w", name, parent.Err())
+		}
+		return fmt.Errorf("calib: %s page %d: pdftoppm failed (%v %s): %w", name, n, err, strings.TrimSpace(stderr.String()), ErrFormat)
 	}
 	f, err := os.Open(out + ".png")
 	if err != nil {
-		return fmt.Errorf("calib: %s page %d: no raster produced: %w", name, opt.Page, ErrFormat)
+		return fmt.Errorf("calib: %s page %d: no raster produced: %w", name, n, ErrFormat)
 	}
 	defer f.Close()
 	img, err := png.Decode(bufio.NewReader(f))
 	if err != nil {
-		return fmt.Errorf("calib: %s page %d: %v: %w", name, opt.Page, err, ErrFormat)
+		return fmt.Errorf("calib: %s page %d: %v: %w", name, n, err, ErrFormat)
 	}
 	pg.Image = img
 	pg.DPIX, pg.DPIY = float64(dpi), float64(dpi)

@@ -73,6 +73,9 @@ type ExportOptions struct {
 	// Header fields the user fills in for the printed summary; they stay
 	// on this machine.
 	Header map[string]string
+	// Inputs are files this run read besides the page's own image (which
+	// is always protected); no output ever replaces one of them.
+	Inputs []string
 }
 
 // PDFWriter renders the printable summary. The report package installs it
@@ -94,6 +97,9 @@ func Export(o *Outcome, dir, stem string, formats []string, opt ExportOptions) (
 	}
 	if opt.RateHz == 0 {
 		opt.RateHz = 500
+	}
+	if err := claimOutputs(o, dir, stem, formats, opt); err != nil {
+		return nil, fmt.Errorf("export: %w", err)
 	}
 	rec := o.Digitized.Record
 	var files []string

@@ -48,6 +48,9 @@ func (t Timings) Total() time.Duration { return t.Load + t.Calib + t.Digitize + 
 // Process runs every stage on the image file at path.
 func Process(ctx context.Context, path string, opt Options) (*Outcome, error) {
 	t0 := time.Now()
+	if opt.Load.Context == nil {
+		opt.Load.Context = ctx
+	}
 	pg, err := calib.Load(path, opt.Load)
 	if err != nil {
 		return nil, err
@@ -69,6 +72,9 @@ func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, er
 		return o, fmt.Errorf("%s: %w", pg.Path, err)
 	}
 	o.Calib = cal
+	if err := checkLooksLikeECG(cal, opt); err != nil {
+		return o, fmt.Errorf("%s: %w", pg.Path, err)
+	}
 	if err := ctx.Err(); err != nil {
 		return o, err
 	}

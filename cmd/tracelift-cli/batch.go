@@ -11,6 +11,7 @@ import (
 	"os"
 	"os/exec"
 	"os/signal"
+	"path/filepath"
 	"regexp"
 	"runtime"
 	"strings"
@@ -34,6 +35,10 @@ func init() {
 // worker of a parent batch (see batch.Pool). It is not for people and is
 // not listed.
 const serveArg = "__serve"
+
+// jobsPerCore caps --jobs at this many pages per usable CPU (pages wait on
+// the disk or poppler a little, so a few more than one per core can help).
+const jobsPerCore = 4
 
 type batchFlags struct {
 	common      commonFlags
@@ -86,6 +91,12 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	if b.jobs < 1 {
 		return usageErr(fmt.Sprintf("--jobs %d: give at least 1", b.jobs))
 	}
+	// A page takes a core and a few hundred MB: more workers than a few per
+	// core only share the cores and add memory.
+	if most := jobsPerCore * runtime.GOMAXPROCS(0); b.jobs > most {
+		fmt.Fprintf(stderr, "tracelift-cli batch: --jobs %d is more than %d per CPU this process may use; running %d at once\n", b.jobs, jobsPerCore, most)
+		b.jobs = most
+	}
 	if b.pageTimeout < 0 {
 		return usageErr("--page-timeout: give a duration such as 90s or 5m, or 0 for no limit")
 	}
@@ -103,7 +114,10 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	for _, f := range formats {
 		plain = plain || f == pipeline.FormatWFDB // WFDB record names are plain
 	}
-	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}, PlainStems: plain})
+	if err := batch.CheckFolders(pos[0], b.common.out); err != nil {
+		return usageErr(err.Error())
+	}
+	all, err := batch.Collect(pos[0], batch.CollectOptions{Base: b.base, Skip: []string{b.common.out}, PlainStems: plain, Out: b.common.out})
 	if err != nil {
 		return usageErr(err.Error() + "; give a folder of images or a text file listing them")
 	}
@@ -136,6 +150,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	opt := batch.Options{
 		Out: b.common.out, Jobs: b.jobs, ShardK: k, ShardN: n, PageTimeout: timeout,
 		Expect: extensions(formats), NoResume: b.noResume, OnResult: prog.result,
+		MaxBytes: int64(b.common.maxMB * 1e6),
 	}
 	if n > 1 {
 		fmt.Fprintf(stderr, "shard %d of %d: %d of %d files\n", k, n, len(ins), len(all))
@@ -233,6 +248,7 @@ func digitizeOne(ctx context.Context, c *commonFlags, formats []string, in, dir,
 	if err != nil {
 		return fr, namingFile(err, in)
 	}
+	fr.Page = pipeline.PageSource(o).Page
 	if _, err := pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper}); err != nil {
 		return fr, namingFile(err, in)
 	}
@@ -253,7 +269,7 @@ func namingFile(err error, in string) error {
 	if !strings.Contains(err.Error(), in) {
 		err = fmt.Errorf("%s: %w", in, err)
 	}
-	return advise(err)
+	return advise(err, in)
 }
 
 // hasAdvice matches messages that already say what to do.
@@ -261,8 +277,19 @@ var hasAdvice = regexp.MustCompile(`(?i)\b(give|check|scan|try|use|raise|save|ch
 
 // advise adds what to do to an error that only says what went wrong,
 // chosen by the kind of error (the stages' sentinel errors).
-func advise(err error) error {
-	if err == nil || hasAdvice.MatchString(err.Error()) {
+//
+// Whether the message already says what to do is judged on its words with
+// the file's path taken out: a path holding "scan" or "check" is no advice.
+func advise(err error, path string) error {
+	if err == nil {
+		return err
+	}
+	words := err.Error()
+	if path != "" {
+		words = strings.ReplaceAll(words, path, "")
+		words = strings.ReplaceAll(words, filepath.Base(path), "")
+	}
+	if hasAdvice.MatchString(words) {
 		return err
 	}
 	var what string
@@ -271,6 +298,8 @@ func advise(err error) error {
 		what = "check the path and the spelling of the file name"
 	case errors.Is(err, fs.ErrPermission):
 		what = "check that you may read the file"
+	case errors.Is(err, calib.ErrEncrypted):
+		what = "save or print the page again without a password, or export it as PNG"
 	case errors.Is(err, calib.ErrFormat):
 		what = "check that the file opens in an image viewer; if it is damaged or cut short, scan or export the page again as PNG, TIFF, JPEG or PDF"
 	case errors.Is(err, calib.ErrTooBig):

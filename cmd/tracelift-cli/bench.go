@@ -9,6 +9,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -68,7 +69,17 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	}
 	var condList []string
 	for _, c := range strings.Split(*conds, ",") {
-		condList = append(condList, strings.TrimSpace(c))
+		c = strings.TrimSpace(c)
+		if !slices.Contains(samples.Conditions, c) {
+			return usageError(stderr, "bench", fmt.Sprintf("--conditions: unknown condition %q (choose from %s)", c, strings.Join(samples.Conditions, ", ")))
+		}
+		condList = append(condList, c)
+	}
+	if *n < 1 || *n > 100000 {
+		return usageError(stderr, "bench", fmt.Sprintf("--cases %d: give 1 to 100000", *n))
+	}
+	if *dpi != 0 && !(*dpi >= 50 && *dpi <= 1200) {
+		return usageError(stderr, "bench", fmt.Sprintf("--dpi %v: give 50 to 1200, or leave it out", *dpi))
 	}
 	var real *record.Record
 	if *ptb != "" {

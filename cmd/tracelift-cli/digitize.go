@@ -9,8 +9,11 @@ import (
 	"os"
 	"os/signal"
 	"strings"
+	"syscall"
 
+	"tracelift/digitize"
 	"tracelift/pipeline"
+	"tracelift/record/ledger"
 )
 
 func init() {
@@ -83,6 +86,38 @@ func (c *commonFlags) check() error {
 	default:
 		return fmt.Errorf("--paper %q: a4 or letter", c.paper)
 	}
+	return c.checkNumbers()
+}
+
+// checkNumbers refuses option values no page can have, before any file is
+// read. 0 means "not given" for the hand-given scale and settings.
+func (c *commonFlags) checkNumbers() error {
+	for _, r := range []struct {
+		name, unit string
+		v, lo, hi  float64
+	}{
+		// Scans and photos of paper lie between fax (about 100 dpi) and
+		// archival scans (a few thousand dpi).
+		{"--dpi", "dots per inch", c.dpi, 20, 10000},
+		{"--px-per-mm", "pixels per mm", c.pxPerMM, 20 / 25.4, 10000 / 25.4},
+		// Gains and speeds printed on electrocardiographs: 2.5 to 40 mm/mV
+		// and 5 to 100 mm/s (common practice); the bounds leave room.
+		{"--gain", "mm/mV", c.gain, 1, 100},
+		{"--speed", "mm/s", c.speed, 1, 500},
+	} {
+		if r.v != 0 && !(r.v >= r.lo && r.v <= r.hi) {
+			return fmt.Errorf("%s %v: give a value between %g and %g %s, or leave it out", r.name, r.v, r.lo, r.hi, r.unit)
+		}
+	}
+	if !(c.maxMP > 0 && c.maxMP <= 1e5) {
+		return fmt.Errorf("--max-megapixels %v: give a positive number (at most 100000)", c.maxMP)
+	}
+	if !(c.maxMB > 0 && c.maxMB <= 1e6) {
+		return fmt.Errorf("--max-megabytes %v: give a positive number (at most 1000000)", c.maxMB)
+	}
+	if err := digitize.CheckOptions(c.options().Digitize); err != nil {
+		return fmt.Errorf("--layout/--order: %w", err)
+	}
 	return nil
 }
 
@@ -109,15 +144,20 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
 		return 2
 	}
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
-	defer stop()
 	formats, _ := pipeline.ParseFormats(c.formats)
+	stem := outputStem(pos[0], formats)
+	if err := precheckOutputs(c.out, stem, formats, pos[0]); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli digitize:", err)
+		return 1
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
 	o, err := pipeline.Process(ctx, pos[0], c.options())
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
 	}
-	files, err := pipeline.Export(o, c.out, pipeline.Stem(pos[0]), formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
+	files, err := pipeline.Export(o, c.out, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
@@ -127,4 +167,47 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stdout, "wrote", f)
 	}
 	return 0
+}
+
+// outputStem is the output file name of the image at path without
+// extension: its own stem, with characters a WFDB record name may not hold
+// made '_' when WFDB is among the formats (as batch does), so that no export
+// fails half-way on the name.
+func outputStem(path string, formats []string) string {
+	stem := pipeline.Stem(path)
+	for _, f := range formats {
+		if f == pipeline.FormatWFDB {
+			return plainName(stem)
+		}
+	}
+	return stem
+}
+
+// plainName keeps letters, digits, '_', '-' and '.'; others become '_'.
+func plainName(s string) string {
+	s = strings.Map(func(r rune) rune {
+		if r == '_' || r == '-' || r == '.' || r >= '0' && r <= '9' || r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' {
+			return r
+		}
+		return '_'
+	}, s)
+	if s == "" || s == "." || s == ".." {
+		s = "record"
+	}
+	return s
+}
+
+// precheckOutputs refuses, before the image is read, an output folder
+// where an export would replace the input or a file tracelift did not
+// write. (Whether an output of tracelift there belongs to this very page is
+// known once the page is loaded; Export checks that.)
+func precheckOutputs(dir, stem string, formats []string, input string) error {
+	if fi, err := os.Stat(dir); err != nil || !fi.IsDir() {
+		return nil // made by Export, or refused there with its reason
+	}
+	err := ledger.Check(dir, ledger.FileSource(input, 0), pipeline.OutputNames(stem, formats), []string{input})
+	if err != nil && !errors.Is(err, ledger.ErrOtherSource) {
+		return err
+	}
+	return nil
 }

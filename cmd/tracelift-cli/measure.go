@@ -1,19 +1,23 @@
 package main
 
 import (
+	"context"
 	"encoding/json"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"os"
+	"os/signal"
 	"path/filepath"
 	"strings"
+	"syscall"
 
 	"tracelift/axis"
 	"tracelift/record"
 	"tracelift/record/atomic"
 	"tracelift/record/csvio"
+	"tracelift/record/ledger"
 	"tracelift/record/wfdb"
 )
 
@@ -43,12 +47,28 @@ func cmdMeasure(args []string, stdout, stderr io.Writer) int {
 		fs.Usage()
 		return 2
 	}
+	stems := map[string]string{}
+	for _, path := range files {
+		st := strings.ToLower(measureStem(path))
+		if prev, ok := stems[st]; ok {
+			return usageError(stderr, "measure", fmt.Sprintf("%s and %s would both be written as %s.json; measure them into different -o folders", prev, path, measureStem(path)))
+		}
+		stems[st] = path
+	}
 	if err := os.MkdirAll(*out, 0o755); err != nil {
 		fmt.Fprintf(stderr, "measure: cannot create the output directory: %v\n", err)
 		return 1
 	}
+	// An interrupt stops between records; the record being written is
+	// finished (atomically), so nothing is left half-written.
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
 	failed := 0
 	for _, path := range files {
+		if ctx.Err() != nil {
+			fmt.Fprintln(stderr, "measure: interrupted; records not measured yet were left out")
+			return 1
+		}
 		if err := measureOne(path, *out, *beatLead, *quiet, stdout); err != nil {
 			fmt.Fprintf(stderr, "measure: %s: %v\n", path, err)
 			failed++
@@ -66,7 +86,7 @@ func readRecord(path string) (*record.Record, error) {
 	ext := strings.ToLower(filepath.Ext(path))
 	switch ext {
 	case ".csv", ".txt":
-		f, err := os.Open(path)
+		f, err := openRegular(path)
 		if err != nil {
 			return nil, err
 		}
@@ -98,8 +118,11 @@ func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error 
 	if err != nil {
 		return err
 	}
-	stem := strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+	stem := measureStem(path)
 	dst := filepath.Join(dir, stem+".json")
+	if err := ledger.Claim(dir, ledger.FileSource(path, 0), []string{stem + ".json"}, []string{path, path + ".hea"}); err != nil {
+		return err
+	}
 	err = atomic.WriteFile(dst, func(w io.Writer) error {
 		enc := json.NewEncoder(w)
 		enc.SetIndent("", "  ")
@@ -113,4 +136,31 @@ func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error 
 		fmt.Fprintf(stdout, "written: %s\n\n", dst)
 	}
 	return nil
+}
+
+// measureStem is the output name of a record: its file name without the
+// extension.
+func measureStem(path string) string {
+	return strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
+}
+
+// openRegular opens path only when it is a regular file (a link to one is
+// followed): a FIFO would block, a device such as /dev/zero never ends.
+func openRegular(path string) (*os.File, error) {
+	fi, err := os.Stat(path)
+	if err != nil {
+		return nil, err
+	}
+	if !fi.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s is not a regular file (%v); give a record file saved on disk", path, fi.Mode().Type())
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	if fi, err := f.Stat(); err != nil || !fi.Mode().IsRegular() {
+		f.Close()
+		return nil, fmt.Errorf("%s is not a regular file; give a record file saved on disk", path)
+	}
+	return f, nil
 }

@@ -9,6 +9,7 @@ import (
 
 	"tracelift/batch"
 	"tracelift/pipeline"
+	"tracelift/record/ledger"
 )
 
 func init() {
@@ -66,6 +67,10 @@ func cmdMerge(args []string, stdout, stderr io.Writer) int {
 		if same(p, dst) {
 			return usageErr(dst + " is one of the summaries being joined; choose another -o folder")
 		}
+	}
+	if err := ledger.Claim(*out, ledger.Source{Path: "a merge of batch summaries"}, []string{"summary.csv"}, paths); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli merge:", err)
+		return 1
 	}
 	if err := batch.WriteSummaryFile(dst, rep.Rows); err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli merge:", err)

@@ -251,6 +251,9 @@ func Read(r io.Reader) (*record.Record, error) {
 	if !(rate > 0) || math.IsInf(rate, 0) {
 		return nil, &ParseError{Err: fmt.Errorf("bad sample rate %v Hz from the time column", rate)}
 	}
+	if rate > MaxRateHz || rate < MinRateHz {
+		return nil, &ParseError{Err: fmt.Errorf("the time column steps %g s, a sample rate of %g Hz; ECG records hold %g Hz to %g Hz: check the time column and its unit (time_s in seconds, time_ms in milliseconds)", span/float64(rows-1), rate, float64(MinRateHz), float64(MaxRateHz))}
+	}
 	out := &record.Record{Provenance: record.Provenance{ScaleSource: "file"}}
 	for _, l := range leads {
 		if sig, ok := record.Trimmed(l.name, rate, t0, l.mv); ok {
@@ -265,6 +268,14 @@ func Read(r io.Reader) (*record.Record, error) {
 	}
 	return out, nil
 }
+
+// The sample rates Read accepts: below 1 Hz no ECG wave is resolved, and
+// above 100 kHz no electrocardiograph samples (pacemaker-spike channels
+// reach about 32 kHz, from memory).
+const (
+	MinRateHz = 1
+	MaxRateHz = 100e3
+)
 
 // snapRate returns the value with the fewest decimals within tol·rate of
 // rate (tol relative): times written with finite decimals give 499.99998 for 500.

@@ -1,11 +1,11 @@
 package wfdb
 
 import (
+	"bufio"
 	"errors"
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"strings"
 
@@ -18,9 +18,14 @@ var ErrSignal = errors.New("wfdb: bad signal file")
 // MaxSamples bounds the samples per signal we read (about 28 h at 1 kHz).
 const MaxSamples = 100_000_000
 
+// MaxTotalSamples bounds the samples of all signals of one signal file
+// held at once (8 bytes each decoded: 512 MB), a day of two leads at
+// 360 Hz (a Holter record) with room to spare.
+const MaxTotalSamples = 64 << 20
+
 // ReadHeaderFile parses the header at path.
 func ReadHeaderFile(path string) (*Header, error) {
-	f, err := os.Open(path)
+	f, err := openRegular(path)
 	if err != nil {
 		return nil, err
 	}
@@ -66,7 +71,7 @@ func ReadRecord(path string) (*record.Record, error) {
 		for k, i := range g.idx {
 			specs[k] = h.Signals[i]
 		}
-		f, err := os.Open(filepath.Join(dir, g.file))
+		f, err := openRegular(filepath.Join(dir, g.file))
 		if err != nil {
 			return nil, fmt.Errorf("wfdb: %s: %w", g.file, err)
 		}
@@ -101,11 +106,11 @@ func toMV(adu []float64, s SignalSpec) []float64 {
 	case "v":
 		scale = 1000
 	}
-	out := make([]float64, len(adu))
+	// In place: the raw values are not needed after.
 	for i, v := range adu {
-		out[i] = (v - float64(s.Baseline)) / s.Gain * scale
+		adu[i] = (v - float64(s.Baseline)) / s.Gain * scale
 	}
-	return out
+	return adu
 }
 
 // DecodeSignals reads the interleaved samples of one signal file holding
@@ -130,73 +135,128 @@ func DecodeSignals(r io.Reader, specs []SignalSpec, nsamp int) ([][]float64, err
 	if nsamp > MaxSamples {
 		return nil, fmt.Errorf("%w: %d samples is more than this reader accepts", ErrSignal, nsamp)
 	}
-	raw, err := io.ReadAll(io.LimitReader(r, int64(MaxSamples)*int64(len(specs))*2+3))
-	if err != nil {
-		return nil, fmt.Errorf("%w: %v", ErrSignal, err)
-	}
 	n := len(specs)
-	var vals []float64 // interleaved
+	maxFrames := min(MaxSamples, MaxTotalSamples/n)
+	if nsamp > maxFrames {
+		return nil, fmt.Errorf("%w: %d signals of %d samples are more than the %d samples this reader holds at once; cut the record into shorter pieces", ErrSignal, n, nsamp, MaxTotalSamples)
+	}
+	next, err := sampleReader(bufio.NewReaderSize(r, 64<<10), fm)
+	if err != nil {
+		return nil, err
+	}
+	// One decoded copy: each sample goes straight to its signal's slice.
+	out := make([][]float64, n)
+	if nsamp > 0 {
+		for k := range out {
+			out[k] = make([]float64, 0, nsamp)
+		}
+	}
+	frames := 0
+	frame := make([]float64, n)
+	for nsamp <= 0 || frames < nsamp {
+		if frames == maxFrames {
+			if _, ok, _ := next(); ok {
+				return nil, fmt.Errorf("%w: the file holds more than the %d samples this reader holds at once; cut the record into shorter pieces", ErrSignal, MaxTotalSamples)
+			}
+			break
+		}
+		k := 0
+		for ; k < n; k++ {
+			v, ok, err := next()
+			if err != nil {
+				return nil, fmt.Errorf("%w: %v", ErrSignal, err)
+			}
+			if !ok {
+				break
+			}
+			frame[k] = v
+		}
+		if k < n { // the end, or a partial last frame (dropped)
+			break
+		}
+		for k := range out {
+			out[k] = append(out[k], frame[k])
+		}
+		frames++
+	}
+	if nsamp > 0 && frames < nsamp {
+		return nil, fmt.Errorf("%w: header says %d samples, file holds %d", ErrSignal, nsamp, frames)
+	}
+	return out, nil
+}
+
+// sampleReader returns a function giving the next sample of a signal file
+// in format fm (16, 212 or 80), NaN for the format's invalid value; ok is
+// false at the end of the data.
+func sampleReader(r io.ByteReader, fm int) (func() (v float64, ok bool, err error), error) {
+	read := func() (byte, bool, error) {
+		b, err := r.ReadByte()
+		if err == io.EOF {
+			return 0, false, nil
+		}
+		return b, err == nil, err
+	}
 	switch fm {
 	case 16:
-		cnt := len(raw) / 2
-		vals = make([]float64, cnt)
-		for i := 0; i < cnt; i++ {
-			v := int16(uint16(raw[2*i]) | uint16(raw[2*i+1])<<8)
+		return func() (float64, bool, error) {
+			lo, ok, err := read()
+			if !ok {
+				return 0, false, err
+			}
+			hi, ok, err := read()
+			if !ok {
+				return 0, false, err
+			}
+			v := int16(uint16(lo) | uint16(hi)<<8)
 			if v == math.MinInt16 {
-				vals[i] = math.NaN()
-			} else {
-				vals[i] = float64(v)
+				return math.NaN(), true, nil
 			}
-		}
+			return float64(v), true, nil
+		}, nil
 	case 212:
-		cnt := len(raw) / 3 * 2
-		if len(raw)%3 == 2 {
-			cnt++
-		}
-		vals = make([]float64, cnt)
-		for i := 0; i < cnt; i++ {
-			b := raw[3*(i/2):]
+		// Two 12-bit samples in three bytes: the first in byte 0 and the low
+		// nibble of byte 1, the second in byte 2 and the high nibble.
+		var b0, b1 byte
+		odd := false
+		return func() (float64, bool, error) {
 			var v int
-			if i%2 == 0 {
-				v = int(b[0]) | int(b[1]&0x0f)<<8
+			if !odd {
+				var ok bool
+				var err error
+				if b0, ok, err = read(); !ok {
+					return 0, false, err
+				}
+				if b1, ok, err = read(); !ok {
+					return 0, false, err
+				}
+				v = int(b0) | int(b1&0x0f)<<8
 			} else {
-				v = int(b[2]) | int(b[1]&0xf0)<<4
+				b2, ok, err := read()
+				if !ok {
+					return 0, false, err
+				}
+				v = int(b2) | int(b1&0xf0)<<4
 			}
+			odd = !odd
 			if v > 2047 {
 				v -= 4096
 			}
 			if v == -2048 {
-				vals[i] = math.NaN()
-			} else {
-				vals[i] = float64(v)
+				return math.NaN(), true, nil
 			}
-		}
+			return float64(v), true, nil
+		}, nil
 	case 80:
-		vals = make([]float64, len(raw))
-		for i, b := range raw {
-			v := int(b) - 128
-			if v == -128 {
-				vals[i] = math.NaN()
-			} else {
-				vals[i] = float64(v)
+		return func() (float64, bool, error) {
+			b, ok, err := read()
+			if !ok {
+				return 0, false, err
 			}
-		}
-	default:
-		return nil, fmt.Errorf("%w: format %d", ErrSignal, fm)
+			if v := int(b) - 128; v != -128 {
+				return float64(v), true, nil
+			}
+			return math.NaN(), true, nil
+		}, nil
 	}
-	frames := len(vals) / n
-	if nsamp > 0 {
-		if frames < nsamp {
-			return nil, fmt.Errorf("%w: header says %d samples, file holds %d", ErrSignal, nsamp, frames)
-		}
-		frames = nsamp
-	}
-	out := make([][]float64, n)
-	for k := range out {
-		out[k] = make([]float64, frames)
-		for i := 0; i < frames; i++ {
-			out[k][i] = vals[i*n+k]
-		}
-	}
-	return out, nil
+	return nil, fmt.Errorf("%w: format %d", ErrSignal, fm)
 }

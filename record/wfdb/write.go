@@ -214,3 +214,7 @@ func FormatHeader(w io.Writer, h *Header) error {
 	}
 	return nil
 }
+
+// CheckName reports whether name can be a record name (letters, digits,
+// '_', '-' and '.'), so a caller can refuse one before writing anything.
+func CheckName(name string) error { return checkName(name) }

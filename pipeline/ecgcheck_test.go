@@ -1,0 +1,110 @@
+package pipeline
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"image"
+	"image/color"
+	"image/png"
+	"math"
+	"math/rand"
+	"os"
+	"testing"
+
+	"tracelift/calib"
+	"tracelift/samples"
+)
+
+// plasma draws plasma noise: forty plane waves of random direction, with
+// amplitude falling as frequency rises (a 1/f texture), in colour.
+func plasma(seed int64) *image.NRGBA {
+	rng := rand.New(rand.NewSource(seed))
+	const w, h = 1600, 1200
+	m := image.NewNRGBA(image.Rect(0, 0, w, h))
+	type wave struct{ fx, fy, ph, a float64 }
+	var ws []wave
+	for i := 0; i < 40; i++ {
+		f := math.Pow(2, rng.Float64()*6) / 800
+		ang := rng.Float64() * 2 * math.Pi
+		ws = append(ws, wave{f * math.Cos(ang), f * math.Sin(ang), rng.Float64() * 2 * math.Pi, 1 / (f * 800)})
+	}
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			v := 0.0
+			for _, q := range ws {
+				v += q.a * math.Sin(2*math.Pi*(q.fx*float64(x)+q.fy*float64(y))+q.ph)
+			}
+			c := uint8(math.Max(0, math.Min(255, 128+10*v)))
+			m.SetNRGBA(x, y, color.NRGBA{c, 255 - c, c/2 + 60, 255})
+		}
+	}
+	return m
+}
+
+func detect(t *testing.T, data []byte, name string) (*calib.Result, error) {
+	t.Helper()
+	pg, err := calib.Decode(data, name, calib.LoadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return calib.Detect(context.Background(), pg, calib.Options{})
+}
+
+// Pictures with no ECG fail as "no ECG found" (calib.ErrNotECG, whose
+// advice says to check the file), before any tracing.
+func TestNoECGRefused(t *testing.T) {
+	if testing.Short() {
+		t.Skip("detects several pages")
+	}
+	for seed := int64(1); seed <= 3; seed++ {
+		var buf bytes.Buffer
+		png.Encode(&buf, plasma(seed))
+		pg, err := calib.Decode(buf.Bytes(), "plasma.png", calib.LoadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		o, err := ProcessPage(context.Background(), pg, Options{})
+		if !errors.Is(err, calib.ErrNotECG) {
+			var brief string
+			if o != nil && o.Calib != nil {
+				brief = o.Brief()
+			}
+			t.Errorf("plasma %d: %v, want a wrapped calib.ErrNotECG\n%s", seed, err, brief)
+		}
+	}
+}
+
+// The pages tracelift reads today are not refused: the embedded demo
+// printouts and the outside printouts that digitize
+// (../../shared/data/outside-printouts, see its README).
+func TestECGPagesNotRefused(t *testing.T) {
+	if testing.Short() {
+		t.Skip("detects several pages")
+	}
+	type page struct {
+		name string
+		data []byte
+	}
+	var pages []page
+	for _, d := range samples.Demo() {
+		pages = append(pages, page{d.Name, d.Data})
+	}
+	for _, n := range []string{"outside01.png", "outside02.png", "outside05.png", "outside06.jpg"} {
+		b, err := os.ReadFile("../../shared/data/outside-printouts/" + n)
+		if err != nil {
+			t.Fatal(err)
+		}
+		pages = append(pages, page{n, b})
+	}
+	for _, p := range pages {
+		cal, err := detect(t, p.data, p.name)
+		if err != nil {
+			t.Errorf("%s: calib: %v", p.name, err)
+			continue
+		}
+		if err := checkLooksLikeECG(cal, Options{}); err != nil {
+			t.Errorf("%s refused: %v (source %s, confidence %.2f, rotation %.1f°)", p.name, err, cal.Source, cal.Confidence, cal.RotationDeg)
+		}
+	}
+}
