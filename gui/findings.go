@@ -21,7 +21,7 @@ import (
 // transition, the flags and the caution.
 type findingsView struct {
 	c       *Controller
-	obj     fyne.CanvasObject
+	obj     *container.Scroll
 	caution *widget.Label
 	values  *widget.Label
 	changed *widget.Label
@@ -47,7 +47,7 @@ func newFindingsView(c *Controller) *findingsView {
 	f.flags = widget.NewLabel("")
 	f.flags.Wrapping = fyne.TextWrapWord
 	f.dial = newHexaxial()
-	f.obj = container.NewVScroll(container.NewVBox(
+	f.obj = container.NewScroll(container.NewVBox(
 		caution,
 		heading("Measurements (value ± uncertainty)"), f.values, f.changed,
 		heading("Frontal axes"), container.NewCenter(f.dial), f.axes,

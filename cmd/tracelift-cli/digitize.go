@@ -11,6 +11,7 @@ import (
 	"strings"
 
 	"tracelift/pipeline"
+	"tracelift/report"
 )
 
 func init() {
@@ -117,7 +118,7 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
 	}
-	files, err := pipeline.Export(o, c.out, pipeline.Stem(pos[0]), formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
+	files, err := pipeline.Export(o, c.out, pipeline.Stem(pos[0]), formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper, PDF: report.Write})
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
