@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"io/fs"
+	"path/filepath"
 	"regexp"
 	"strings"
 
@@ -52,7 +53,7 @@ func Explain(err error) Explanation {
 		e.Advice = "Scan at 300 dpi (plenty for a printout), or crop the picture to the ECG paper."
 	case errors.Is(err, calib.ErrNotECG):
 		e.What = "This picture does not look like an ECG printout: no paper grid and no trace were found on it."
-		e.Advice = "Open a photo or scan of the ECG paper itself. If it is one, turn it with the Reading tab's quarter-turn buttons when it lies sideways."
+		e.Advice = "Open a photo or scan of the ECG paper itself. If it is one, turn it with the Reading tab's Turn buttons when it lies sideways."
 	case errors.Is(err, calib.ErrNoScale):
 		e.What = "The paper's scale could not be measured: there is no grid or calibration pulse to measure it by."
 		e.Advice = "Type the scale in px/mm on the Reading tab, or pick the Scale tool and click two grid lines a known distance apart; then press \"Read again with these\"."
@@ -101,6 +102,7 @@ func Plain(err error) string {
 			continue
 		}
 		seen[k] = true
+		seen[strings.ToLower(filepath.Base(k))] = true // a path, then its base name again
 		parts = append(parts, strings.TrimSpace(p))
 	}
 	// The sentinel's words at the end repeat what the headline says.
