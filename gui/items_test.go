@@ -14,6 +14,7 @@ import (
 
 	"tracelift/gui/engine"
 	"tracelift/gui/model"
+	"tracelift/record"
 )
 
 // Screen position of image px (x, y) in the view.
@@ -125,7 +126,9 @@ func TestRereadReadsPageOnScreen(t *testing.T) {
 	c := NewController(a, failsFor{newFake(t), "bad"}, model.Source{Name: "demo", Data: []byte{1}})
 	c.win.Resize(fyne.NewSize(1200, 800))
 	var failures []string
-	c.Failure = func(name string, ex engine.Explanation, retry func(model.Settings)) { failures = append(failures, name) }
+	c.Failure = func(name string, ex engine.Explanation, retry func(model.Settings)) {
+		failures = append(failures, name)
+	}
 	c.ShowDemo()
 	c.Wait()
 	c.Open(model.Source{Name: "bad", Data: []byte{2}}, model.Found{})
@@ -261,5 +264,36 @@ func TestExportRemembersChoice(t *testing.T) {
 	f, d := c.exportChoice()
 	if strings.Join(f, ",") != "csv,wfdb,pdf" || d != dir {
 		t.Fatalf("offered %v in %q, want csv,wfdb,pdf in %q", f, d, dir)
+	}
+}
+
+// oneLead reads every source as a lone strip of lead II.
+type oneLead struct{ *fakeBackend }
+
+func (o oneLead) Analyze(ctx context.Context, src model.Source, s model.Settings, p model.Progress) (*model.Analysis, error) {
+	a, err := o.fakeBackend.Analyze(ctx, src, s, p)
+	if err != nil {
+		return nil, err
+	}
+	ii := *a.Raw.Lead("II")
+	a.Raw.Signals = []record.Signal{ii}
+	a.Layout = "1x1"
+	a.Panels = []model.Panel{{Lead: "II", Box: [4]float64{50, 50, 2550, 950}, BaselineY: 500, T0S: 0, T1S: 10}}
+	return a, nil
+}
+
+// A single-lead strip gets no empty axis wheel: the findings show the
+// measurements without it; a 12-lead page keeps it.
+func TestSingleLeadNoAxisWheel(t *testing.T) {
+	a := test.NewTempApp(t)
+	c := NewController(a, oneLead{newFake(t)}, model.Source{Name: "strip", Data: []byte{1}})
+	c.ShowDemo()
+	c.Wait()
+	if c.findings.dialBox.Visible() || c.findings.axesHead.Visible() {
+		t.Fatal("the axis wheel is shown for a single lead")
+	}
+	c12 := shown(t)
+	if !c12.findings.dialBox.Visible() {
+		t.Fatal("the axis wheel is hidden on a 12-lead page")
 	}
 }
