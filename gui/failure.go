@@ -24,6 +24,10 @@ func (c *Controller) showFailure(name string, ex engine.Explanation, retry func(
 		c.Failure(name, ex, retry)
 		return
 	}
+	if !ex.Retry {
+		dialog.ShowInformation("Could not read "+name, ex.String(), c.win)
+		return
+	}
 	msg := widget.NewLabel(ex.String())
 	msg.Wrapping = fyne.TextWrapWord
 	scale := widget.NewEntry()

@@ -20,6 +20,9 @@ type Explanation struct {
 	What   string
 	Detail string
 	Advice string
+	// Retry says whether reading again with settings given by hand (a
+	// scale, a turn, a layout) can help: not for a file that is no picture.
+	Retry bool
 }
 
 // String is the message a dialog shows.
@@ -52,15 +55,19 @@ func Explain(err error) Explanation {
 		e.What = "The picture is too large to open."
 		e.Advice = "Scan at 300 dpi (plenty for a printout), or crop the picture to the ECG paper."
 	case errors.Is(err, calib.ErrNotECG):
+		e.Retry = true
 		e.What = "This picture does not look like an ECG printout: no paper grid and no trace were found on it."
 		e.Advice = "Open a photo or scan of the ECG paper itself. If it is one, turn it with the Reading tab's Turn buttons when it lies sideways."
 	case errors.Is(err, calib.ErrNoScale):
+		e.Retry = true
 		e.What = "The paper's scale could not be measured: there is no grid or calibration pulse to measure it by."
 		e.Advice = "Type the scale in px/mm on the Reading tab, or pick the Scale tool and click two grid lines a known distance apart; then press \"Read again with these\"."
 	case errors.Is(err, digitize.ErrLayout):
+		e.Retry = true
 		e.What = "The rows of traces found do not fit the layout chosen."
 		e.Advice = "Choose another layout on the Reading tab, or \"" + "Found automatically" + "\", and read again."
 	case errors.Is(err, digitize.ErrNoTrace):
+		e.Retry = true
 		e.What = "The grid was found, but no rows of traces on it."
 		e.Advice = "Check that the picture shows the traces (not a blank or cropped sheet). A page lying sideways or mirrored can be turned on the Reading tab; faint traces read better from a sharper scan."
 	case errors.Is(err, pipeline.ErrNoPDFWriter):

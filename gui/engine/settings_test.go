@@ -121,9 +121,10 @@ func TestExplainInUsersWords(t *testing.T) {
 		want    error
 		advice  string
 		notSaid string
+		retry   bool // reading again with a scale or a turn may help
 	}{
-		{notImage, calib.ErrFormat, "PNG, JPEG, TIFF or PDF", "sharper"},
-		{drawing, nil, "", "sharper scan"},
+		{notImage, calib.ErrFormat, "PNG, JPEG, TIFF or PDF", "sharper", false},
+		{drawing, nil, "", "sharper scan", true},
 	} {
 		_, err := b.Analyze(context.Background(), model.Source{Path: c.path, Name: filepath.Base(c.path)}, model.Settings{}, nil)
 		if err == nil {
@@ -132,7 +133,11 @@ func TestExplainInUsersWords(t *testing.T) {
 		if c.want != nil && !errors.Is(err, c.want) {
 			t.Fatalf("%s: %v", c.path, err)
 		}
-		msg := Explain(err).String()
+		ex := Explain(err)
+		msg := ex.String()
+		if ex.Retry != c.retry {
+			t.Errorf("%s: retry offered %v", c.path, ex.Retry)
+		}
 		t.Logf("%s: %v\n-> %s", filepath.Base(c.path), err, msg)
 		for _, pkg := range []string{"calib:", "digitize:", "pipeline:", "engine:"} {
 			if strings.Contains(msg, pkg) {
