@@ -5,6 +5,8 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"strconv"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -14,6 +16,7 @@ import (
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/widget"
 
+	"tracelift/gui/engine"
 	"tracelift/gui/model"
 	"tracelift/record"
 )
@@ -34,6 +37,8 @@ type Controller struct {
 	status   *widget.Label
 	progress *widget.ProgressBar
 	toolBar  *widget.RadioGroup
+	tabs     *container.AppTabs
+	overlays *widget.Check
 
 	// the source last asked for, with where its project goes: a reading
 	// that failed can be tried again with settings given by hand
@@ -52,6 +57,11 @@ type Controller struct {
 	OnLoaded func(err error)
 	// Ask replaces the yes/no dialog (tests answer without a window).
 	Ask func(title, msg string, answer func(bool))
+	// AskScale replaces the Scale tool's dialog (tests).
+	AskScale func(a, b [2]float64)
+	// Failure replaces the dialog of a reading that failed (tests); retry
+	// reads the file again with the settings given.
+	Failure func(name string, ex engine.Explanation, retry func(model.Settings))
 }
 
 // NewController builds the window over a backend; demo is what opens
@@ -95,19 +105,26 @@ func (c *Controller) build() {
 	c.toolBar.Required = true
 	c.toolBar.SetSelected(toolNames[0])
 
-	tabs := container.NewAppTabs(
+	c.tabs = container.NewAppTabs(
 		container.NewTabItem("Reading", c.side.obj),
 		container.NewTabItem("Findings", c.findings.obj),
 	)
-	split := container.NewHSplit(c.view, tabs)
-	split.Offset = 0.70
-	top := container.NewHBox(widget.NewLabel("Tool:"), c.toolBar, widget.NewSeparator(),
+	split := container.NewHSplit(c.view, c.tabs)
+	split.Offset = 0.68
+	c.overlays = widget.NewCheck("Overlays", func(on bool) {
+		c.view.hideOverlays = !on
+		c.view.Refresh()
+	})
+	c.overlays.SetChecked(true)
+	// The tool bar scrolls sideways rather than widen the window beyond a
+	// small screen (1366×768 at 1.6× scaling is 854×480 units).
+	top := container.NewHScroll(container.NewHBox(widget.NewLabel("Tool:"), c.toolBar, widget.NewSeparator(),
 		widget.NewButton("Undo", c.undo), widget.NewButton("Redo", c.redo), widget.NewSeparator(),
-		widget.NewButton("Whole page", func() { c.view.fit = true; c.view.Refresh() }))
+		widget.NewButton("Whole page", func() { c.view.fit = true; c.view.Refresh() }), c.overlays))
 	caution := widget.NewLabel(model.Caution)
 	caution.Wrapping = fyne.TextWrapWord
 	caution.Importance = widget.WarningImportance
-	bottom := container.NewVBox(caution, container.NewBorder(nil, nil, nil, container.NewGridWrap(fyne.NewSize(220, 20), c.progress), c.status))
+	bottom := container.NewVBox(caution, container.NewBorder(nil, nil, nil, container.NewGridWrap(fyne.NewSize(160, 20), c.progress), c.status))
 	c.win.SetContent(container.NewBorder(top, bottom, nil, nil, split))
 	c.win.SetMainMenu(c.menu())
 	c.shortcuts()
@@ -119,7 +136,9 @@ func (c *Controller) build() {
 			}
 		}
 	})
-	c.win.Resize(fyne.NewSize(1360, 860))
+	// A size that fits a 1366×768 screen with its task bar; the window
+	// manager may make it larger, and every part scrolls when smaller.
+	c.win.Resize(fyne.NewSize(1280, 680))
 }
 
 var toolHelp = []string{
@@ -266,6 +285,7 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 				c.failed(src, err)
 				return
 			}
+			newFile := c.m.Source().Path != src.Path || c.m.Source().Name != src.Name || !c.m.Loaded()
 			ierr := c.m.Install(src, a, s, corrs, projectPath)
 			if s != (model.Settings{}) {
 				c.m.Save() // the settings are part of the project too; an error shows on the Reading tab
@@ -273,6 +293,9 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 			c.view.selected = -1
 			c.view.setImage(a.Image)
 			c.refresh()
+			if newFile {
+				c.newFileShown()
+			}
 			msg := fmt.Sprintf("%s: %d panels, layout %s, scale from %s.", name, len(a.Panels), a.Layout, a.ScaleSource)
 			if n := len(corrs); n > 0 {
 				msg += fmt.Sprintf(" %d corrections restored.", n)
@@ -300,21 +323,38 @@ func (c *Controller) current(gen int) bool {
 	return gen == c.gen
 }
 
+// newFileShown puts the window in its starting state for another file:
+// the keyboard on the printout (not in a settings field, where + would be
+// typed instead of zooming), the side tabs scrolled to the top.
+func (c *Controller) newFileShown() {
+	c.win.Canvas().Focus(c.view)
+	c.side.obj.ScrollToTop()
+	c.findings.obj.ScrollToTop()
+}
+
 func (c *Controller) failed(src model.Source, err error) {
 	c.busy.Store(false)
 	c.progress.Hide()
-	c.setStatus("Could not read " + src.Name + ".")
-	dialog.ShowError(fmt.Errorf("%w\n\nTry a sharper scan, or type the scale (px/mm) on the Reading tab\nand press \"Read again with these\".", err), c.win)
+	name := src.Name
+	if name == "" {
+		name = filepath.Base(src.Path)
+	}
+	c.setStatus("Could not read " + name + ".")
 	if c.OnLoaded != nil {
 		c.OnLoaded(err)
 	}
+	ex := engine.Explain(err)
+	if errors.Is(err, context.Canceled) {
+		return
+	}
+	c.showFailure(name, ex, func(s model.Settings) { c.read(src, s, c.lastCorrs, c.lastProject) })
 }
 
-// Reread reads the open printout again with new settings, keeping the
-// corrections.
+// Reread reads the printout on screen again with new settings, keeping the
+// corrections. With nothing on screen (the first file failed) it tries the
+// file asked for last.
 func (c *Controller) Reread(s model.Settings) {
-	if !c.m.Loaded() || c.m.Source().Path != c.lastSrc.Path || c.m.Source().Name != c.lastSrc.Name {
-		// the last reading failed: try it again with these settings
+	if !c.m.Loaded() {
 		if c.lastSrc.Path == "" && c.lastSrc.Data == nil {
 			return
 		}
@@ -380,6 +420,32 @@ func (c *Controller) refresh() {
 	c.findings.refresh()
 }
 
+// boxDragged moves or resizes panel i's box; when the new box would cover
+// a neighbour, it asks first (the trace there would be read twice).
+func (c *Controller) boxDragged(i int, box [4]float64) {
+	over := c.m.Overlaps(i, box)
+	if len(over) == 0 {
+		c.edited(c.m.MoveBox(i, box))
+		return
+	}
+	var names []string
+	for _, o := range over {
+		names = append(names, fmt.Sprintf("%s (%.0f%% of its box)", o.Lead, 100*o.Share))
+	}
+	lead := c.m.Panels()[i].Lead
+	c.ask("Box over a neighbour",
+		fmt.Sprintf("The box of %s would now cover %s.\nThe trace there would be read into both leads and the measurements would change.\nMove it anyway?",
+			lead, strings.Join(names, ", ")),
+		func(yes bool) {
+			if !yes {
+				c.setStatus("The box of " + lead + " is left where it was.")
+				c.view.Refresh()
+				return
+			}
+			c.edited(c.m.MoveBox(i, box))
+		})
+}
+
 func (c *Controller) panelChosen(i int) {
 	c.side.refresh()
 	if i >= 0 {
@@ -388,27 +454,38 @@ func (c *Controller) panelChosen(i int) {
 	}
 }
 
+// askScale asks how far apart the two clicked lines are; AskScale
+// replaces the dialog in tests.
 func (c *Controller) askScale(a, b [2]float64) {
+	if c.AskScale != nil {
+		c.AskScale(a, b)
+		return
+	}
 	mm := widget.NewEntry()
-	mm.SetText("5")
+	mm.SetText("10")
 	dialog.ShowForm("Set the scale", "Apply", "Cancel",
 		[]*widget.FormItem{widget.NewFormItem("Distance between the two lines (mm)", mm)},
 		func(ok bool) {
-			if !ok {
-				return
+			if ok {
+				c.applyScale(a, b, mm.Text)
 			}
-			var d float64
-			if _, err := fmt.Sscan(mm.Text, &d); err != nil {
-				dialog.ShowError(fmt.Errorf("not a number: %q", mm.Text), c.win)
-				return
-			}
-			px, err := c.m.ScaleFromClicks(a[0], a[1], b[0], b[1], d)
-			if err != nil {
-				dialog.ShowError(err, c.win)
-				return
-			}
-			s := c.m.Settings()
-			s.PxPerMM = px
-			c.Reread(s)
 		}, c.win)
+}
+
+// applyScale reads the page again at the scale two clicked points mm apart
+// give.
+func (c *Controller) applyScale(a, b [2]float64, mmText string) {
+	d, err := strconv.ParseFloat(strings.TrimSpace(strings.ReplaceAll(mmText, ",", ".")), 64)
+	if err != nil {
+		c.setStatus(fmt.Sprintf("Scale: %q is not a number of mm.", mmText))
+		return
+	}
+	px, err := c.m.ScaleFromClicks(a[0], a[1], b[0], b[1], d)
+	if err != nil {
+		c.setStatus(engine.Plain(err))
+		return
+	}
+	s := c.m.Settings()
+	s.PxPerMM = px
+	c.Reread(s)
 }

@@ -21,13 +21,32 @@ import (
 // transition, the flags and the caution.
 type findingsView struct {
 	c       *Controller
-	obj     fyne.CanvasObject
+	obj     *container.Scroll
 	caution *widget.Label
 	values  *widget.Label
 	changed *widget.Label
 	axes    *widget.Label
 	flags   *widget.Label
 	dial    *hexaxial
+	// the axes' heading and wheel, hidden for a record with fewer than
+	// two frontal leads (a single-lead strip has no frontal axis)
+	axesHead *widget.Label
+	dialBox  *fyne.Container
+}
+
+// frontalLeadCount is how many of the six frontal leads rec holds.
+func frontalLeadCount(m *model.Model) int {
+	rec := m.Record()
+	if rec == nil {
+		return 0
+	}
+	n := 0
+	for _, l := range frontalLeads {
+		if rec.Lead(l.name) != nil {
+			n++
+		}
+	}
+	return n
 }
 
 func newFindingsView(c *Controller) *findingsView {
@@ -47,10 +66,12 @@ func newFindingsView(c *Controller) *findingsView {
 	f.flags = widget.NewLabel("")
 	f.flags.Wrapping = fyne.TextWrapWord
 	f.dial = newHexaxial()
-	f.obj = container.NewVScroll(container.NewVBox(
+	f.axesHead = heading("Frontal axes")
+	f.dialBox = container.NewCenter(f.dial)
+	f.obj = container.NewScroll(container.NewVBox(
 		caution,
 		heading("Measurements (value ± uncertainty)"), f.values, f.changed,
-		heading("Frontal axes"), container.NewCenter(f.dial), f.axes,
+		f.axesHead, f.dialBox, f.axes,
 		heading("Flags"), f.flags,
 	))
 	return f
@@ -91,6 +112,16 @@ func (f *findingsView) refresh() {
 		ax += "\nBy method: " + strings.Join(s.AxisMethods, "; ")
 	}
 	f.axes.SetText(ax)
+	if frontalLeadCount(m) < 2 {
+		// A single-lead strip: no frontal axis to draw; the space goes to
+		// the measurements.
+		f.axesHead.Hide()
+		f.dialBox.Hide()
+		f.axes.SetText(fmt.Sprintf("Transition: %s   Rhythm: %s", orNone(s.Transition), orNone(s.Rhythm)))
+	} else {
+		f.axesHead.Show()
+		f.dialBox.Show()
+	}
 	if len(s.Flags) == 0 {
 		f.flags.SetText("None raised.")
 	} else {

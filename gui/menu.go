@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"errors"
 	"fmt"
 	"os"
 	"os/exec"
@@ -13,6 +14,7 @@ import (
 	"fyne.io/fyne/v2/storage"
 	"fyne.io/fyne/v2/widget"
 
+	"tracelift/gui/engine"
 	"tracelift/gui/model"
 )
 
@@ -32,9 +34,11 @@ func (c *Controller) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Export…", c.exportDialog),
 		fyne.NewMenuItem("Print summary…", c.print),
 	)
+	// The keys are named in the labels, not set as the items' shortcuts:
+	// a menu's shortcut would take Ctrl+Z from a settings field's own text.
 	edit := fyne.NewMenu("Edit",
-		fyne.NewMenuItem("Undo", c.undo),
-		fyne.NewMenuItem("Redo", c.redo),
+		fyne.NewMenuItem("Undo (Ctrl+Z)", c.undo),
+		fyne.NewMenuItem("Redo (Ctrl+Shift+Z, Ctrl+Y)", c.redo),
 	)
 	view := fyne.NewMenu("View",
 		fyne.NewMenuItem("Zoom in", func() { c.view.zoomCentre(1.25) }),
@@ -61,28 +65,34 @@ func (c *Controller) shortcuts() {
 	add := func(k fyne.KeyName, mod fyne.KeyModifier, f func()) {
 		cv.AddShortcut(&desktop.CustomShortcut{KeyName: k, Modifier: mod}, func(fyne.Shortcut) { f() })
 	}
-	add(fyne.KeyZ, fyne.KeyModifierShortcutDefault, c.undo)
+	// The desktop driver turns Ctrl+Z and Ctrl+Y into fyne's own undo and
+	// redo shortcuts (not custom ones); Ctrl+Shift+Z stays a custom one. A
+	// settings field that holds the focus keeps them for its own text.
+	cv.AddShortcut(&fyne.ShortcutUndo{}, func(fyne.Shortcut) { c.undo() })
+	cv.AddShortcut(&fyne.ShortcutRedo{}, func(fyne.Shortcut) { c.redo() })
 	add(fyne.KeyZ, fyne.KeyModifierShortcutDefault|fyne.KeyModifierShift, c.redo)
-	add(fyne.KeyY, fyne.KeyModifierShortcutDefault, c.redo)
 	add(fyne.KeyO, fyne.KeyModifierShortcutDefault, c.openDialog)
 	add(fyne.KeyE, fyne.KeyModifierShortcutDefault, c.exportDialog)
 	add(fyne.KeyP, fyne.KeyModifierShortcutDefault, c.print)
 	add(fyne.KeyQ, fyne.KeyModifierShortcutDefault, c.app.Quit)
 	cv.SetOnTypedKey(func(e *fyne.KeyEvent) { c.key(e.Name) })
-	cv.SetOnTypedRune(func(r rune) {
-		switch r {
-		case '+', '=':
-			c.view.zoomCentre(1.25)
-		case '-':
-			c.view.zoomCentre(0.8)
-		case '0':
-			c.view.fit = true
-			c.view.Refresh()
-		}
-		if r >= '1' && r <= '7' {
-			c.toolBar.SetSelected(toolNames[r-'1'])
-		}
-	})
+	cv.SetOnTypedRune(c.typedRune)
+}
+
+// typedRune handles the one-key commands (zoom, whole page, tools).
+func (c *Controller) typedRune(r rune) {
+	switch r {
+	case '+', '=':
+		c.view.zoomCentre(1.25)
+	case '-':
+		c.view.zoomCentre(0.8)
+	case '0':
+		c.view.fit = true
+		c.view.Refresh()
+	}
+	if r >= '1' && r <= '7' {
+		c.toolBar.SetSelected(toolNames[r-'1'])
+	}
 }
 
 func (c *Controller) key(k fyne.KeyName) {
@@ -97,9 +107,8 @@ func (c *Controller) key(k fyne.KeyName) {
 	case fyne.KeyDown:
 		c.view.pan(0, -step)
 	case fyne.KeyEscape:
-		c.view.clearGesture()
-		c.view.selX0, c.view.selX1 = 0, 0
-		c.view.Refresh()
+		c.view.cancelGesture()
+		c.setStatus("Cancelled; nothing was changed.")
 	}
 }
 
@@ -163,26 +172,71 @@ func (c *Controller) stem() string {
 	return n
 }
 
+// Preference keys of the export dialog: the formats and the folder chosen
+// last, offered again next time.
+const (
+	exportFormatsKey = "export_formats"
+	exportDirKey     = "export_dir"
+)
+
+// exportChoice returns the formats and folder to offer: the last ones
+// chosen, else CSV, JSON and PDF into the image's folder (home for the
+// demo).
+func (c *Controller) exportChoice() ([]string, string) {
+	prefs := c.app.Preferences()
+	formats := orderFormats(prefs.StringList(exportFormatsKey))
+	if len(formats) == 0 {
+		formats = []string{"csv", "json", "pdf"}
+	}
+	dir := prefs.String(exportDirKey)
+	if st, err := os.Stat(dir); dir == "" || err != nil || !st.IsDir() {
+		dir = ""
+		if p := c.m.Source().Path; p != "" {
+			dir = filepath.Dir(p)
+		} else if h, err := os.UserHomeDir(); err == nil {
+			dir = h
+		}
+	}
+	return formats, dir
+}
+
+// orderFormats keeps the known formats of list in the dialog's order.
+func orderFormats(list []string) []string {
+	var out []string
+	for _, f := range exportFormats {
+		for _, g := range list {
+			if f == g {
+				out = append(out, f)
+				break
+			}
+		}
+	}
+	return out
+}
+
 func (c *Controller) exportDialog() {
 	if !c.m.Loaded() {
 		return
 	}
+	formats, dir := c.exportChoice()
 	checks := widget.NewCheckGroup(exportFormats, nil)
-	checks.SetSelected([]string{"csv", "json", "pdf"})
-	dir := ""
-	if p := c.m.Source().Path; p != "" {
-		dir = filepath.Dir(p)
-	} else if h, err := os.UserHomeDir(); err == nil {
-		dir = h
-	}
+	checks.SetSelected(formats)
 	dirLabel := widget.NewLabel(dir)
+	dirLabel.Wrapping = fyne.TextWrapBreak
 	pick := widget.NewButton("Choose folder…", func() {
-		dialog.ShowFolderOpen(func(u fyne.ListableURI, err error) {
+		d := dialog.NewFolderOpen(func(u fyne.ListableURI, err error) {
 			if err == nil && u != nil {
 				dir = u.Path()
 				dirLabel.SetText(dir)
 			}
 		}, c.win)
+		d.SetTitleText("Choose the folder to write into")
+		d.SetConfirmText("Use this folder")
+		if u, err := storage.ListerForURI(storage.NewFileURI(dir)); err == nil {
+			d.SetLocation(u)
+		}
+		d.Resize(fyne.NewSize(700, 460))
+		d.Show()
 	})
 	dialog.ShowForm("Export", "Write", "Cancel", []*widget.FormItem{
 		widget.NewFormItem("Formats", checks),
@@ -195,25 +249,35 @@ func (c *Controller) exportDialog() {
 	}, c.win)
 }
 
-// export writes the files in the background and reports them.
+// export writes the files in the background and reports them. The formats
+// and folder are remembered for the next export (not for printing).
 func (c *Controller) export(dir string, formats []string, openAfter bool) {
+	formats = orderFormats(formats)
 	if len(formats) == 0 {
 		c.setStatus("Export: no format chosen.")
 		return
 	}
-	a, rec, stem := c.m.Analysis(), c.m.Record(), c.stem()
+	if !openAfter {
+		c.app.Preferences().SetStringList(exportFormatsKey, formats)
+		c.app.Preferences().SetString(exportDirKey, dir)
+	}
+	a, job := c.m.Analysis(), c.m.ExportJob(dir, c.stem(), formats)
 	c.setStatus("Writing " + strings.Join(formats, ", ") + "…")
 	c.jobs.Add(1)
 	go func() {
 		defer c.jobs.Done()
-		files, err := c.b.Export(a, rec, dir, stem, formats)
+		files, err := c.b.Export(a, job)
 		fyne.Do(func() {
 			if err != nil {
-				dialog.ShowError(err, c.win)
-				c.setStatus("Export failed.")
+				msg := engine.Explain(err).String()
+				if len(files) > 0 {
+					msg += "\n\nWritten before it stopped: " + baseNames(files) + "."
+				}
+				dialog.ShowError(errors.New(msg), c.win)
+				c.setStatus(fmt.Sprintf("Export stopped: %d of the files written.", len(files)))
 				return
 			}
-			c.setStatus(fmt.Sprintf("Wrote %d files in %s.", len(files), dir))
+			c.setStatus(fmt.Sprintf("Wrote %s in %s.", baseNames(files), dir))
 			if openAfter && len(files) > 0 {
 				if err := exec.Command("xdg-open", files[len(files)-1]).Start(); err != nil {
 					dialog.ShowInformation("Print", "The summary is in "+files[len(files)-1]+"; open it to print.", c.win)
@@ -221,6 +285,14 @@ func (c *Controller) export(dir string, formats []string, openAfter bool) {
 			}
 		})
 	}()
+}
+
+func baseNames(files []string) string {
+	names := make([]string, len(files))
+	for i, f := range files {
+		names[i] = filepath.Base(f)
+	}
+	return strings.Join(names, ", ")
 }
 
 // print writes the PDF summary to a temporary folder and hands it to the

@@ -20,7 +20,7 @@ import (
 // last edit changed.
 type sidePanel struct {
 	c   *Controller
-	obj fyne.CanvasObject
+	obj *container.Scroll
 
 	found   *widget.Label
 	pxPerMM *widget.Entry
@@ -51,6 +51,28 @@ func newSidePanel(c *Controller) *sidePanel {
 	apply := widget.NewButton("Read again with these", p.applySettings)
 	apply.Importance = widget.HighImportance
 	reset := widget.NewButton("Back to found values", func() { c.Reread(model.Settings{}) })
+	// Orientation: each press reads the page again turned or mirrored
+	// (the corrections, in lead time and mV, stay).
+	turnBy := func(q int) func() {
+		return func() {
+			if !c.m.Loaded() {
+				return
+			}
+			s := c.m.Settings()
+			s.QuarterTurns = ((s.QuarterTurns+q)%4 + 4) % 4
+			c.Reread(s)
+		}
+	}
+	turnL := widget.NewButton("↺ Turn left", turnBy(3))
+	turnR := widget.NewButton("↻ Turn right", turnBy(1))
+	mirror := widget.NewButton("⇆ Mirror", func() {
+		if !c.m.Loaded() {
+			return
+		}
+		s := c.m.Settings()
+		s.Mirror = !s.Mirror
+		c.Reread(s)
+	})
 	form := widget.NewForm(
 		widget.NewFormItem("Scale (px/mm)", p.pxPerMM),
 		widget.NewFormItem("Gain (mm/mV)", p.gain),
@@ -75,9 +97,10 @@ func newSidePanel(c *Controller) *sidePanel {
 
 	legend := container.NewHBox(swatch(confidenceColor(0.9), "sure"), swatch(confidenceColor(0.6), "doubtful"),
 		swatch(confidenceColor(0.2), "poor"))
-	p.obj = container.NewVScroll(container.NewVBox(
+	p.obj = container.NewScroll(container.NewVBox(
 		heading("What was found"), p.found,
-		heading("Calibration and layout"), form, container.NewHBox(apply, reset),
+		heading("Calibration and layout"), form, container.NewGridWithColumns(2, apply, reset),
+		heading("Page orientation"), container.NewGridWithColumns(3, turnL, turnR, mirror),
 		widget.NewLabel("Or pick the Scale tool and click two grid lines."),
 		widget.NewSeparator(),
 		heading("Chosen panel"), p.panel, p.lead,
@@ -101,7 +124,8 @@ func swatch(c color.NRGBA, label string) fyne.CanvasObject {
 }
 
 func (p *sidePanel) applySettings() {
-	var s model.Settings
+	cur := p.c.m.Settings()
+	s := model.Settings{QuarterTurns: cur.QuarterTurns, Mirror: cur.Mirror}
 	parse := func(e *widget.Entry, dst *float64, what string) bool {
 		t := strings.TrimSpace(e.Text)
 		if t == "" {

@@ -9,7 +9,6 @@ import (
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/canvas"
-	"fyne.io/fyne/v2/driver/desktop"
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
@@ -49,17 +48,64 @@ type printView struct {
 	selected int // panel chosen with a click (-1 none)
 
 	// gesture under way
-	dragging   bool
-	pressAt    [2]float64 // image px
-	lastAt     [2]float64
-	stroke     [][2]float64
-	selPanel   int
-	selX0      float64 // selection stretch in image px
-	selX1      float64
-	moving     bool    // a drag inside the selection moves it
-	moveDY     float64 // vertical offset under way (image px)
-	moveDX     float64
-	scaleClick [][2]float64
+	dragging     bool
+	pressAt      [2]float64 // image px
+	lastAt       [2]float64
+	stroke       [][2]float64
+	selPanel     int
+	selX0        float64 // selection stretch in image px
+	selX1        float64
+	moving       bool    // a drag inside the selection moves it
+	moveDY       float64 // vertical offset under way (image px)
+	moveDX       float64
+	scaleClick   [][2]float64
+	cancelled    bool    // Escape during a drag: ignore the rest of it
+	hideOverlays bool    // the switch on the tool bar: show the page alone
+	grip         [4]bool // Box tool: which edges (x0, y0, x1, y1) the drag moves; none = the whole box
+}
+
+// gripPx is how near an edge (screen units) a Box drag must start to move
+// that edge alone.
+const gripPx = 8
+
+// gripAt says which edges of box a drag starting at p takes: those within
+// tol image px of p. None means the drag moves the whole box.
+func gripAt(box [4]float64, p [2]float64, tol float64) [4]bool {
+	// On a small box the grips would cover it all: keep its middle third
+	// for moving it.
+	tx := math.Min(tol, (box[2]-box[0])/3)
+	ty := math.Min(tol, (box[3]-box[1])/3)
+	return [4]bool{
+		math.Abs(p[0]-box[0]) <= tx, math.Abs(p[1]-box[1]) <= ty,
+		math.Abs(p[0]-box[2]) <= tx, math.Abs(p[1]-box[3]) <= ty,
+	}
+}
+
+// boxAfterDrag is panel p's box moved or resized by the drag under way.
+func (v *printView) boxAfterDrag(p int) [4]float64 {
+	b := v.ctl.m.Panels()[p].Box
+	return dragBox(b, v.grip, v.moveDX, v.moveDY)
+}
+
+// dragBox moves the gripped edges of b by (dx, dy), or the whole box when
+// no edge is gripped; a box never turns inside out (at least 2 px).
+func dragBox(b [4]float64, grip [4]bool, dx, dy float64) [4]float64 {
+	if grip == [4]bool{} {
+		return [4]float64{b[0] + dx, b[1] + dy, b[2] + dx, b[3] + dy}
+	}
+	if grip[0] {
+		b[0] = math.Min(b[0]+dx, b[2]-2)
+	}
+	if grip[2] {
+		b[2] = math.Max(b[2]+dx, b[0]+2)
+	}
+	if grip[1] {
+		b[1] = math.Min(b[1]+dy, b[3]-2)
+	}
+	if grip[3] {
+		b[3] = math.Max(b[3]+dy, b[1]+2)
+	}
+	return b
 }
 
 func newPrintView(c *Controller) *printView {
@@ -141,26 +187,39 @@ func (v *printView) Scrolled(e *fyne.ScrollEvent) {
 	v.zoomBy(f, e.Position)
 }
 
-// MouseDown starts a gesture.
-func (v *printView) MouseDown(e *desktop.MouseEvent) { v.press(v.toImage(e.Position)) }
-
-// MouseUp ends a click (a drag ends in DragEnd).
-func (v *printView) MouseUp(e *desktop.MouseEvent) {
-	if !v.dragging {
-		v.click(v.toImage(e.Position))
-	}
-}
-
-// Tapped handles a tap (touch screens and the test driver).
+// Tapped handles a click that did not drag (the driver sends it once per
+// click; a second handler on the mouse button would count each click
+// twice). It takes the keyboard focus, so keys typed next act on the view.
 func (v *printView) Tapped(e *fyne.PointEvent) {
+	v.takeFocus()
 	at := v.toImage(e.Position)
-	v.press(at)
+	v.pressAt, v.lastAt = at, at
 	v.click(at)
 }
 
-func (v *printView) press(at [2]float64) {
-	v.pressAt, v.lastAt = at, at
-	v.dragging = false
+// takeFocus gives the keyboard to the view (out of a settings field).
+func (v *printView) takeFocus() {
+	if cv := fyne.CurrentApp().Driver().CanvasForObject(v); cv != nil && cv.Focused() != v {
+		cv.Focus(v)
+	}
+}
+
+// FocusGained and the other fyne.Focusable methods pass the keys to the
+// controller while the view holds the focus.
+func (v *printView) FocusGained()              {}
+func (v *printView) FocusLost()                {}
+func (v *printView) TypedRune(r rune)          { v.ctl.typedRune(r) }
+func (v *printView) TypedKey(e *fyne.KeyEvent) { v.ctl.key(e.Name) }
+
+// cancelGesture drops the gesture under way (Escape): nothing of it is
+// applied, and the rest of a drag in progress is ignored.
+func (v *printView) cancelGesture() {
+	if v.dragging {
+		v.cancelled = true
+	}
+	v.clearGesture()
+	v.selX0, v.selX1 = 0, 0
+	v.Refresh()
 }
 
 func (v *printView) click(at [2]float64) {
@@ -183,7 +242,11 @@ func (v *printView) click(at [2]float64) {
 // Dragged follows the pointer.
 func (v *printView) Dragged(e *fyne.DragEvent) {
 	m := v.ctl.m
+	if v.cancelled {
+		return
+	}
 	if !v.dragging {
+		v.takeFocus()
 		v.dragging = true
 		start := v.toImage(fyne.NewPos(e.Position.X-e.Dragged.DX, e.Position.Y-e.Dragged.DY))
 		v.pressAt, v.lastAt = start, start
@@ -199,6 +262,11 @@ func (v *printView) Dragged(e *fyne.DragEvent) {
 			v.selX0, v.selX1 = start[0], start[0]
 		case ToolRedraw:
 			v.stroke = [][2]float64{start}
+		case ToolBox:
+			v.grip = [4]bool{}
+			if v.selPanel >= 0 {
+				v.grip = gripAt(m.Panels()[v.selPanel].Box, start, gripPx/v.zoom)
+			}
 		}
 	}
 	at := v.toImage(e.Position)
@@ -225,20 +293,26 @@ func (v *printView) Dragged(e *fyne.DragEvent) {
 
 // DragEnd turns the gesture into an edit.
 func (v *printView) DragEnd() {
+	if v.cancelled {
+		v.cancelled = false
+		v.clearGesture()
+		v.Refresh()
+		return
+	}
 	if !v.dragging {
 		return
 	}
 	v.dragging = false
 	p := v.selPanel
 	var err error
+	edit := true // the gesture asked for an edit (a pan or a selection does not)
 	switch v.tool {
 	case ToolShift:
-		if v.moving {
-			if math.Abs(v.moveDY) >= 0.5 {
-				err = v.ctl.m.ShiftStretch(p, v.selX0, v.selX1, v.moveDY)
-			}
-			v.moving, v.moveDY = false, 0
+		edit = v.moving && math.Abs(v.moveDY) >= 0.5
+		if edit {
+			err = v.ctl.m.ShiftStretch(p, v.selX0, v.selX1, v.moveDY)
 		}
+		v.moving, v.moveDY = false, 0
 	case ToolErase:
 		err = v.ctl.m.Erase(p, v.selX0, v.selX1)
 		v.selX0, v.selX1 = 0, 0
@@ -246,17 +320,22 @@ func (v *printView) DragEnd() {
 		err = v.ctl.m.Redraw(p, v.stroke)
 		v.stroke = nil
 	case ToolBaseline:
-		if math.Abs(v.moveDY) >= 0.5 {
+		edit = math.Abs(v.moveDY) >= 0.5
+		if edit {
 			err = v.ctl.m.MoveBaseline(p, v.moveDY)
 		}
 	case ToolBox:
+		edit = false // boxDragged reports, after asking when a neighbour is covered
 		if p >= 0 && math.Hypot(v.moveDX, v.moveDY) >= 0.5 {
-			b := v.ctl.m.Panels()[p].Box
-			err = v.ctl.m.MoveBox(p, [4]float64{b[0] + v.moveDX, b[1] + v.moveDY, b[2] + v.moveDX, b[3] + v.moveDY})
+			v.ctl.boxDragged(p, v.boxAfterDrag(p))
 		}
+	default:
+		edit = false
 	}
 	v.moveDX, v.moveDY = 0, 0
-	v.ctl.edited(err)
+	if edit {
+		v.ctl.edited(err)
+	}
 	v.Refresh()
 }
 
@@ -302,7 +381,7 @@ func (r *viewRenderer) Objects() []fyne.CanvasObject {
 	}
 	if r.v.src == nil {
 		objs = append(objs, r.hint)
-	} else if r.v.ctl.m.Loaded() {
+	} else if r.v.ctl.m.Loaded() && !r.v.hideOverlays {
 		objs = append(objs, r.scale)
 	}
 	return objs
@@ -324,6 +403,9 @@ func (r *viewRenderer) placeLabels() {
 	v := r.v
 	views := v.ctl.m.Panels()
 	if !v.ctl.m.Loaded() {
+		views = nil
+	}
+	if v.hideOverlays {
 		views = nil
 	}
 	for len(r.labels) < len(views) {
@@ -370,6 +452,10 @@ var (
 	strokeCol  = color.NRGBA{0xd0, 0x20, 0x90, 0xff}
 	selBand    = color.NRGBA{0xff, 0xc0, 0x20, 0x50}
 	scaleCol   = color.NRGBA{0x00, 0x80, 0x80, 0xff}
+	halo       = color.NRGBA{0x10, 0x10, 0x18, 0xb0}
+	plate      = color.NRGBA{0xff, 0xff, 0xff, 0xd8}
+	erasedBand = color.NRGBA{0x90, 0x90, 0x90, 0x48}
+	erasedCol  = color.NRGBA{0xb0, 0x20, 0x20, 0xe0}
 )
 
 // confidenceColor: sure green, doubtful amber, poor red; unknown grey.
@@ -404,23 +490,27 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 	blitScaled(dst, v.src, v.offX, v.offY, k)
 
 	m := v.ctl.m
-	if !m.Loaded() {
+	if !m.Loaded() || v.hideOverlays {
 		return dst
 	}
 	toDev := func(p [2]float64) (float64, float64) { return (p[0] - v.offX) * k, (p[1] - v.offY) * k }
 	lw := math.Max(1, dev*1.5)
 	for i, pv := range m.Panels() {
 		dx, dy := 0.0, 0.0
-		if v.dragging && i == v.selPanel && v.tool == ToolBox {
-			dx, dy = v.moveDX, v.moveDY
-		}
 		b := pv.Box
-		x0, y0 := toDev([2]float64{b[0] + dx, b[1] + dy})
-		x1, y1 := toDev([2]float64{b[2] + dx, b[3] + dy})
+		if v.dragging && i == v.selPanel && v.tool == ToolBox {
+			b = v.boxAfterDrag(i)
+			if v.grip == [4]bool{} {
+				dx, dy = v.moveDX, v.moveDY
+			}
+		}
+		x0, y0 := toDev([2]float64{b[0], b[1]})
+		x1, y1 := toDev([2]float64{b[2], b[3]})
 		c := boxColor
 		if i == v.selected {
 			c = selColor
 		}
+		rect(dst, x0, y0, x1, y1, math.Max(1, dev)+2*dev, halo)
 		rect(dst, x0, y0, x1, y1, math.Max(1, dev), c)
 		bdy := dy
 		if v.dragging && i == v.selPanel && v.tool == ToolBaseline {
@@ -435,16 +525,34 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 			sdy = v.moveDY
 		}
 		lo, hi := math.Min(v.selX0, v.selX1), math.Max(v.selX0, v.selX1)
-		for _, run := range m.Polyline(i) {
-			for j := 1; j < len(run); j++ {
-				a, bb := run[j-1], run[j]
-				oy := 0.0
-				if sdy != 0 && a[0] >= lo && a[0] <= hi {
-					oy = sdy
+		// Each trace is drawn over a dark halo so that it stays visible on
+		// a green, red or dark grid and on the ink it follows.
+		for pass, c := range []color.NRGBA{halo, col} {
+			w := lw
+			if pass == 0 {
+				w = lw + 2*dev
+			}
+			for _, run := range m.Polyline(i) {
+				for j := 1; j < len(run); j++ {
+					a, bb := run[j-1], run[j]
+					oy := 0.0
+					if sdy != 0 && a[0] >= lo && a[0] <= hi {
+						oy = sdy
+					}
+					ax, ay := toDev([2]float64{a[0] + dx, a[1] + dy + oy})
+					bx, by := toDev([2]float64{bb[0] + dx, bb[1] + dy + oy})
+					line(dst, ax, ay, bx, by, w, c)
 				}
-				ax, ay := toDev([2]float64{a[0] + dx, a[1] + dy + oy})
-				bx, by := toDev([2]float64{bb[0] + dx, bb[1] + dy + oy})
-				line(dst, ax, ay, bx, by, lw, col)
+			}
+		}
+		// Erased stretches: a hatched band, so a gap made by hand is not
+		// taken for ink the tracer missed.
+		for _, e := range m.Erased(i) {
+			ex0, _ := toDev([2]float64{e[0] + dx, 0})
+			ex1, _ := toDev([2]float64{e[1] + dx, 0})
+			fill(dst, ex0, y0, ex1, y1, erasedBand)
+			for x := ex0; x < ex1; x += 8 * dev {
+				line(dst, x, by-6*dev, math.Min(x+8*dev, ex1), by+6*dev, math.Max(1, dev), erasedCol)
 			}
 		}
 	}
@@ -465,13 +573,15 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 		line(dst, x-6*dev, y, x+6*dev, y, lw, scaleCol)
 		line(dst, x, y-6*dev, x, y+6*dev, lw, scaleCol)
 	}
-	// The grid scale found: a 10 mm bar in the corner of the page.
+	// The grid scale found: a 10 mm bar in the corner of the page, on a
+	// light plate so that it reads on a dark photo too.
 	a := m.Analysis()
 	if a.PxPerMM > 0 {
 		x0, y0 := toDev([2]float64{0, float64(v.src.Rect.Dy())})
 		x0 += 12 * dev
 		y0 = math.Min(y0, float64(h)) - 12*dev
 		bar := 10 * a.PxPerMM * k
+		fill(dst, x0-6*dev, y0-11*dev, x0+bar+6*dev+float64(r.scale.MinSize().Width)*dev+4*dev, y0+9*dev, plate)
 		line(dst, x0, y0, x0+bar, y0, 3*dev, scaleCol)
 		line(dst, x0, y0-5*dev, x0, y0+5*dev, 2*dev, scaleCol)
 		line(dst, x0+bar, y0-5*dev, x0+bar, y0+5*dev, 2*dev, scaleCol)

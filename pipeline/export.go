@@ -3,6 +3,7 @@ package pipeline
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -76,15 +77,18 @@ type ExportOptions struct {
 	// Inputs are files this run read besides the page's own image (which
 	// is always protected); no output ever replaces one of them.
 	Inputs []string
+	// PDF renders the printable summary (report.Write); the caller passes
+	// it so that this package does not depend on the PDF library. Without
+	// it the "pdf" format fails with ErrNoPDFWriter.
+	PDF PDFWriter
 }
 
-// PDFWriter renders the printable summary. The report package installs it
-// (see SetPDFWriter) so that this package does not depend on the PDF
-// library.
-var pdfWriter func(w io.Writer, o *Outcome, opt ExportOptions) error
+// PDFWriter renders the printable summary of an outcome.
+type PDFWriter func(w io.Writer, o *Outcome, opt ExportOptions) error
 
-// SetPDFWriter installs the PDF summary writer.
-func SetPDFWriter(f func(w io.Writer, o *Outcome, opt ExportOptions) error) { pdfWriter = f }
+// ErrNoPDFWriter is returned for the "pdf" format when ExportOptions.PDF
+// is nil.
+var ErrNoPDFWriter = errors.New("pipeline: no PDF writer was given")
 
 // Export writes the chosen formats for o into dir as <stem>.<ext>, each
 // file atomically. It returns the paths written.
@@ -132,10 +136,10 @@ func Export(o *Outcome, dir, stem string, formats []string, opt ExportOptions) (
 			ur.Annotations = append(beatAnnotations(o), rec.Annotations...)
 			err = edf.WriteFile(path, ur, edf.Options{})
 		case FormatPDF:
-			if pdfWriter == nil {
-				err = fmt.Errorf("the PDF summary is not available in this build")
+			if opt.PDF == nil {
+				err = ErrNoPDFWriter
 			} else {
-				err = atomic.WriteFile(path, func(w io.Writer) error { return pdfWriter(w, o, opt) }, 0o644)
+				err = atomic.WriteFile(path, func(w io.Writer) error { return opt.PDF(w, o, opt) }, 0o644)
 			}
 		default:
 			err = fmt.Errorf("unknown format %q", f)

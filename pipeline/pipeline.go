@@ -23,6 +23,12 @@ type Options struct {
 	Calib    calib.Options
 	Digitize digitize.Options
 	Measure  axis.Options
+	// ByHand holds settings the user gave by hand; they win over what the
+	// page shows (see ByHand).
+	ByHand ByHand
+	// Progress, when set, is told the stage begun and the fraction of the
+	// work done (0..1). It is called on the caller's goroutine.
+	Progress func(stage string, frac float64)
 }
 
 // Outcome holds every stage's result.
@@ -65,6 +71,11 @@ func Process(ctx context.Context, path string, opt Options) (*Outcome, error) {
 // ProcessPage runs calibration, tracing and measurement on a loaded page.
 func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, error) {
 	o := &Outcome{Page: pg}
+	progress := opt.Progress
+	if progress == nil {
+		progress = func(string, float64) {}
+	}
+	progress("finding the grid and scale", 0.15)
 	t := time.Now()
 	cal, err := calib.Detect(ctx, pg, opt.Calib)
 	o.Timings.Calib = time.Since(t)
@@ -78,14 +89,22 @@ func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, er
 	if err := ctx.Err(); err != nil {
 		return o, err
 	}
+	progress("tracing the leads", 0.5)
 	t = time.Now()
 	dr, err := digitize.Run(ctx, cal, opt.Digitize)
+	if err == nil {
+		opt.ByHand.apply(cal, dr, opt.Digitize.RateHz)
+	}
 	o.Timings.Digitize = time.Since(t)
 	if err != nil {
 		return o, fmt.Errorf("%s: %w", pg.Path, err)
 	}
 	o.Digitized = dr
 	FillProvenance(dr.Record, pg, cal, dr)
+	if err := ctx.Err(); err != nil {
+		return o, err
+	}
+	progress("measuring", 0.9)
 	o.Remeasure(opt.Measure)
 	return o, nil
 }

@@ -14,10 +14,9 @@ import (
 	"tracelift/record"
 )
 
-func init() { pipeline.SetPDFWriter(Write) }
-
 // Write renders the printable summary of a pipeline outcome on the paper
-// named in opt ("a4" when empty). It is the pipeline's PDF writer.
+// named in opt ("a4" when empty). It is the pipeline's PDF writer: pass it
+// as pipeline.ExportOptions.PDF.
 func Write(w io.Writer, o *pipeline.Outcome, opt pipeline.ExportOptions) error {
 	s, err := FromOutcome(o, opt)
 	if err != nil {

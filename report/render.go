@@ -269,6 +269,22 @@ func (c *canvas) leads(s *Summary) {
 	t0 := clockStart(rec)
 	sx := gx + pulseMM
 	c.pdf.ClipRect(gx, gy, gridWMM, gridHMM, false)
+	if lone := loneLead(rec); lone != "" {
+		// A single-lead strip runs across the rows, 10 s a row, instead
+		// of one 2.5 s cell among eleven empty ones.
+		for row := 0; row < gridRows; row++ {
+			want := t0 + float64(row)*stripS
+			st := chooseStretch(rec, lone, want, stripS)
+			if !st.ok || (row > 0 && st.t0 < want-0.5) { // the strip has ended (chooseStretch would go back)
+				break
+			}
+			base := gy + rowMM*float64(row) + rowMM*baseFrac
+			c.pulse(gx, base)
+			c.stretch(rec, st, sx, base, fmt.Sprintf("%s  %.0f–%.0f s", lone, st.t0-t0, st.t1-t0))
+		}
+		gridRowsDone(c)
+		return
+	}
 	for row := 0; row < gridRows; row++ {
 		base := gy + rowMM*float64(row) + rowMM*baseFrac
 		c.pulse(gx, base)
@@ -290,6 +306,13 @@ func (c *canvas) leads(s *Summary) {
 			}
 		}
 	}
+	gridRowsDone(c)
+}
+
+// gridRowsDone ends the lead block: the clip, and the line of settings
+// under it.
+func gridRowsDone(c *canvas) {
+	gx, gy := c.l.gridX, c.l.gridY
 	c.pdf.ClipEnd()
 	c.font("", 7)
 	c.color(colMuted)
@@ -398,9 +421,17 @@ func (c *canvas) findings(s *Summary) {
 		c.pdf.Line(x0, y+1.2, x0+74, y+1.2)
 		y += rowH
 	}
-	// Column 2: the hexaxial diagram and its legend.
+	// Column 2: the hexaxial diagram and its legend; a single lead has
+	// no frontal axis, and no empty wheel is drawn for it.
 	hx := x0 + 78
 	c.heading(hx, y0, "Frontal axes")
+	if loneLead(s.Record) != "" {
+		c.font("I", 8)
+		c.color(colMuted)
+		c.text(hx, y0+6, "not measurable from a single lead", 'L')
+		c.quality(x0+198, y0, x0+gridWMM, y1, s)
+		return
+	}
 	r := math.Min(18, (y1-y0-12)/2)
 	cx, cy := hx+4+r+6, y0+5.5+r
 	c.hexaxial(cx, cy, r, s.Axes)

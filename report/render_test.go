@@ -243,3 +243,33 @@ func TestUnusualText(t *testing.T) {
 		}
 	}
 }
+
+// A single-lead strip (lead II of the PTB record s0010_re, its first 10 s)
+// is drawn across the row as a strip, with no empty cells and no empty
+// axis wheel; poppler's pdftotext reads the page back.
+func TestSingleLeadPage(t *testing.T) {
+	bin := needTool(t, "pdftotext")
+	full := readPTB(t)
+	ii := full.Lead("II").Resample(500)
+	ii.MV = ii.MV[:5000]
+	rec := &record.Record{Name: "strip", Signals: []record.Signal{ii}}
+	path := renderTo(t, summaryOf(rec), "a4")
+	out, err := exec.Command(bin, "-layout", path, "-").Output()
+	if err != nil {
+		t.Fatalf("pdftotext: %v", err)
+	}
+	txt := strings.Join(strings.Fields(string(out)), " ")
+	for _, want := range []string{"II 0–10 s", "not measurable from a single lead", "Not a diagnostic device."} {
+		if !strings.Contains(txt, want) {
+			t.Errorf("pdftotext output lacks %q:\n%s", want, txt)
+		}
+	}
+	if n := strings.Count(txt, "II 0–10 s"); n != 1 {
+		t.Errorf("the 10 s strip is drawn %d times", n)
+	}
+	for _, not := range []string{"not recorded", "aVR -150°", "aVF +90°"} {
+		if strings.Contains(txt, not) {
+			t.Errorf("the single-lead page shows %q", not)
+		}
+	}
+}

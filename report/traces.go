@@ -179,3 +179,12 @@ func pathMM(s *record.Signal, t0, t1, x0, y0 float64) [][][2]float64 {
 	flush()
 	return out
 }
+
+// loneLead returns the name of the record's only lead, "" when it holds
+// none or several.
+func loneLead(rec *record.Record) string {
+	if rec == nil || len(rec.Signals) != 1 {
+		return ""
+	}
+	return record.CanonicalLead(rec.Signals[0].Lead)
+}

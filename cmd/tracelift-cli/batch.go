@@ -25,6 +25,7 @@ import (
 	"tracelift/calib"
 	"tracelift/digitize"
 	"tracelift/pipeline"
+	"tracelift/report"
 )
 
 func init() {
@@ -249,7 +250,7 @@ func digitizeOne(ctx context.Context, c *commonFlags, formats []string, in, dir,
 		return fr, namingFile(err, in)
 	}
 	fr.Page = pipeline.PageSource(o).Page
-	if _, err := pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper}); err != nil {
+	if _, err := pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper, PDF: report.Write}); err != nil {
 		return fr, namingFile(err, in)
 	}
 	b, err := json.Marshal(o)

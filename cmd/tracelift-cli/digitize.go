@@ -14,6 +14,7 @@ import (
 	"tracelift/digitize"
 	"tracelift/pipeline"
 	"tracelift/record/ledger"
+	"tracelift/report"
 )
 
 func init() {
@@ -157,7 +158,7 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1
 	}
-	files, err := pipeline.Export(o, c.out, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper})
+	files, err := pipeline.Export(o, c.out, stem, formats, pipeline.ExportOptions{RateHz: c.rate, Paper: c.paper, PDF: report.Write})
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli digitize:", namingFile(err, pos[0]))
 		return 1

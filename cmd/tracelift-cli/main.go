@@ -8,7 +8,6 @@ import (
 	"io"
 	"os"
 	"sort"
-	_ "tracelift/report" // installs the PDF summary writer
 )
 
 // command is one subcommand. run returns the process exit code:

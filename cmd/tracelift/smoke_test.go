@@ -7,8 +7,13 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
+
+	"tracelift/gui/model"
+	"tracelift/record"
+	"tracelift/samples"
 )
 
 // TestWindowSmoke builds the app, starts it on the demo under a virtual X
@@ -77,4 +82,81 @@ func variance(img image.Image) float64 {
 	}
 	m := s / n
 	return s2/n - m*m
+}
+
+// TestWindowUndoKeys presses the undo and redo keys on the real window
+// (xdotool under Xvfb) and watches the project file the app keeps beside
+// the image: the app opens the demo printout with two saved corrections,
+// Ctrl+Z leaves one, Ctrl+Shift+Z brings the second back, and Ctrl+Z then
+// Ctrl+Y do the same. Skipped with -short or without xvfb-run and xdotool.
+func TestWindowUndoKeys(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds and runs the app")
+	}
+	xvfb, err := exec.LookPath("xvfb-run")
+	if err != nil {
+		t.Skip("xvfb-run not installed")
+	}
+	if _, err := exec.LookPath("xdotool"); err != nil {
+		t.Skip("xdotool not installed")
+	}
+	dir := t.TempDir()
+	bin := filepath.Join(dir, "tracelift")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		t.Fatalf("build: %v\n%s", err, out)
+	}
+	demo := samples.DefaultDemo()
+	img := filepath.Join(dir, "page.png")
+	if err := os.WriteFile(img, demo.Data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	sha, err := model.FileSHA256(img)
+	if err != nil {
+		t.Fatal(err)
+	}
+	proj := model.ProjectPath(img)
+	if err := model.SaveProjectFile(proj, &model.Project{Version: model.ProjectVersion, ImageSHA256: sha,
+		Corrections: []record.Correction{
+			{Kind: record.CorrBaseline, Lead: "II", OffsetMV: 0.1},
+			{Kind: record.CorrBaseline, Lead: "V1", OffsetMV: -0.1},
+		}}); err != nil {
+		t.Fatal(err)
+	}
+	// A script inside the virtual display: start the app, wait for its
+	// window to show the page, press the keys, give each time to land.
+	script := filepath.Join(dir, "keys.sh")
+	counts := filepath.Join(dir, "counts.txt")
+	os.WriteFile(script, []byte(`#!/bin/sh
+"$1" --quit-after 90s "$2" &
+pid=$!
+for i in $(seq 1 120); do
+  id=$(xdotool search --name "page[.]png$" 2>/dev/null | tail -1)
+  [ -n "$id" ] && break
+  sleep 0.5
+done
+[ -z "$id" ] && { echo "no window"; kill $pid; exit 1; }
+sleep 2
+xdotool windowfocus --sync $id 2>/dev/null || true
+count() { grep -o '"kind"' "$2.tracelift.json" | wc -l >> "$3"; }
+for k in ctrl+z ctrl+shift+z ctrl+z ctrl+y; do
+  xdotool key --clearmodifiers $k
+  sleep 1.5
+  count "$1" "$2" "$3"
+done
+kill $pid
+wait $pid 2>/dev/null
+exit 0
+`), 0o755)
+	ctx, cancel := context.WithTimeout(context.Background(), 150*time.Second)
+	defer cancel()
+	cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1366x768x24", "sh", script, bin, img, counts)
+	cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"))
+	out, err := cmd.CombinedOutput()
+	if err != nil {
+		t.Fatalf("%v\n%s", err, out)
+	}
+	got, _ := os.ReadFile(counts)
+	if want := "1\n2\n1\n2\n"; strings.Join(strings.Fields(string(got)), "\n")+"\n" != want {
+		t.Fatalf("corrections saved after Ctrl+Z, Ctrl+Shift+Z, Ctrl+Z, Ctrl+Y: %q, want %q\n%s", got, want, out)
+	}
 }

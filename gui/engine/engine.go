@@ -1,13 +1,18 @@
 // Package engine connects the app's model to the real pipeline: reading a
-// printout (calib, digitize), re-deriving signals after a box move,
-// measuring (axis) and exporting (pipeline.Export). It has no fyne import.
+// printout through the pipeline's run path (pipeline.ProcessPage),
+// re-deriving signals after a box move, measuring (axis) and exporting what
+// the screen shows (pipeline.Export, with report's PDF writer). It has no
+// fyne import.
 package engine
 
 import (
 	"context"
 	"errors"
 	"fmt"
+	"image"
 	"math"
+
+	"github.com/disintegration/imaging"
 
 	"tracelift/axis"
 	"tracelift/calib"
@@ -15,6 +20,7 @@ import (
 	"tracelift/gui/model"
 	"tracelift/pipeline"
 	"tracelift/record"
+	"tracelift/report"
 	"tracelift/samples"
 )
 
@@ -24,13 +30,13 @@ var Layouts = []string{"3x4", "3x4+1", "3x4+3", "6x2", "12x1", "1x1"}
 // Backend is the pipeline behind the model.
 type Backend struct {
 	Options pipeline.Options // base options; the user's settings go on top
+	// ExportOptions for the writers; the PDF writer defaults to report.Write.
+	ExportOptions pipeline.ExportOptions
 }
 
 // state is what the model carries opaquely for us.
 type state struct {
-	page *calib.Page
-	cal  *calib.Result
-	dr   *digitize.Result
+	o *pipeline.Outcome // as read, before any correction
 }
 
 // Demo returns the default embedded demo printout as a source.
@@ -43,22 +49,28 @@ func Demo() (model.Source, error) {
 }
 
 // Analyze reads the source with the user's settings on top of the base
-// options.
+// options, through the pipeline's one run path (pipeline.ProcessPage).
 func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Settings, p model.Progress) (*model.Analysis, error) {
 	opt := b.Options
 	if s.PxPerMM > 0 {
 		opt.Calib.UserPxPerMM, opt.Calib.ForceUser = s.PxPerMM, true
 	}
+	// Typed gain and speed are the user's decision: they win over the
+	// page's pulses and printed text.
 	if s.GainMMPerMV > 0 {
-		opt.Calib.StatedGainMMPerMV = s.GainMMPerMV
+		opt.ByHand.GainMMPerMV = s.GainMMPerMV
 	}
 	if s.SpeedMMPerS > 0 {
-		opt.Calib.StatedSpeedMMPerS = s.SpeedMMPerS
+		opt.ByHand.SpeedMMPerS = s.SpeedMMPerS
 	}
 	if s.Layout != "" {
 		opt.Digitize.Layout = s.Layout
 	}
 	opt.Load.Page = s.Page
+	if p == nil {
+		p = func(string, float64) {}
+	}
+	opt.Progress = p
 	p("opening", 0.02)
 	var pg *calib.Page
 	var err error
@@ -73,21 +85,12 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	p("finding the grid and scale", 0.15)
-	cal, err := calib.Detect(ctx, pg, opt.Calib)
+	pg.Image = Orient(pg.Image, s.QuarterTurns, s.Mirror)
+	o, err := pipeline.ProcessPage(ctx, pg, opt)
 	if err != nil {
 		return nil, err
 	}
-	if err := ctx.Err(); err != nil {
-		return nil, err
-	}
-	p("tracing the leads", 0.5)
-	dr, err := digitize.Run(ctx, cal, opt.Digitize)
-	if err != nil {
-		return nil, err
-	}
-	p("measuring", 0.9)
-	pipeline.FillProvenance(dr.Record, pg, cal, dr)
+	cal, dr := o.Calib, o.Digitized
 	a := &model.Analysis{
 		Name: src.Name, ImageSHA256: pg.SHA256,
 		Image: cal.Rectified, PxPerMM: cal.PxPerMM, ImagePxPerMM: cal.PxPerMMX,
@@ -98,7 +101,7 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 		Raw:       dr.Record,
 		Warnings:  cal.Warnings,
 		PageCount: max(pg.PageCount, 1),
-		Handle:    &state{page: pg, cal: cal, dr: dr},
+		Handle:    &state{o: o},
 	}
 	if a.Name == "" {
 		a.Name = pg.Path
@@ -120,6 +123,33 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 	return a, nil
 }
 
+// Orient turns img by quarter turns clockwise (any integer; taken modulo
+// 4) and then mirrors it left to right when mirror is set: a sideways fax
+// or a scan made through the back of the sheet.
+func Orient(img image.Image, quarterTurns int, mirror bool) image.Image {
+	q := ((quarterTurns % 4) + 4) % 4
+	if q == 0 && !mirror {
+		return img
+	}
+	var out *image.NRGBA
+	switch q {
+	case 1:
+		out = imaging.Rotate270(img) // imaging turns counter-clockwise
+	case 2:
+		out = imaging.Rotate180(img)
+	case 3:
+		out = imaging.Rotate90(img)
+	}
+	if mirror {
+		if out != nil {
+			out = imaging.FlipH(out)
+		} else {
+			out = imaging.FlipH(img)
+		}
+	}
+	return out
+}
+
 func trimSign(s string) string {
 	if len(s) > 0 && s[0] == '-' {
 		return s[1:]
@@ -138,22 +168,23 @@ func (b *Backend) Resignal(a *model.Analysis, panels []model.Panel) (*record.Rec
 	if !ok || st == nil {
 		return nil, nil, errors.New("engine: the reading is incomplete")
 	}
-	if len(panels) != len(st.dr.Panels) {
-		return nil, nil, fmt.Errorf("engine: %d panels given, the reading has %d", len(panels), len(st.dr.Panels))
+	dr, cal := st.o.Digitized, st.o.Calib
+	if len(panels) != len(dr.Panels) {
+		return nil, nil, fmt.Errorf("engine: %d panels given, the reading has %d", len(panels), len(dr.Panels))
 	}
 	dp := make([]digitize.Panel, len(panels))
 	for i, p := range panels {
-		dp[i] = st.dr.Panels[i]
+		dp[i] = dr.Panels[i]
 		dp[i].Box, dp[i].BaselineY = p.Box, p.BaselineY
 	}
-	trs := make([]digitize.Trace, len(st.dr.Traces))
-	for i, tr := range st.dr.Traces {
+	trs := make([]digitize.Trace, len(dr.Traces))
+	for i, tr := range dr.Traces {
 		c := tr
 		c.Y = append([]float64(nil), tr.Y...)
 		// A moved box cuts its trace to the box's new time span. The
 		// trace may stray above or below its box (printers let it), so
 		// only x is cut; an unmoved box keeps the digitizer's trace as is.
-		if tr.Panel >= 0 && tr.Panel < len(dp) && dp[tr.Panel].Box != st.dr.Panels[tr.Panel].Box {
+		if tr.Panel >= 0 && tr.Panel < len(dp) && dp[tr.Panel].Box != dr.Panels[tr.Panel].Box {
 			box := dp[tr.Panel].Box
 			for k := range c.Y {
 				x := float64(tr.X0+k) + 0.5
@@ -165,9 +196,9 @@ func (b *Backend) Resignal(a *model.Analysis, panels []model.Panel) (*record.Rec
 		trs[i] = c
 	}
 	rate := b.Options.Digitize.RateHz
-	rec := digitize.Signals(st.cal, dp, trs, rate)
-	rec.Name = st.dr.Record.Name
-	rec.Provenance = st.dr.Record.Provenance
+	rec := digitize.Signals(cal, dp, trs, rate)
+	rec.Name = dr.Record.Name
+	rec.Provenance = dr.Record.Provenance
 	return rec, panels, nil
 }
 
@@ -235,15 +266,50 @@ func fmtDeg(v float64) string {
 	return fmt.Sprintf("%.0f°", v)
 }
 
-// Export writes the corrected record with its findings.
-func (b *Backend) Export(a *model.Analysis, rec *record.Record, dir, stem string, formats []string) ([]string, error) {
+// Export writes what the screen shows: the corrected record, the panels
+// where the user put them and the findings measured after the
+// corrections, through pipeline.Export with the PDF writer given.
+func (b *Backend) Export(a *model.Analysis, job model.ExportJob) ([]string, error) {
+	o, err := b.Outcome(a, job)
+	if err != nil {
+		return nil, err
+	}
+	eo := b.ExportOptions
+	if eo.PDF == nil {
+		eo.PDF = report.Write
+	}
+	return pipeline.Export(o, job.Dir, job.Stem, job.Formats, eo)
+}
+
+// Outcome is the pipeline outcome of what the screen shows: the reading
+// with the corrected record, the moved panels and the findings of job.
+func (b *Backend) Outcome(a *model.Analysis, job model.ExportJob) (*pipeline.Outcome, error) {
 	st, ok := a.Handle.(*state)
 	if !ok || st == nil {
 		return nil, errors.New("engine: the reading is incomplete")
 	}
-	dr := *st.dr
-	dr.Record = rec
-	o := &pipeline.Outcome{Page: st.page, Calib: st.cal, Digitized: &dr}
-	o.Remeasure(b.Options.Measure)
-	return pipeline.Export(o, dir, stem, formats, pipeline.ExportOptions{})
+	if job.Record == nil {
+		return nil, errors.New("engine: nothing to export")
+	}
+	o := *st.o
+	dr := *o.Digitized
+	dr.Record = job.Record
+	if len(job.Panels) == len(dr.Panels) {
+		dr.Panels = append([]digitize.Panel(nil), dr.Panels...)
+		for i, p := range job.Panels {
+			dr.Panels[i].Box, dr.Panels[i].BaselineY = p.Box, p.BaselineY
+		}
+	}
+	o.Digitized = &dr
+	o.Findings, o.MeasureErr = nil, job.MeasureErr
+	if job.Summary != nil {
+		f, ok := job.Summary.Detail.(*axis.Findings)
+		if !ok {
+			return nil, errors.New("engine: the findings on screen are not the engine's")
+		}
+		o.Findings = f
+	} else if o.MeasureErr == nil {
+		o.MeasureErr = errors.New("not measured")
+	}
+	return &o, nil
 }

@@ -198,6 +198,14 @@ func (m *Model) Redo() bool {
 	return true
 }
 
+// ExportJob returns what an export of the open printout writes: the
+// corrected record, the panels where the boxes are now and the findings on
+// screen.
+func (m *Model) ExportJob(dir, stem string, formats []string) ExportJob {
+	return ExportJob{Record: m.rec, Panels: append([]Panel(nil), m.basePanels...), Summary: m.sum,
+		MeasureErr: m.measureErr, Dir: dir, Stem: stem, Formats: append([]string(nil), formats...)}
+}
+
 // SetProjectPath changes where corrections are saved ("" stops saving).
 func (m *Model) SetProjectPath(p string) { m.projectPath = p }
 

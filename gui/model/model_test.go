@@ -131,7 +131,7 @@ func (f *fakeBackend) Measure(rec *record.Record, q map[string]float64) (*Summar
 	return s, nil
 }
 
-func (f *fakeBackend) Export(a *Analysis, rec *record.Record, dir, stem string, formats []string) ([]string, error) {
+func (f *fakeBackend) Export(a *Analysis, job ExportJob) ([]string, error) {
 	return nil, errors.New("fake: no export")
 }
 

@@ -183,6 +183,70 @@ func (m *Model) MoveBox(i int, box [4]float64) error {
 		Note: "panel " + strconv.Itoa(i)})
 }
 
+// Erased returns the stretches of panel i that an Erase correction made
+// gaps, as column ranges [x0, x1] in image px within the panel, so the
+// view can draw them as erased rather than as missing ink.
+func (m *Model) Erased(i int) [][2]float64 {
+	if m.a == nil || i < 0 || i >= len(m.views) {
+		return nil
+	}
+	labels, _ := panelLabels(m.basePanels)
+	var out [][2]float64
+	v := m.views[i]
+	walk(m.corrs, labels, func(c *record.Correction, cur []string) {
+		if c.Kind != record.CorrErase || cur[i] != record.CanonicalLead(c.Lead) {
+			return
+		}
+		t0, t1 := math.Max(c.StartS, v.T0S), math.Min(c.EndS, v.T1S)
+		if t1 > t0 {
+			out = append(out, [2]float64{m.XAt(i, t0), m.XAt(i, t1)})
+		}
+	})
+	return out
+}
+
+// Overlap is a neighbour that a moved box would cover.
+type Overlap struct {
+	Panel int     // index of the neighbour
+	Lead  string  // its lead
+	Share float64 // fraction of the neighbour's box covered, 0..1
+}
+
+// Overlaps lists the panels other than i that box would cover by at least
+// a tenth of their area more than panel i's box covers them now (boxes of
+// a printout may touch or overlap a little as printed). The trace under a
+// covered stretch would be read into both leads.
+func (m *Model) Overlaps(i int, box [4]float64) []Overlap {
+	if i < 0 || i >= len(m.views) {
+		return nil
+	}
+	cur := m.views[i].Box
+	var out []Overlap
+	for j, v := range m.views {
+		if j == i {
+			continue
+		}
+		area := (v.Box[2] - v.Box[0]) * (v.Box[3] - v.Box[1])
+		if !(area > 0) {
+			continue
+		}
+		grow := (overlapArea(box, v.Box) - overlapArea(cur, v.Box)) / area
+		if grow >= 0.1 {
+			out = append(out, Overlap{Panel: j, Lead: v.Lead, Share: overlapArea(box, v.Box) / area})
+		}
+	}
+	return out
+}
+
+func overlapArea(a, b [4]float64) float64 {
+	w := math.Min(a[2], b[2]) - math.Max(a[0], b[0])
+	h := math.Min(a[3], b[3]) - math.Max(a[1], b[1])
+	if w <= 0 || h <= 0 {
+		return 0
+	}
+	return w * h
+}
+
 // Assign says panel i shows lead newLead (swapping names with the panel
 // that had it).
 func (m *Model) Assign(i int, newLead string) error {

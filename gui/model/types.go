@@ -33,6 +33,11 @@ type Settings struct {
 	SpeedMMPerS float64 `json:"speed_mm_per_s,omitempty"` // 0 = as found (25 when nothing says otherwise)
 	Layout      string  `json:"layout,omitempty"`         // "" = found automatically
 	Page        int     `json:"page,omitempty"`           // 0-based page of a multi-page TIFF or PDF
+	// QuarterTurns turns the picture clockwise before it is read (0..3);
+	// Mirror then flips it left to right (a sideways fax, a scan through
+	// the back of the sheet).
+	QuarterTurns int  `json:"quarter_turns,omitempty"`
+	Mirror       bool `json:"mirror,omitempty"`
 }
 
 // Panel is one drawn lead on the printout as the model shows it.
@@ -84,9 +89,19 @@ type Backend interface {
 	Resignal(a *Analysis, panels []Panel) (*record.Record, []Panel, error)
 	// Measure measures a record. quality holds per-lead confidences.
 	Measure(rec *record.Record, quality map[string]float64) (*Summary, error)
-	// Export writes the chosen formats of the corrected record and its
-	// measurements into dir as <stem>.<ext>.
-	Export(a *Analysis, rec *record.Record, dir, stem string, formats []string) ([]string, error)
+	// Export writes what job holds (the screen's corrected record, panels
+	// and findings) in the chosen formats into job.Dir as <stem>.<ext>.
+	Export(a *Analysis, job ExportJob) ([]string, error)
+}
+
+// ExportJob is what an export writes: exactly what the screen shows.
+type ExportJob struct {
+	Record     *record.Record // corrected
+	Panels     []Panel        // where the boxes are now (the reading's order)
+	Summary    *Summary       // measured after the corrections; nil when not measured
+	MeasureErr error          // why not
+	Dir, Stem  string
+	Formats    []string
 }
 
 // Value is one measurement with its uncertainty (NaN = not measured).
