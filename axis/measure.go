@@ -177,7 +177,9 @@ func Measure(rec *record.Record, opt Options) (*Findings, error) {
 	if rrLead >= 0 {
 		m.rrFrom = cands[rrLead].d
 	}
+	empty, found := m.recoverMissed()
 	m.rhythm(f)
+	rhythmNote(f, empty, found)
 	if err := m.templates(); err != nil {
 		return nil, err
 	}
@@ -185,6 +187,8 @@ func Measure(rec *record.Record, opt Options) (*Findings, error) {
 	m.measureLeads(f)
 	m.axes(f)
 	m.precordial(f)
+	m.uncertainty(f, opt.Picture)
+	borderlines(f)
 	flags(f)
 	return f, nil
 }

@@ -1,0 +1,57 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"strings"
+
+	"tracelift/axis"
+	"tracelift/coverage"
+	"tracelift/record"
+	"tracelift/record/wfdb"
+)
+
+func init() {
+	register("coverage", "check the stated 90 % intervals against the truth on rendered printouts (and fit the picture-error model)", cmdCoverage)
+}
+
+func cmdCoverage(args []string, stdout, stderr io.Writer) int {
+	fs := flag.NewFlagSet("coverage", flag.ContinueOnError)
+	n := fs.Int("cases", 60, "number of rendered printouts")
+	from := fs.Int("from", 0, "first case of the suite")
+	seed := fs.Int64("seed", 1, "seed of the suite (the bench's suite)")
+	conds := fs.String("conditions", "clean,rotated,photocopy,photo,fax", "conditions to cycle through")
+	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
+	fit := fs.Bool("fit", false, "also fit the picture-error model to 90 % coverage on these cases and print it")
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: tracelift-cli coverage [options]")
+		fs.PrintDefaults()
+	}
+	if _, code, ok := parseCommand(fs, args, stderr); !ok {
+		return code
+	}
+	if *n < 1 {
+		return usageError(stderr, "coverage", "--cases must be at least 1")
+	}
+	var condList []string
+	for _, c := range strings.Split(*conds, ",") {
+		condList = append(condList, strings.TrimSpace(c))
+	}
+	var real *record.Record
+	if *ptb != "" {
+		r, err := wfdb.ReadRecord(*ptb)
+		if err != nil {
+			fmt.Fprintf(stderr, "coverage: %v (continuing with synthetic records only)\n", err)
+		} else {
+			real = r
+		}
+	}
+	cases := coverage.Run(*seed, *from, *n, condList, real, nil, stderr)
+	coverage.Table(stdout, cases, condList)
+	if *fit {
+		m := coverage.Fit(cases, axis.DefaultPictureModel, 0.90)
+		fmt.Fprintf(stdout, "\nfitted picture model (90 %% on these cases): %+v\n", m)
+	}
+	return 0
+}
