@@ -211,6 +211,10 @@ type Findings struct {
 	// ("heart_rate_bpm", "pr", "qrs", "qt", "qtc_bazett", "qrs_deg",
 	// "p_deg", "t_deg"); empty for a record read from a file.
 	PictureSD map[string]Num `json:"picture_sd,omitempty"`
+	// SpreadSD is the engine's own share in the intervals: the standard
+	// error over beats, the delineation's threshold sensitivity and the
+	// 2 ms grid step (one standard deviation), keyed like PictureSD.
+	SpreadSD  map[string]Num `json:"spread_sd,omitempty"`
 	Caution   string         `json:"caution"`
 	Templates []Template     `json:"-"`
 }

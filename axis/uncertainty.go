@@ -76,13 +76,13 @@ func (p Picture) model() PictureModel {
 
 // ci90 returns [v − h, v + h] with h = Z90·√(sd² + pic²); sd and pic
 // that are not measured count as 0. Unmeasured v gives [null, null].
-func ci90(v, sd Num, pic float64) [2]Num {
+func ci90(v Num, sd float64, pic float64) [2]Num {
 	if !v.OK() {
 		return [2]Num{NaN(), NaN()}
 	}
 	s := 0.0
-	if sd.OK() {
-		s = float64(sd)
+	if !math.IsNaN(sd) && !math.IsInf(sd, 0) {
+		s = sd
 	}
 	if math.IsNaN(pic) {
 		pic = 0
@@ -101,37 +101,55 @@ func (m *measurer) uncertainty(f *Findings, pic Picture) {
 	k := pic.factor(qs / float64(len(m.rec.Signals)))
 	md := pic.model()
 	f.PictureSD = map[string]Num{}
+	f.SpreadSD = map[string]Num{}
+	if m.spread == nil {
+		m.spread = map[string]float64{}
+	}
 	iv := &f.IntervalsMS
 	put := func(name string, v Num, sd float64) float64 {
 		if !v.OK() {
 			return math.NaN()
 		}
-		f.PictureSD[name] = Num(sd)
+		if s, ok := m.spread[name]; ok && !math.IsNaN(s) {
+			f.SpreadSD[name] = Num(s)
+		}
+		if pic.Digitized {
+			f.PictureSD[name] = Num(sd)
+		}
 		return sd
 	}
-	// Heart rate: the standard error of the mean rate over the beats.
-	hrSE := NaN()
-	if n := len(f.Beats) - 1; n >= 2 && f.HeartRateSD.OK() {
-		hrSE = f.HeartRateSD / Num(math.Sqrt(float64(n)))
+	sp := func(name string) float64 {
+		if s, ok := m.spread[name]; ok {
+			return s
+		}
+		return math.NaN()
 	}
-	f.HeartRateCI90 = ci90(f.HeartRateBPM, hrSE, put("heart_rate_bpm", f.HeartRateBPM, k*md.HRPercent/100*float64(f.HeartRateBPM)))
-	iv.PRCI90 = ci90(iv.PR, iv.PRSD, put("pr", iv.PR, k*md.PRMS))
-	iv.QRSCI90 = ci90(iv.QRS, iv.QRSSD, put("qrs", iv.QRS, k*md.QRSMS))
-	iv.QTCI90 = ci90(iv.QT, iv.QTSD, put("qt", iv.QT, k*md.QTMS))
+	// Heart rate: the standard error of the mean rate over the beats.
+	m.spread["heart_rate_bpm"] = math.NaN()
+	if n := len(f.Beats) - 1; n >= 2 && f.HeartRateSD.OK() {
+		m.spread["heart_rate_bpm"] = float64(f.HeartRateSD) / math.Sqrt(float64(n))
+	}
+	f.HeartRateCI90 = ci90(f.HeartRateBPM, sp("heart_rate_bpm"), put("heart_rate_bpm", f.HeartRateBPM, k*md.HRPercent/100*float64(f.HeartRateBPM)))
+	iv.PRCI90 = ci90(iv.PR, sp("pr"), put("pr", iv.PR, k*md.PRMS))
+	iv.QRSCI90 = ci90(iv.QRS, sp("qrs"), put("qrs", iv.QRS, k*md.QRSMS))
+	iv.QTCI90 = ci90(iv.QT, sp("qt"), put("qt", iv.QT, k*md.QTMS))
 	qtcPic := math.NaN()
 	if iv.RR.OK() && iv.RR > 0 {
 		qtcPic = k * md.QTMS / math.Sqrt(float64(iv.RR)/1000)
 	}
-	iv.QTcBazettCI90 = ci90(iv.QTcBazett, iv.QTcSD, put("qtc_bazett", iv.QTcBazett, qtcPic))
+	iv.QTcBazettCI90 = ci90(iv.QTcBazett, sp("qtc_bazett"), put("qtc_bazett", iv.QTcBazett, qtcPic))
 
 	a := &f.Axis
-	axisCI := func(name string, v, sd Num, w wave, area float64) [2]Num {
-		p := math.Min(180, k*area*m.unitAngleSD(w))
-		return ci90(v, sd, put(name, v, p))
+	axisCI := func(name string, v Num, w wave, area float64) [2]Num {
+		p := 0.0
+		if k > 0 {
+			p = math.Min(180, k*area*m.unitAngleSD(w))
+		}
+		return ci90(v, sp(name), put(name, v, p))
 	}
-	a.QRSDegCI90 = axisCI("qrs_deg", a.QRSDeg, a.QRSDegSD, waveQRS, md.QRSAreaMVMS)
-	a.PDegCI90 = axisCI("p_deg", a.PDeg, a.PDegSD, waveP, md.PAreaMVMS)
-	a.TDegCI90 = axisCI("t_deg", a.TDeg, a.TDegSD, waveT, md.TAreaMVMS)
+	a.QRSDegCI90 = axisCI("qrs_deg", a.QRSDeg, waveQRS, md.QRSAreaMVMS)
+	a.PDegCI90 = axisCI("p_deg", a.PDeg, waveP, md.PAreaMVMS)
+	a.TDegCI90 = axisCI("t_deg", a.TDeg, waveT, md.TAreaMVMS)
 }
 
 // unitAngleSD is the least-squares axis's standard deviation (degrees)

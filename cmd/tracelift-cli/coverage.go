@@ -4,11 +4,13 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"os"
 	"strings"
 
 	"tracelift/axis"
 	"tracelift/coverage"
 	"tracelift/record"
+	"tracelift/record/atomic"
 	"tracelift/record/wfdb"
 )
 
@@ -24,6 +26,8 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 	conds := fs.String("conditions", "clean,rotated,photocopy,photo,fax", "conditions to cycle through")
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
 	fit := fs.Bool("fit", false, "also fit the picture-error model to 90 % coverage on these cases and print it")
+	csvOut := fs.String("csv", "", "also write one row per case and measurement to this CSV file")
+	csvIn := fs.String("from-csv", "", "read the cases from a CSV file written by --csv instead of rendering them")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: tracelift-cli coverage [options]")
 		fs.PrintDefaults()
@@ -47,7 +51,29 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 			real = r
 		}
 	}
-	cases := coverage.Run(*seed, *from, *n, condList, real, nil, stderr)
+	var cases []coverage.Case
+	if *csvIn != "" {
+		f, err := os.Open(*csvIn)
+		if err != nil {
+			fmt.Fprintf(stderr, "tracelift-cli coverage: %v\n", err)
+			return 1
+		}
+		cases, err = coverage.ReadCSV(f)
+		f.Close()
+		if err != nil {
+			fmt.Fprintf(stderr, "tracelift-cli coverage: %s: %v\n", *csvIn, err)
+			return 1
+		}
+	} else {
+		cases = coverage.Run(*seed, *from, *n, condList, real, nil, stderr)
+	}
+	if *csvOut != "" {
+		err := atomic.WriteFile(*csvOut, func(w io.Writer) error { return coverage.WriteCSV(w, cases) }, 0o644)
+		if err != nil {
+			fmt.Fprintf(stderr, "tracelift-cli coverage: %v\n", err)
+			return 1
+		}
+	}
 	coverage.Table(stdout, cases, condList)
 	if *fit {
 		m := coverage.Fit(cases, axis.DefaultPictureModel, 0.90)
