@@ -171,14 +171,17 @@ func flags(f *Findings) {
 	}
 	// Poor R-wave progression: R in V3 of 0.3 mV or less with R not
 	// growing from V1 to V3 (common practice, from memory). It is read
-	// from the same amplitudes as the transition and only raised when
-	// the transition agrees (R/|S| still below 1 at V3, position above
-	// 3.5): a transition at V3 means R has already outgrown S there.
-	if rp := f.RProgression; len(rp) == 6 && rp[0].OK() && rp[2].OK() && rp[2] <= 0.3 && rp[2] <= rp[0]+0.05 &&
-		f.TransitionAt.OK() && f.TransitionAt > 3.5 {
-		add("poor_r_progression", "electrode position and body build change R-wave progression", "poor R-wave progression: R V1 %.2f mV, R V3 %.2f mV", float64(rp[0]), float64(rp[2]))
+	// from the same amplitudes as the transition (R/|S| across V1..V6), so
+	// the two are said together: it is only raised with a late
+	// transition, and then in one flag; beside a normal or early
+	// transition a small R in V3 is no finding of its own.
+	prwp := false
+	if rp := f.RProgression; len(rp) == 6 && rp[0].OK() && rp[2].OK() && rp[2] <= 0.3 && rp[2] <= rp[0]+0.05 && f.TransitionCl == "late" {
+		prwp = true
+		add("poor_r_progression", "electrode position and body build change R-wave progression",
+			"poor R-wave progression with a late precordial transition (%s): R V1 %.2f mV, R V3 %.2f mV", f.Transition, float64(rp[0]), float64(rp[2]))
 	}
-	if f.TransitionCl == "late" || f.TransitionCl == "early" {
+	if !prwp && (f.TransitionCl == "late" || f.TransitionCl == "early") {
 		add("transition_"+f.TransitionCl, "electrode position changes the transition", "%s precordial transition (%s)", f.TransitionCl, f.Transition)
 	}
 

@@ -508,7 +508,7 @@ func TestOutputsStayInside(t *testing.T) {
 func TestSummaryCSV(t *testing.T) {
 	t.Parallel()
 	f := NoFindings()
-	f.HeartRateBPM, f.Transition = 72.123456, "V3/V4"
+	f.HeartRateBPM, f.Transition, f.Verdict = 72.123456, "V3/V4", "care"
 	rows := []Row{
 		{File: "z.png", Status: StatusOK, Findings: f, Seconds: 2.5},
 		{File: "a,b.png", Status: StatusFailed, Error: "calib: \"x\" failed\nsecond line", Findings: NoFindings(), Seconds: 0.1},
@@ -519,15 +519,18 @@ func TestSummaryCSV(t *testing.T) {
 	}
 	// RFC 4180 §2: fields with commas, quotes or line breaks are quoted and
 	// inner quotes doubled.
-	want := "file,status,error,heart_rate_bpm,pr_ms,qrs_ms,qt_ms,qtc_bazett_ms,qrs_axis_deg,transition,median_lead_confidence,seconds\n" +
-		"\"a,b.png\",failed,\"calib: \"\"x\"\" failed\nsecond line\",,,,,,,,,0.1\n" +
-		"z.png,ok,,72.123,,,,,,V3/V4,,2.5\n"
+	want := "file,status,error,heart_rate_bpm,pr_ms,qrs_ms,qt_ms,qtc_bazett_ms,qrs_axis_deg,transition,median_lead_confidence,seconds,verdict\n" +
+		"\"a,b.png\",failed,\"calib: \"\"x\"\" failed\nsecond line\",,,,,,,,,0.1,\n" +
+		"z.png,ok,,72.123,,,,,,V3/V4,,2.5,care\n"
 	if buf.String() != want {
 		t.Errorf("summary:\n%s\nwant:\n%s", buf.String(), want)
 	}
 	back, err := ReadSummary(&buf)
-	if err != nil || len(back) != 2 || back[0].Error != rows[1].Error || back[1].Findings.HeartRateBPM != 72.123 {
+	if err != nil || len(back) != 2 || back[0].Error != rows[1].Error || back[1].Findings.HeartRateBPM != 72.123 || back[1].Findings.Verdict != "care" {
 		t.Errorf("read back %+v, %v", back, err)
+	}
+	if got := CountVerdicts(back); got != "ready 0, care 1, not_readable 0, no verdict 1" {
+		t.Errorf("verdict counts %q", got)
 	}
 }
 

@@ -169,7 +169,11 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 		add(Care, "rhythm_unsure", "count the beats on the paper", "%s", f.RhythmNote)
 	}
 	if ci := f.Axis.QRSDegCI90; ci[0].OK() && ci[1].OK() && float64(ci[1]-ci[0])/2 > axisHalfCare {
-		add(Care, "axis_unsure", "read the limb leads themselves", "the QRS axis is uncertain by ±%.0f°", float64(ci[1]-ci[0])/2)
+		if h := float64(ci[1]-ci[0]) / 2; h >= 180 {
+			add(Care, "axis_unsure", "read the limb leads themselves", "the QRS axis could lie anywhere on the circle")
+		} else {
+			add(Care, "axis_unsure", "read the limb leads themselves", "the QRS axis is uncertain by ±%.0f°", h)
+		}
 	}
 	return v.finish()
 }
