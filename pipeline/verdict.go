@@ -78,9 +78,14 @@ const (
 	// Lead confidence limits (mean per-column trace confidence).
 	leadCare = 0.6
 	leadBad  = 0.35
-	// A heart rate whose beat-to-beat SD exceeds this share of the rate is
-	// no rhythm a heart makes: the beats found are not beats.
-	hrSpreadBad = 0.45
+	// RR intervals whose median absolute deviation exceeds this share of
+	// their median are no rhythm a heart makes (atrial fibrillation stays
+	// well under it, common practice): the beats found are not beats.
+	rrSpreadBad = 0.35
+	// A rate more than this share away from the one the beats' median
+	// interval gives carries a stray interval (a pulse taken for a beat,
+	// say).
+	rateDisagree = 0.06
 	// A QRS axis interval wider than this (half-width, degrees) says
 	// nothing about the axis.
 	axisHalfCare = 30
@@ -161,9 +166,18 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 			"nothing could be measured on the traces")
 		return v.finish()
 	}
-	if hr, sd := f.HeartRateBPM, f.HeartRateSD; hr.OK() && sd.OK() && float64(sd) > hrSpreadBad*float64(hr) {
+	var rrs []float64
+	for _, b := range f.Beats {
+		if b.RRS.OK() && b.RRS > 0 {
+			rrs = append(rrs, float64(b.RRS))
+		}
+	}
+	if med, mad := medianMAD(rrs); len(rrs) >= 3 && mad > rrSpreadBad*med {
 		add(NotReadable, "beats_chaotic", "turn the page if it was read sideways, or give the layout by hand",
-			"the beats found vary too much to be a heart's rhythm (rate %.0f, beat to beat SD %.0f bpm)", float64(hr), float64(sd))
+			"the beats found vary too much to be a heart's rhythm (RR %.0f ms, typical deviation %.0f ms)", 1000*med, 1000*mad)
+	} else if hr := f.HeartRateBPM; len(rrs) >= 3 && hr.OK() && math.Abs(float64(hr)-60/med) > rateDisagree*60/med {
+		add(Care, "rate_disagrees", "count the beats on the paper",
+			"the rate (%.0f bpm) disagrees with the beats found across the page (%.0f bpm from their median interval)", float64(hr), 60/med)
 	}
 	if f.RhythmNote != "" {
 		add(Care, "rhythm_unsure", "count the beats on the paper", "%s", f.RhythmNote)
@@ -247,4 +261,27 @@ func worstLaw(dr *digitize.Result) (float64, string) {
 		}
 	}
 	return worst, lead
+}
+
+// medianMAD returns the median of x and the median absolute deviation
+// from it; NaN for an empty x.
+func medianMAD(x []float64) (med, mad float64) {
+	if len(x) == 0 {
+		return math.NaN(), math.NaN()
+	}
+	m := func(v []float64) float64 {
+		s := append([]float64(nil), v...)
+		sort.Float64s(s)
+		if n := len(s); n%2 == 1 {
+			return s[n/2]
+		} else {
+			return (s[n/2-1] + s[n/2]) / 2
+		}
+	}
+	med = m(x)
+	d := make([]float64, len(x))
+	for i, v := range x {
+		d[i] = math.Abs(v - med)
+	}
+	return med, m(d)
 }

@@ -28,6 +28,7 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 	fit := fs.Bool("fit", false, "also fit the picture-error model to 90 % coverage on these cases and print it")
 	csvOut := fs.String("csv", "", "also write one row per case and measurement to this CSV file")
 	csvIn := fs.String("from-csv", "", "read the cases from a CSV file written by --csv instead of rendering them")
+	outside := fs.String("outside", "", "check the outside pages in this folder (outsideNN.json beside each picture) instead of the rendered suite")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: tracelift-cli coverage [options]")
 		fs.PrintDefaults()
@@ -52,7 +53,28 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 		}
 	}
 	var cases []coverage.Case
-	if *csvIn != "" {
+	if *outside != "" {
+		var err error
+		cases, err = coverage.Outside(*outside)
+		if err != nil {
+			fmt.Fprintf(stderr, "tracelift-cli coverage: %v\n", err)
+			return 1
+		}
+		for _, c := range cases {
+			fmt.Fprintf(stderr, "%s %-8s %-6s %-12s %s %s\n", c.Source, c.Condition, c.Layout, c.Verdict, strings.Join(c.Reasons, " "), c.Err)
+			for _, m := range coverage.Measures {
+				if v, ok := c.Meas[m]; ok {
+					fmt.Fprintf(stderr, "    %-15s %8.1f [%8.1f, %8.1f] truth %8.1f\n", m, v.Est, v.Lo, v.Hi, v.Truth)
+				}
+			}
+		}
+		condList = nil
+		for _, c := range cases {
+			if !contains(condList, c.Condition) {
+				condList = append(condList, c.Condition)
+			}
+		}
+	} else if *csvIn != "" {
 		f, err := os.Open(*csvIn)
 		if err != nil {
 			fmt.Fprintf(stderr, "tracelift-cli coverage: %v\n", err)
@@ -80,4 +102,13 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stdout, "\nfitted picture model (90 %% on these cases): %+v\n", m)
 	}
 	return 0
+}
+
+func contains(list []string, s string) bool {
+	for _, v := range list {
+		if v == s {
+			return true
+		}
+	}
+	return false
 }
