@@ -71,6 +71,34 @@ func TestVerdictCleanDemoReady(t *testing.T) {
 	if !strings.HasPrefix(o.Brief(), "verdict    This page is ready to read.") {
 		t.Errorf("summary:\n%s", o.Brief())
 	}
+	// Each measurement carries its 90 % interval beside it in the JSON,
+	// holding the value.
+	b, err := json.Marshal(o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Verdict   string     `json:"verdict"`
+		HR        float64    `json:"heart_rate_bpm"`
+		HRCI      [2]float64 `json:"heart_rate_bpm_ci90"`
+		Intervals map[string]any
+		Axis      struct {
+			QRS   float64    `json:"qrs_deg"`
+			QRSCI [2]float64 `json:"qrs_deg_ci90"`
+		} `json:"axis"`
+		IntervalsMS map[string]json.RawMessage `json:"intervals_ms"`
+	}
+	if err := json.Unmarshal(b, &doc); err != nil {
+		t.Fatal(err)
+	}
+	if doc.Verdict != "ready" || !(doc.HRCI[0] < doc.HR && doc.HR < doc.HRCI[1]) || !(doc.Axis.QRSCI[0] < doc.Axis.QRS && doc.Axis.QRS < doc.Axis.QRSCI[1]) {
+		t.Errorf("JSON verdict %q, rate %v in %v, axis %v in %v", doc.Verdict, doc.HR, doc.HRCI, doc.Axis.QRS, doc.Axis.QRSCI)
+	}
+	for _, k := range []string{"pr_ci90", "qrs_ci90", "qt_ci90", "qtc_bazett_ci90"} {
+		if _, ok := doc.IntervalsMS[k]; !ok {
+			t.Errorf("intervals_ms has no %s", k)
+		}
+	}
 }
 
 // The demo fax is a standard-order 3x4+1 page (its truth file). Read in
