@@ -150,7 +150,12 @@ func (m *measurer) uncertainty(f *Findings, pic Picture) {
 		if k > 0 {
 			p = math.Min(180, k*area*m.unitAngleSD(w))
 		}
-		return ci90(v, sp(name), put(name, v, p))
+		ci := ci90(v, sp(name), put(name, v, p))
+		if ci[0].OK() && ci[1]-ci[0] > 360 {
+			// Past a whole turn the interval says "anywhere": ±180°.
+			ci = [2]Num{v - 180, v + 180}
+		}
+		return ci
 	}
 	a.QRSDegCI90 = axisCI("qrs_deg", a.QRSDeg, waveQRS, md.QRSAreaMVMS)
 	a.PDegCI90 = axisCI("p_deg", a.PDeg, waveP, md.PAreaMVMS)

@@ -9,17 +9,21 @@ var (
 	colNotReadable = rgb{246, 208, 200}
 )
 
+// verdictBandMM is the room the verdict band takes above the findings.
+const verdictBandMM = 6
+
 // verdict draws the page's verdict as a band between the lead block and
 // the findings, so that it is read before any number: the level in words,
 // then the reasons and what to do, shortened to one line (the Checks
-// list repeats them in full).
+// list repeats them in full). The findings move down to make room.
 func (c *canvas) verdict(s *Summary) {
 	if s.Verdict == "" {
 		return
 	}
+	c.l.findingsY += verdictBandMM
 	l := c.l
 	x0, w := l.gridX, gridWMM
-	y := l.gridY + gridHMM + 1
+	y := l.gridY + gridHMM + 5 // under the lead block's scale note
 	k := colReady
 	switch s.VerdictLevel {
 	case "care":
