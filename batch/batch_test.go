@@ -612,3 +612,14 @@ func TestHashMatchesSha256sum(t *testing.T) {
 		t.Errorf("hash %s, %v", got, err)
 	}
 }
+
+// A page's JSON document holds each interval beside its 90 % interval
+// (pr, pr_ci90: [lo, hi]) and a top-level verdict; both are read.
+func TestParseDocumentIntervalsAndVerdict(t *testing.T) {
+	t.Parallel()
+	doc := `{"image_sha256":"ab","heart_rate_bpm":70,"verdict":"care","intervals_ms":{"pr":160,"pr_ci90":[150,170],"qrs":90,"qrs_ci90":[null,null]},"axis":{"qrs_deg":45,"qrs_deg_ci90":[40,50]}}`
+	sha, f, err := ParseDocument([]byte(doc))
+	if err != nil || sha != "ab" || f.PRMS != 160 || f.QRSMS != 90 || f.QRSAxisDeg != 45 || f.Verdict != "care" {
+		t.Fatalf("sha %q findings %+v, %v", sha, f, err)
+	}
+}

@@ -112,7 +112,7 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 	var d struct {
 		SHA          string                                `json:"image_sha256"`
 		HeartRate    *float64                              `json:"heart_rate_bpm"`
-		Intervals    map[string]*float64                   `json:"intervals_ms"`
+		Intervals    map[string]json.RawMessage            `json:"intervals_ms"` // numbers beside their [lo, hi] intervals
 		Axis         map[string]json.RawMessage            `json:"axis"`
 		Transition   json.RawMessage                       `json:"transition"`
 		Quality      map[string]map[string]json.RawMessage `json:"quality"`
@@ -127,10 +127,10 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 		return "", f, fmt.Errorf("batch: the JSON document has no image_sha256")
 	}
 	f.HeartRateBPM = orNaN(d.HeartRate)
-	f.PRMS = orNaN(d.Intervals["pr"])
-	f.QRSMS = orNaN(d.Intervals["qrs"])
-	f.QTMS = orNaN(d.Intervals["qt"])
-	f.QTcBazettMS = orNaN(d.Intervals["qtc_bazett"])
+	f.PRMS = rawNumber(d.Intervals["pr"])
+	f.QRSMS = rawNumber(d.Intervals["qrs"])
+	f.QTMS = rawNumber(d.Intervals["qt"])
+	f.QTcBazettMS = rawNumber(d.Intervals["qtc_bazett"])
 	f.QRSAxisDeg = rawNumber(d.Axis["qrs_deg"])
 	f.Transition = rawText(d.Transition)
 	f.CalibConfidence = rawNumber(fold(d.Calibration, "confidence"))
