@@ -13,6 +13,9 @@ import (
 // MLII, 360 Hz) centred on each of its 34 beats annotated A or V in
 // 100.atr (the reference annotations); a beat within 150 ms of the
 // annotation counts as found (the EC57 matching window, from memory).
+// Each strip is also measured with the premature complex drawn faint, as
+// a poor copy shows it: without the second search 28 of the 68 were lost
+// without a word when this was written.
 // Windows holding only beats annotated N must not be called unsure in
 // more than one in ten (a pause there would be the detector's invention).
 func TestPrematureOnStripFoundOrUnsure(t *testing.T) {
@@ -46,6 +49,34 @@ func TestPrematureOnStripFoundOrUnsure(t *testing.T) {
 	for _, tp := range prem {
 		t0 := math.Max(0, tp-5)
 		f, err := Measure(strip(t0), Options{})
+		if err != nil {
+			t.Errorf("strip at %.1f s: %v", t0, err)
+			continue
+		}
+		n++
+		found := false
+		for _, b := range f.Beats {
+			found = found || math.Abs(b.TS+t0-tp) < 0.150
+		}
+		if !found && f.RhythmNote == "" {
+			missedQuiet++
+			t.Logf("premature beat at %.2f s missed and the rhythm (%s) does not say so", tp, f.Rhythm)
+		}
+	}
+	// The same strips with the premature beat's complex drawn faint (a
+	// third of its height about the level before it, as a thin line on a
+	// poor copy reads): the detector's T-wave test then tends to drop it.
+	for _, tp := range prem {
+		t0 := math.Max(0, tp-5)
+		rec := strip(t0)
+		mv := rec.Signals[0].MV
+		c := int((tp - t0) * ml.RateHz)
+		w := int(0.06 * ml.RateHz)
+		base := mv[max(0, c-w-5)]
+		for k := max(0, c-w); k < min(len(mv), c+w); k++ {
+			mv[k] = base + (mv[k]-base)/3
+		}
+		f, err := Measure(rec, Options{})
 		if err != nil {
 			t.Errorf("strip at %.1f s: %v", t0, err)
 			continue
