@@ -131,10 +131,13 @@ func (m *measurer) axisOf(w wave) (lsq, sd float64, methods [3]AxisMethod) {
 			}
 		}
 	}
-	beatSD := 0.0
+	beatSD, nb := 0.0, len(angles)
 	if len(angles) >= 3 {
 		beatSD = circSD(angles)
 	} else {
+		for _, v := range perLead {
+			nb = max(nb, len(v))
+		}
 		sds := map[string]float64{}
 		for l, v := range perLead {
 			if _, s := meanSD(v); !math.IsNaN(s) {
@@ -156,6 +159,10 @@ func (m *measurer) axisOf(w wave) (lsq, sd float64, methods [3]AxisMethod) {
 	}
 	qualSD := lsqAngleSD(x, y, mm, qsd)
 	sd = math.Min(180, math.Hypot(beatSD, qualSD))
+	if m.spread == nil {
+		m.spread = map[string]float64{}
+	}
+	m.spread[[3]string{"qrs_deg", "p_deg", "t_deg"}[w]] = math.Min(180, beatSD/math.Sqrt(math.Max(1, float64(nb))))
 	return lsq, sd, methods
 }
 

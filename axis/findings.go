@@ -50,6 +50,10 @@ type Options struct {
 	// as for a record read from a file; missing leads count as 1). Lower
 	// values enlarge the uncertainties.
 	LeadQuality map[string]float64
+	// Picture describes the picture the record was traced from; its
+	// zero value (a record read from a file) adds no picture error to
+	// the intervals.
+	Picture Picture
 }
 
 // Beat is one detected QRS complex.
@@ -79,6 +83,12 @@ type Intervals struct {
 	QRSSD         Num `json:"qrs_sd"`
 	QTSD          Num `json:"qt_sd"`
 	QTcSD         Num `json:"qtc_sd"` // of Bazett's QTc, the most rate-sensitive
+	// 90 % intervals [lo, hi] combining the spread over beats with the
+	// error the picture adds (see Picture); [null, null] when not measured.
+	PRCI90        [2]Num `json:"pr_ci90"`
+	QRSCI90       [2]Num `json:"qrs_ci90"`
+	QTCI90        [2]Num `json:"qt_ci90"`
+	QTcBazettCI90 [2]Num `json:"qtc_bazett_ci90"`
 }
 
 // Fiducials are the global wave boundaries of the representative beat in
@@ -135,6 +145,24 @@ type Axes struct {
 	TDegSD      Num          `json:"t_deg_sd"`
 	Spread      Num          `json:"methods_spread_deg"` // largest QRS difference between methods
 	Methods     []AxisMethod `json:"methods"`
+	// 90 % intervals in degrees, lo < value < hi, not wrapped (a range
+	// past ±180° goes on round the circle).
+	QRSDegCI90 [2]Num `json:"qrs_deg_ci90"`
+	PDegCI90   [2]Num `json:"p_deg_ci90"`
+	TDegCI90   [2]Num `json:"t_deg_ci90"`
+	// QRSCategoryRange names every category the QRS interval reaches
+	// when it crosses a boundary ("normal or left"); "" otherwise.
+	QRSCategoryRange string `json:"qrs_category_range,omitempty"`
+}
+
+// Borderline is a measurement whose 90 % interval crosses a category
+// limit: both sides are named.
+type Borderline struct {
+	Measure string  `json:"measure"` // "qrs_axis", "qtc_bazett", "heart_rate"
+	Limit   float64 `json:"limit"`
+	Below   string  `json:"below"`
+	Above   string  `json:"above"`
+	Message string  `json:"message"`
 }
 
 // Flag is a finding worth a second look, with its caution.
@@ -154,12 +182,16 @@ type Template struct {
 
 // Findings are the measurements of one record.
 type Findings struct {
-	Record       string        `json:"record,omitempty"`
-	HeartRateBPM Num           `json:"heart_rate_bpm"`
-	HeartRateSD  Num           `json:"heart_rate_sd"`
-	RRMeanS      Num           `json:"rr_mean_s"`
-	RRSDS        Num           `json:"rr_sd_s"`
-	Rhythm       string        `json:"rhythm"` // "regular", "irregular", "undetermined"
+	Record       string `json:"record,omitempty"`
+	HeartRateBPM Num    `json:"heart_rate_bpm"`
+	HeartRateSD  Num    `json:"heart_rate_sd"`
+	// HeartRateCI90 is the 90 % interval of the mean rate.
+	HeartRateCI90 [2]Num `json:"heart_rate_bpm_ci90"`
+	RRMeanS       Num    `json:"rr_mean_s"`
+	RRSDS         Num    `json:"rr_sd_s"`
+	Rhythm        string `json:"rhythm"` // "regular", "irregular", "undetermined"
+	// RhythmNote says why the rhythm call is unsure, "" when it is not.
+	RhythmNote   string        `json:"rhythm_note,omitempty"`
 	BeatLead     string        `json:"beat_lead"`
 	Beats        []Beat        `json:"beats"`
 	Premature    int           `json:"premature_beats"`
@@ -172,8 +204,19 @@ type Findings struct {
 	RProgression []Num         `json:"r_progression_mv"`    // R in V1..V6
 	Leads        []LeadMeasure `json:"leads"`
 	Flags        []Flag        `json:"flags"`
-	Caution      string        `json:"caution"`
-	Templates    []Template    `json:"-"`
+	// Borderline lists the measurements whose interval crosses a limit.
+	Borderline []Borderline `json:"borderline,omitempty"`
+	// PictureSD is the picture's share of each measurement's error (one
+	// standard deviation, in the measurement's unit), keyed like the JSON
+	// ("heart_rate_bpm", "pr", "qrs", "qt", "qtc_bazett", "qrs_deg",
+	// "p_deg", "t_deg"); empty for a record read from a file.
+	PictureSD map[string]Num `json:"picture_sd,omitempty"`
+	// SpreadSD is the engine's own share in the intervals: the standard
+	// error over beats, the delineation's threshold sensitivity and the
+	// 2 ms grid step (one standard deviation), keyed like PictureSD.
+	SpreadSD  map[string]Num `json:"spread_sd,omitempty"`
+	Caution   string         `json:"caution"`
+	Templates []Template     `json:"-"`
 }
 
 // Lead returns the measures of the named lead, or nil.

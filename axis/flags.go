@@ -32,14 +32,27 @@ func flags(f *Findings) {
 	sA := func(l *LeadMeasure) Num { return l.S }
 	ppA := func(l *LeadMeasure) Num { return l.QRSPP }
 
-	// Rate and rhythm (AHA/ACCF/HRS 2009 use 50 and 100 bpm).
+	// Rate and rhythm (AHA/ACCF/HRS 2009 use 50 and 100 bpm). A value
+	// whose 90 % interval crosses a limit is flagged as borderline,
+	// naming both sides, instead.
+	border := func(measure string, at float64) bool {
+		if b := f.borderlineOf(measure, at); b != nil {
+			add("borderline_"+measure, "", "%s", b.Message)
+			return true
+		}
+		return false
+	}
 	if hr := f.HeartRateBPM; hr.OK() {
 		switch {
+		case border("heart_rate", 50), border("heart_rate", 100):
 		case hr < 50:
 			add("bradycardia", "", "heart rate %.0f bpm (below 50)", float64(hr))
 		case hr > 100:
 			add("tachycardia", "", "heart rate %.0f bpm (above 100)", float64(hr))
 		}
+	}
+	if f.RhythmNote != "" {
+		add("rhythm_unsure", "count the beats on the paper", "rhythm unsure: %s", f.RhythmNote)
 	}
 	if f.Rhythm == "irregular" {
 		add("irregular", "", "irregular RR intervals (SD %.0f ms)", 1000*float64(f.RRSDS))
@@ -52,27 +65,34 @@ func flags(f *Findings) {
 	iv := f.IntervalsMS
 	if iv.PR.OK() {
 		switch {
+		case border("pr", 120), border("pr", 200):
 		case iv.PR > 200:
 			add("long_pr", "", "PR %.0f ms (above 200)", float64(iv.PR))
 		case iv.PR < 120:
 			add("short_pr", "", "PR %.0f ms (below 120)", float64(iv.PR))
 		}
 	}
-	if iv.QRS.OK() && iv.QRS >= 120 {
+	if iv.QRS.OK() && !border("qrs", 120) && iv.QRS >= 120 {
 		add("wide_qrs", "", "QRS %.0f ms (120 or more)", float64(iv.QRS))
 	}
-	if iv.QTcBazett.OK() && iv.QTcBazett > 460 {
+	if iv.QTcBazett.OK() && !border("qtc_bazett", 460) && iv.QTcBazett > 460 {
 		add("long_qtc", "the limit is 450 ms for men and 460 ms for women (AHA/ACCF/HRS 2009); Bazett over-corrects at fast rates",
 			"QTc (Bazett) %.0f ms", float64(iv.QTcBazett))
 	}
 
-	// Axis.
-	switch f.Axis.QRSCategory {
-	case "left":
+	// Axis: an interval that reaches another category is borderline.
+	if r := f.Axis.QRSCategoryRange; r != "" {
+		add("borderline_axis", "the axis sits near a category limit; read the limb leads themselves",
+			"QRS axis %+.0f° (90 %% interval %+.0f° to %+.0f°): borderline, %s", float64(f.Axis.QRSDeg),
+			float64(f.Axis.QRSDegCI90[0]), float64(f.Axis.QRSDegCI90[1]), r)
+	}
+	switch cat := f.Axis.QRSCategory; {
+	case f.Axis.QRSCategoryRange != "":
+	case cat == "left":
 		add("left_axis", "", "QRS axis %+.0f°: left axis deviation", float64(f.Axis.QRSDeg))
-	case "right":
+	case cat == "right":
 		add("right_axis", "", "QRS axis %+.0f°: right axis deviation", float64(f.Axis.QRSDeg))
-	case "extreme":
+	case cat == "extreme":
 		add("extreme_axis", "check the limb electrodes first", "QRS axis %+.0f°: extreme axis", float64(f.Axis.QRSDeg))
 	}
 	if s := f.Axis.Spread; s.OK() && s > 15 {
@@ -150,11 +170,18 @@ func flags(f *Findings) {
 			"ST deviation of 0.1 mV or more at J+60 ms in %s", strings.Join(st, ", "))
 	}
 	// Poor R-wave progression: R in V3 of 0.3 mV or less with R not
-	// growing from V1 to V3 (common practice, from memory).
-	if rp := f.RProgression; len(rp) == 6 && rp[0].OK() && rp[2].OK() && rp[2] <= 0.3 && rp[2] <= rp[0]+0.05 {
-		add("poor_r_progression", "electrode position and body build change R-wave progression", "poor R-wave progression: R V1 %.2f mV, R V3 %.2f mV", float64(rp[0]), float64(rp[2]))
+	// growing from V1 to V3 (common practice, from memory). It is read
+	// from the same amplitudes as the transition (R/|S| across V1..V6), so
+	// the two are said together: it is only raised with a late
+	// transition, and then in one flag; beside a normal or early
+	// transition a small R in V3 is no finding of its own.
+	prwp := false
+	if rp := f.RProgression; len(rp) == 6 && rp[0].OK() && rp[2].OK() && rp[2] <= 0.3 && rp[2] <= rp[0]+0.05 && f.TransitionCl == "late" {
+		prwp = true
+		add("poor_r_progression", "electrode position and body build change R-wave progression",
+			"poor R-wave progression with a late precordial transition (%s): R V1 %.2f mV, R V3 %.2f mV", f.Transition, float64(rp[0]), float64(rp[2]))
 	}
-	if f.TransitionCl == "late" || f.TransitionCl == "early" {
+	if !prwp && (f.TransitionCl == "late" || f.TransitionCl == "early") {
 		add("transition_"+f.TransitionCl, "electrode position changes the transition", "%s precordial transition (%s)", f.TransitionCl, f.Transition)
 	}
 

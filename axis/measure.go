@@ -177,7 +177,9 @@ func Measure(rec *record.Record, opt Options) (*Findings, error) {
 	if rrLead >= 0 {
 		m.rrFrom = cands[rrLead].d
 	}
+	empty, found := m.recoverMissed()
 	m.rhythm(f)
+	rhythmNote(f, empty, found)
 	if err := m.templates(); err != nil {
 		return nil, err
 	}
@@ -185,6 +187,8 @@ func Measure(rec *record.Record, opt Options) (*Findings, error) {
 	m.measureLeads(f)
 	m.axes(f)
 	m.precordial(f)
+	m.uncertainty(f, opt.Picture)
+	borderlines(f)
 	flags(f)
 	return f, nil
 }
@@ -206,6 +210,10 @@ type measurer struct {
 	// rrFrom, when set, is the single lead whose beats give the RR
 	// intervals.
 	rrFrom *leadDetections
+	// spread is the engine's own share of each measurement's error in
+	// the 90 % intervals (the standard error over beats, the threshold
+	// sensitivity and the grid step), keyed like Findings.PictureSD.
+	spread map[string]float64
 }
 
 func (m *measurer) rhythm(f *Findings) {
@@ -683,12 +691,18 @@ func (m *measurer) intervals(f *Findings) {
 		return d
 	}
 	res := 1000 / tplHz / math.Sqrt(12)
+	if m.spread == nil {
+		m.spread = map[string]float64{}
+	}
+	names := [3]string{"pr", "qrs", "qt"}
 	comb := func(beat []float64, i int) Num {
 		_, sd := meanSD(beat)
 		if math.IsNaN(sd) {
 			sd = 0
 		}
 		s := sens(i)
+		se := sd / math.Sqrt(math.Max(1, float64(len(beat))))
+		m.spread[names[i]] = math.Sqrt(se*se + s*s + res*res)
 		return Num(math.Sqrt(sd*sd + s*s + res*res + qpen*qpen))
 	}
 	if iv.PR.OK() {
@@ -715,6 +729,7 @@ func (m *measurer) intervals(f *Findings) {
 			a := float64(iv.QTSD) / math.Sqrt(rr)
 			b := c.Bazett / (2 * rr) * se
 			iv.QTcSD = Num(math.Hypot(a, b))
+			m.spread["qtc_bazett"] = math.Hypot(m.spread["qt"]/math.Sqrt(rr), b)
 		}
 	}
 	f.IntervalsMS = iv

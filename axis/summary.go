@@ -47,12 +47,22 @@ func (f *Findings) Summary() string {
 		fmtNum(iv.QTcBazett, iv.QTcSD, "ms"), fmtNum(iv.QTcFridericia, NaN(), "ms"),
 		fmtNum(iv.QTcFramingham, NaN(), "ms"), fmtNum(iv.QTcHodges, NaN(), "ms"))
 	a := f.Axis
-	w("Axes      QRS %s (%s), P %s, T %s\n", fmtDeg(a.QRSDeg, a.QRSDegSD), a.QRSCategory, fmtDeg(a.PDeg, a.PDegSD), fmtDeg(a.TDeg, a.TDegSD))
+	cat := a.QRSCategory
+	if a.QRSCategoryRange != "" {
+		cat = "borderline: " + a.QRSCategoryRange
+	}
+	w("Axes      QRS %s (%s), P %s, T %s\n", fmtDeg(a.QRSDeg, a.QRSDegSD), cat, fmtDeg(a.PDeg, a.PDegSD), fmtDeg(a.TDeg, a.TDegSD))
+	if c := a.QRSDegCI90; c[0].OK() {
+		w("  QRS axis 90 %% interval %+.0f° to %+.0f°\n", float64(c[0]), float64(c[1]))
+	}
 	for _, m := range a.Methods {
 		w("  %-14s QRS %-6s P %-6s T %-6s %s\n", m.Method, fmtDeg(m.QRSDeg, NaN()), fmtDeg(m.PDeg, NaN()), fmtDeg(m.TDeg, NaN()), m.Detail)
 	}
 	if a.Spread.OK() {
 		w("  methods agree within %.0f°\n", float64(a.Spread))
+	}
+	if f.RhythmNote != "" {
+		w("Rhythm    unsure: %s\n", f.RhythmNote)
 	}
 	if f.Transition != "" {
 		w("Transition %s (%s)\n", f.Transition, f.TransitionCl)

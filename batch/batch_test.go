@@ -508,7 +508,7 @@ func TestOutputsStayInside(t *testing.T) {
 func TestSummaryCSV(t *testing.T) {
 	t.Parallel()
 	f := NoFindings()
-	f.HeartRateBPM, f.Transition = 72.123456, "V3/V4"
+	f.HeartRateBPM, f.Transition, f.Verdict = 72.123456, "V3/V4", "care"
 	rows := []Row{
 		{File: "z.png", Status: StatusOK, Findings: f, Seconds: 2.5},
 		{File: "a,b.png", Status: StatusFailed, Error: "calib: \"x\" failed\nsecond line", Findings: NoFindings(), Seconds: 0.1},
@@ -519,15 +519,18 @@ func TestSummaryCSV(t *testing.T) {
 	}
 	// RFC 4180 §2: fields with commas, quotes or line breaks are quoted and
 	// inner quotes doubled.
-	want := "file,status,error,heart_rate_bpm,pr_ms,qrs_ms,qt_ms,qtc_bazett_ms,qrs_axis_deg,transition,median_lead_confidence,seconds\n" +
-		"\"a,b.png\",failed,\"calib: \"\"x\"\" failed\nsecond line\",,,,,,,,,0.1\n" +
-		"z.png,ok,,72.123,,,,,,V3/V4,,2.5\n"
+	want := "file,status,error,heart_rate_bpm,pr_ms,qrs_ms,qt_ms,qtc_bazett_ms,qrs_axis_deg,transition,median_lead_confidence,seconds,verdict\n" +
+		"\"a,b.png\",failed,\"calib: \"\"x\"\" failed\nsecond line\",,,,,,,,,0.1,\n" +
+		"z.png,ok,,72.123,,,,,,V3/V4,,2.5,care\n"
 	if buf.String() != want {
 		t.Errorf("summary:\n%s\nwant:\n%s", buf.String(), want)
 	}
 	back, err := ReadSummary(&buf)
-	if err != nil || len(back) != 2 || back[0].Error != rows[1].Error || back[1].Findings.HeartRateBPM != 72.123 {
+	if err != nil || len(back) != 2 || back[0].Error != rows[1].Error || back[1].Findings.HeartRateBPM != 72.123 || back[1].Findings.Verdict != "care" {
 		t.Errorf("read back %+v, %v", back, err)
+	}
+	if got := CountVerdicts(back); got != "ready 0, care 1, not_readable 0, no verdict 1" {
+		t.Errorf("verdict counts %q", got)
 	}
 }
 
@@ -607,5 +610,16 @@ func TestHashMatchesSha256sum(t *testing.T) {
 	// SHA-256("abc") from FIPS 180-2, Appendix B.1.
 	if err != nil || got != "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad" {
 		t.Errorf("hash %s, %v", got, err)
+	}
+}
+
+// A page's JSON document holds each interval beside its 90 % interval
+// (pr, pr_ci90: [lo, hi]) and a top-level verdict; both are read.
+func TestParseDocumentIntervalsAndVerdict(t *testing.T) {
+	t.Parallel()
+	doc := `{"image_sha256":"ab","heart_rate_bpm":70,"verdict":"care","intervals_ms":{"pr":160,"pr_ci90":[150,170],"qrs":90,"qrs_ci90":[null,null]},"axis":{"qrs_deg":45,"qrs_deg_ci90":[40,50]}}`
+	sha, f, err := ParseDocument([]byte(doc))
+	if err != nil || sha != "ab" || f.PRMS != 160 || f.QRSMS != 90 || f.QRSAxisDeg != 45 || f.Verdict != "care" {
+		t.Fatalf("sha %q findings %+v, %v", sha, f, err)
 	}
 }

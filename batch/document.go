@@ -25,6 +25,9 @@ type Findings struct {
 	LeadConfidence       map[string]float64
 	CalibConfidence      float64
 	MeasureError         string
+	// Verdict is the page's verdict (ready, care, not_readable; see
+	// pipeline.Judge); "" when the document has none.
+	Verdict string
 }
 
 // NoFindings returns Findings with every number unmeasured.
@@ -58,6 +61,9 @@ func (f Findings) MarshalJSON() ([]byte, error) {
 	if f.MeasureError != "" {
 		m["measure_error"] = f.MeasureError
 	}
+	if f.Verdict != "" {
+		m["verdict"] = f.Verdict
+	}
 	return json.Marshal(m)
 }
 
@@ -74,6 +80,7 @@ func (f *Findings) UnmarshalJSON(b []byte) error {
 			Leads  map[string]float64 `json:"leads"`
 		} `json:"quality"`
 		MeasureError string `json:"measure_error"`
+		Verdict      string `json:"verdict"`
 	}
 	if err := json.Unmarshal(b, &m); err != nil {
 		return err
@@ -82,7 +89,7 @@ func (f *Findings) UnmarshalJSON(b []byte) error {
 		HeartRateBPM: orNaN(m.HR), PRMS: orNaN(m.Intervals["pr"]), QRSMS: orNaN(m.Intervals["qrs"]),
 		QTMS: orNaN(m.Intervals["qt"]), QTcBazettMS: orNaN(m.Intervals["qtc_bazett"]), QRSAxisDeg: orNaN(m.Axis),
 		Transition: m.Trans, MedianLeadConfidence: orNaN(m.Quality.Median), LeadConfidence: m.Quality.Leads,
-		CalibConfidence: orNaN(m.Quality.Calib), MeasureError: m.MeasureError,
+		CalibConfidence: orNaN(m.Quality.Calib), MeasureError: m.MeasureError, Verdict: m.Verdict,
 	}
 	return nil
 }
@@ -105,12 +112,13 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 	var d struct {
 		SHA          string                                `json:"image_sha256"`
 		HeartRate    *float64                              `json:"heart_rate_bpm"`
-		Intervals    map[string]*float64                   `json:"intervals_ms"`
+		Intervals    map[string]json.RawMessage            `json:"intervals_ms"` // numbers beside their [lo, hi] intervals
 		Axis         map[string]json.RawMessage            `json:"axis"`
 		Transition   json.RawMessage                       `json:"transition"`
 		Quality      map[string]map[string]json.RawMessage `json:"quality"`
 		Calibration  map[string]json.RawMessage            `json:"calibration"`
 		MeasureError string                                `json:"measure_error"`
+		Verdict      string                                `json:"verdict"`
 	}
 	if err := json.Unmarshal(b, &d); err != nil {
 		return "", f, fmt.Errorf("batch: the JSON document does not parse: %w", err)
@@ -119,14 +127,15 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 		return "", f, fmt.Errorf("batch: the JSON document has no image_sha256")
 	}
 	f.HeartRateBPM = orNaN(d.HeartRate)
-	f.PRMS = orNaN(d.Intervals["pr"])
-	f.QRSMS = orNaN(d.Intervals["qrs"])
-	f.QTMS = orNaN(d.Intervals["qt"])
-	f.QTcBazettMS = orNaN(d.Intervals["qtc_bazett"])
+	f.PRMS = rawNumber(d.Intervals["pr"])
+	f.QRSMS = rawNumber(d.Intervals["qrs"])
+	f.QTMS = rawNumber(d.Intervals["qt"])
+	f.QTcBazettMS = rawNumber(d.Intervals["qtc_bazett"])
 	f.QRSAxisDeg = rawNumber(d.Axis["qrs_deg"])
 	f.Transition = rawText(d.Transition)
 	f.CalibConfidence = rawNumber(fold(d.Calibration, "confidence"))
 	f.MeasureError = d.MeasureError
+	f.Verdict = d.Verdict
 	if len(d.Quality) > 0 {
 		f.LeadConfidence = map[string]float64{}
 		var cs []float64

@@ -16,7 +16,7 @@ import (
 
 // SummaryHeader is the first line of every summary CSV.
 var SummaryHeader = []string{"file", "status", "error", "heart_rate_bpm", "pr_ms", "qrs_ms", "qt_ms",
-	"qtc_bazett_ms", "qrs_axis_deg", "transition", "median_lead_confidence", "seconds"}
+	"qtc_bazett_ms", "qrs_axis_deg", "transition", "median_lead_confidence", "seconds", "verdict"}
 
 // Row is one line of a summary.
 type Row struct {
@@ -31,7 +31,33 @@ func (r Row) record() []string {
 	f := r.Findings
 	return []string{r.File, string(r.Status), r.Error, formatNum(f.HeartRateBPM), formatNum(f.PRMS),
 		formatNum(f.QRSMS), formatNum(f.QTMS), formatNum(f.QTcBazettMS), formatNum(f.QRSAxisDeg),
-		f.Transition, formatNum(f.MedianLeadConfidence), formatNum(r.Seconds)}
+		f.Transition, formatNum(f.MedianLeadConfidence), formatNum(r.Seconds), f.Verdict}
+}
+
+// Verdicts are the three page verdicts in order (pipeline.Judge).
+var Verdicts = []string{"ready", "care", "not_readable"}
+
+// CountVerdicts counts the rows' pages by verdict, in words for a
+// terminal: "ready 12, care 3, not_readable 1" (and "no verdict N" for
+// pages without one, such as failed ones).
+func CountVerdicts(rows []Row) string {
+	n := map[string]int{}
+	for _, r := range rows {
+		n[r.Findings.Verdict]++
+	}
+	var parts []string
+	for _, v := range Verdicts {
+		parts = append(parts, fmt.Sprintf("%s %d", v, n[v]))
+		delete(n, v)
+	}
+	other := 0
+	for _, c := range n {
+		other += c
+	}
+	if other > 0 {
+		parts = append(parts, fmt.Sprintf("no verdict %d", other))
+	}
+	return strings.Join(parts, ", ")
 }
 
 // WriteSummary writes rows, sorted by file, as CSV.
@@ -99,6 +125,7 @@ func ReadSummary(r io.Reader) ([]Row, error) {
 		f.QRSAxisDeg = parseNum(cell(rec, "qrs_axis_deg"))
 		f.Transition = cell(rec, "transition")
 		f.MedianLeadConfidence = parseNum(cell(rec, "median_lead_confidence"))
+		f.Verdict = cell(rec, "verdict")
 		rows = append(rows, Row{File: cell(rec, "file"), Status: Status(cell(rec, "status")),
 			Error: cell(rec, "error"), Findings: f, Seconds: parseNum(cell(rec, "seconds"))})
 	}

@@ -32,6 +32,7 @@ type findingsView struct {
 	// two frontal leads (a single-lead strip has no frontal axis)
 	axesHead *widget.Label
 	dialBox  *fyne.Container
+	verdict  *widget.Label
 }
 
 // frontalLeadCount is how many of the six frontal leads rec holds.
@@ -63,14 +64,18 @@ func newFindingsView(c *Controller) *findingsView {
 	f.changed.Importance = widget.HighImportance
 	f.axes = widget.NewLabel("")
 	f.axes.Wrapping = fyne.TextWrapWord
+	f.verdict = widget.NewLabel("")
+	f.verdict.Wrapping = fyne.TextWrapWord
+	f.verdict.TextStyle = fyne.TextStyle{Bold: true}
+	f.verdict.Hide()
 	f.flags = widget.NewLabel("")
 	f.flags.Wrapping = fyne.TextWrapWord
 	f.dial = newHexaxial()
 	f.axesHead = heading("Frontal axes")
 	f.dialBox = container.NewCenter(f.dial)
 	f.obj = container.NewScroll(container.NewVBox(
-		caution,
-		heading("Measurements (value ± uncertainty)"), f.values, f.changed,
+		caution, f.verdict,
+		heading("Measurements (value ± 90 % interval)"), f.values, f.changed,
 		f.axesHead, f.dialBox, f.axes,
 		heading("Flags"), f.flags,
 	))
@@ -90,6 +95,7 @@ func (f *findingsView) refresh() {
 		f.changed.Hide()
 	}
 	s := m.Summary()
+	f.showVerdict(s)
 	if s == nil {
 		msg := "Not measured."
 		if err := m.MeasureErr(); err != nil {
@@ -128,6 +134,30 @@ func (f *findingsView) refresh() {
 		f.flags.SetText("• " + strings.Join(s.Flags, "\n• "))
 	}
 	f.dial.set(s)
+}
+
+// showVerdict puts the page's verdict above the findings: the level,
+// the reasons and what to do.
+func (f *findingsView) showVerdict(s *model.Summary) {
+	if s == nil || s.Verdict == "" {
+		f.verdict.Hide()
+		return
+	}
+	txt := "This page is " + s.Verdict + "."
+	for _, r := range s.VerdictReasons {
+		txt += "\n• " + r
+	}
+	f.verdict.SetText(txt)
+	switch s.VerdictLevel {
+	case "not_readable":
+		f.verdict.Importance = widget.DangerImportance
+	case "care":
+		f.verdict.Importance = widget.WarningImportance
+	default:
+		f.verdict.Importance = widget.SuccessImportance
+	}
+	f.verdict.Show()
+	f.verdict.Refresh()
 }
 
 func deg(v float64) string {

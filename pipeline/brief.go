@@ -6,6 +6,7 @@ import (
 	"sort"
 	"strings"
 
+	"tracelift/axis"
 	"tracelift/record"
 )
 
@@ -34,6 +35,16 @@ func beatAnnotations(o *Outcome) []record.Annotation {
 // leads and their confidence, the headline findings and the caution.
 func (o *Outcome) Brief() string {
 	var b strings.Builder
+	if o.Digitized != nil {
+		// The verdict comes before any number.
+		for i, l := range o.Verdict.Lines() {
+			if i == 0 {
+				fmt.Fprintf(&b, "verdict    %s\n", l)
+			} else {
+				fmt.Fprintf(&b, "  why      %s\n", l)
+			}
+		}
+	}
 	if c := o.Calib; c != nil {
 		fmt.Fprintf(&b, "scale      %.3f × %.3f px/mm (from %s, confidence %.2f), rotation %.2f°\n",
 			c.PxPerMMX, c.PxPerMMY, c.Source, c.Confidence, c.RotationDeg)
@@ -71,11 +82,26 @@ func (o *Outcome) Brief() string {
 	}
 	if f := o.Findings; f != nil {
 		iv := f.IntervalsMS
-		fmt.Fprintf(&b, "rate       %s bpm (%s)\n", num(float64(f.HeartRateBPM), 0), f.Rhythm)
-		fmt.Fprintf(&b, "intervals  PR %s, QRS %s, QT %s, QTc %s ms (Bazett)\n",
-			num(float64(iv.PR), 0), num(float64(iv.QRS), 0), num(float64(iv.QT), 0), num(float64(iv.QTcBazett), 0))
-		fmt.Fprintf(&b, "axes       QRS %s°, P %s°, T %s° (%s)\n",
-			num(float64(f.Axis.QRSDeg), 0), num(float64(f.Axis.PDeg), 0), num(float64(f.Axis.TDeg), 0), f.Axis.QRSCategory)
+		fmt.Fprintf(&b, "rate       %s bpm [90 %%: %s to %s] (%s)\n", num(float64(f.HeartRateBPM), 0),
+			num(float64(f.HeartRateCI90[0]), 0), num(float64(f.HeartRateCI90[1]), 0), f.Rhythm)
+		ci := func(v axis.Num, c [2]axis.Num) string {
+			if !c[0].OK() {
+				return num(float64(v), 0)
+			}
+			return fmt.Sprintf("%s [%s–%s]", num(float64(v), 0), num(float64(c[0]), 0), num(float64(c[1]), 0))
+		}
+		fmt.Fprintf(&b, "intervals  PR %s, QRS %s, QT %s, QTc %s ms (Bazett; 90 %% intervals in brackets)\n",
+			ci(iv.PR, iv.PRCI90), ci(iv.QRS, iv.QRSCI90), ci(iv.QT, iv.QTCI90), ci(iv.QTcBazett, iv.QTcBazettCI90))
+		cat := f.Axis.QRSCategory
+		if f.Axis.QRSCategoryRange != "" {
+			cat = "borderline: " + f.Axis.QRSCategoryRange
+		}
+		if cat != "" {
+			cat = " (" + cat + ")"
+		}
+		fmt.Fprintf(&b, "axes       QRS %s° [90 %%: %s to %s], P %s°, T %s°%s\n",
+			num(float64(f.Axis.QRSDeg), 0), num(float64(f.Axis.QRSDegCI90[0]), 0), num(float64(f.Axis.QRSDegCI90[1]), 0),
+			num(float64(f.Axis.PDeg), 0), num(float64(f.Axis.TDeg), 0), cat)
 		fmt.Fprintf(&b, "transition %s\n", f.Transition)
 		for _, fl := range f.Flags {
 			fmt.Fprintf(&b, "flag       %s\n", fl.Message)

@@ -40,7 +40,10 @@ type Outcome struct {
 	// MeasureErr says why measuring failed when the tracing itself worked
 	// (a strip too short for beats, say); the signals are still exported.
 	MeasureErr error
-	Timings    Timings
+	// Verdict says how far the page can be read (see Judge); set with the
+	// findings.
+	Verdict Verdict
+	Timings Timings
 }
 
 // Timings of each stage.
@@ -122,9 +125,17 @@ func (o *Outcome) Remeasure(opt axis.Options) {
 			opt.LeadQuality[l] = q.Confidence
 		}
 	}
+	if !opt.Picture.Digitized && o.Calib != nil {
+		law, _ := worstLaw(o.Digitized)
+		opt.Picture = axis.Picture{Digitized: true, ScaleConfidence: o.Calib.Confidence, LawResidualUV: law, Model: opt.Picture.Model}
+	}
 	f, err := axis.Measure(o.Digitized.Record, opt)
 	o.Timings.Measure = time.Since(t)
 	o.Findings, o.MeasureErr = f, err
+	o.Verdict = Judge(o.Calib, o.Digitized, f, err)
+	if o.Verdict.Level == NotReadable {
+		withhold(f)
+	}
 }
 
 // FillProvenance records in rec where it came from: the image, its scale and

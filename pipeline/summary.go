@@ -37,6 +37,8 @@ type Document struct {
 	ImageSHA256 string                          `json:"image_sha256"`
 	Software    string                          `json:"software"`
 	Caution     string                          `json:"caution"`
+	Verdict     Level                           `json:"verdict,omitempty"`
+	Reasons     []Reason                        `json:"verdict_reasons,omitempty"`
 	Calibration CalibrationJSON                 `json:"calibration"`
 	Layout      LayoutJSON                      `json:"layout"`
 	Quality     map[string]digitize.LeadQuality `json:"quality"`
@@ -76,6 +78,12 @@ func (o *Outcome) Document() Document {
 	}
 	if o.MeasureErr != nil {
 		d.MeasureErr = o.MeasureErr.Error()
+	}
+	if o.Digitized != nil {
+		d.Verdict, d.Reasons = o.Verdict.Level, o.Verdict.Reasons
+		if d.Reasons == nil {
+			d.Reasons = []Reason{}
+		}
 	}
 	ms := func(t interface{ Seconds() float64 }) float64 { return t.Seconds() * 1000 }
 	d.TimingsMS = map[string]float64{

@@ -44,9 +44,11 @@ func TestMeasuredNumbersPrinted(t *testing.T) {
 		t.Fatalf("pdftotext: %v", err)
 	}
 	txt := strings.Join(strings.Fields(string(out)), " ")
-	hr := fmt.Sprintf("%.0f", float64(f.HeartRateBPM))
-	if f.HeartRateSD.OK() && f.HeartRateSD > 0 {
-		hr += fmt.Sprintf(" ± %.0f", float64(f.HeartRateSD))
+	// The ± printed is half the engine's 90 % interval.
+	val, pm := FormatValue(float64(f.HeartRateBPM), float64(f.HeartRateCI90[1]-f.HeartRateCI90[0])/2, 0)
+	hr := val
+	if pm != "" {
+		hr += " ± " + pm
 	}
 	qrs := fmt.Sprintf("%+.0f°", math.Round(float64(f.Axis.QRSDeg)))
 	if qrs == "+0°" || qrs == "-0°" {

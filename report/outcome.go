@@ -107,6 +107,17 @@ func FromOutcome(o *pipeline.Outcome, opt pipeline.ExportOptions) (*Summary, err
 	}
 	s.Facts = append(s.Facts, fmt.Sprintf("layout %s; %s", orWord(layout, "unknown"), pipeline.Software))
 
+	v := o.Verdict
+	s.Verdict, s.VerdictLevel = v.Level.Label(), string(v.Level)
+	for _, r := range v.Reasons {
+		t := r.Text
+		if r.Do != "" {
+			t += " (" + r.Do + ")"
+		}
+		s.VerdictReasons = append(s.VerdictReasons, t)
+	}
+	// The Checks list starts with the verdict's reasons, in full.
+	s.QualityNotes = append(s.QualityNotes, s.VerdictReasons...)
 	if o.Findings != nil {
 		s.AddFindings(o.Findings)
 	} else if o.MeasureErr != nil {

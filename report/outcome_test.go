@@ -40,6 +40,8 @@ func TestWriteOutcome(t *testing.T) {
 			Quality: map[string]digitize.LeadQuality{"I": {Confidence: 0.91}, "II": {Confidence: 0.42}},
 			Laws:    []digitize.LawCheck{{T0S: 0, T1S: 2.5, EinthovenRMSuV: 12, GoldbergerRMSuV: [3]float64{8, -1, 9}, Worst: "III"}},
 		},
+		Verdict: pipeline.Verdict{Level: pipeline.NotReadable, Reasons: []pipeline.Reason{
+			{Code: "layout_misfit", Level: pipeline.NotReadable, Text: "the limb leads break the laws", Do: "give the layout by hand"}}},
 	}
 	var buf bytes.Buffer
 	opt := pipeline.ExportOptions{Paper: "letter", Header: map[string]string{"Name": "Test Person", "ward": "7B"}}
@@ -61,10 +63,11 @@ func TestWriteOutcome(t *testing.T) {
 	for _, want := range []string{
 		"Test Person", "WARD", "7B", "scan-17.png", "sha256 abababababab", "11.81 × 11.79 px/mm from the grid",
 		"II = I + III off by 12 µV", "aVR 8 µV", "42%", "Source image with the traced leads",
+		"Not to be read", "the limb leads break the laws (give the layout by hand)",
 		pipeline.Caution,
 	} {
 		if !strings.Contains(txt, want) {
-			t.Errorf("page text lacks %q", want)
+			t.Errorf("page text lacks %q\n%s", want, txt)
 		}
 	}
 	if strings.Count(txt, pipeline.Caution) != 2 {

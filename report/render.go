@@ -162,6 +162,7 @@ func Render(w io.Writer, s *Summary, paper string) error {
 	pdf.AddPage()
 	c.header(s)
 	c.leads(s)
+	c.verdict(s)
 	c.findings(s)
 	c.caution(s.Caution, 1, pages)
 	if s.Source != nil {
@@ -384,7 +385,7 @@ func (c *canvas) findings(s *Summary) {
 	c.heading(x0, y0, "Measurements")
 	c.font("", 6.5)
 	c.color(colMuted)
-	c.text(x0+74, y0, "value ± uncertainty", 'R')
+	c.text(x0+74, y0, "value ± 90 % interval", 'R')
 	y := y0 + 5
 	const rowH = 4.1
 	for _, r := range s.Measurements {

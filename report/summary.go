@@ -35,9 +35,15 @@ type Summary struct {
 	Category     string // the QRS axis category in words
 	Transition   string // the precordial transition, e.g. "V3"
 	Flags        []string
-	Quality      []Quality // per-lead quality figures
-	QualityNotes []string  // lead-law checks, places to check by hand
-	Caution      string    // required; printed on every page
+	// Verdict is the page's verdict in words ("read with care"),
+	// VerdictLevel its code (ready, care, not_readable) and
+	// VerdictReasons the reasons with what to do; "" draws no band.
+	Verdict        string
+	VerdictLevel   string
+	VerdictReasons []string
+	Quality        []Quality // per-lead quality figures
+	QualityNotes   []string  // lead-law checks, places to check by hand
+	Caution        string    // required; printed on every page
 
 	// Source is the image the leads were traced from (page 2), and
 	// Overlay the traced leads drawn over it, in Source's own pixel

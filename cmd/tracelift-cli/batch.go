@@ -165,6 +165,11 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		return 1
 	}
 	fmt.Fprintf(stdout, "%d files: %d digitized, %d up to date, %d failed\n", len(rep.Results), rep.OK, rep.Skipped, rep.Failed)
+	var rows []batch.Row
+	for _, r := range rep.Results {
+		rows = append(rows, r.Row())
+	}
+	fmt.Fprintf(stdout, "pages by verdict: %s\n", batch.CountVerdicts(rows))
 	fmt.Fprintln(stdout, "summary:", rep.SummaryPath)
 	fmt.Fprintln(stdout, "log:    ", rep.LogPath)
 	fmt.Fprintln(stdout, pipeline.Caution)

@@ -77,6 +77,7 @@ func cmdMerge(args []string, stdout, stderr io.Writer) int {
 		return 1
 	}
 	fmt.Fprintf(stdout, "joined %d summaries: %d files, %d failed\n", len(paths), len(rep.Rows), len(rep.Failed))
+	fmt.Fprintf(stdout, "pages by verdict: %s\n", batch.CountVerdicts(rep.Rows))
 	fmt.Fprintln(stdout, "wrote", dst)
 	fmt.Fprintln(stdout, pipeline.Caution)
 	bad := false

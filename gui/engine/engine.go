@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"image"
 	"math"
+	"sync"
 
 	"github.com/disintegration/imaging"
 
@@ -32,6 +33,9 @@ type Backend struct {
 	Options pipeline.Options // base options; the user's settings go on top
 	// ExportOptions for the writers; the PDF writer defaults to report.Write.
 	ExportOptions pipeline.ExportOptions
+
+	mu   sync.Mutex
+	last *state // the page last analysed, for the page's verdict
 }
 
 // state is what the model carries opaquely for us.
@@ -103,6 +107,9 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 		PageCount: max(pg.PageCount, 1),
 		Handle:    &state{o: o},
 	}
+	b.mu.Lock()
+	b.last = a.Handle.(*state)
+	b.mu.Unlock()
 	if a.Name == "" {
 		a.Name = pg.Path
 	}
@@ -207,11 +214,35 @@ func (b *Backend) Resignal(a *model.Analysis, panels []model.Panel) (*record.Rec
 func (b *Backend) Measure(rec *record.Record, quality map[string]float64) (*model.Summary, error) {
 	opt := b.Options.Measure
 	opt.LeadQuality = quality
-	f, err := axis.Measure(rec, opt)
-	if err != nil {
-		return nil, err
+	b.mu.Lock()
+	st := b.last
+	b.mu.Unlock()
+	if st == nil || st.o == nil || st.o.Digitized == nil || st.o.Calib == nil {
+		f, err := axis.Measure(rec, opt)
+		if err != nil {
+			return nil, err
+		}
+		return Summarize(f), nil
 	}
-	return Summarize(f), nil
+	// The pipeline's own path, so the page's verdict comes with the
+	// findings (and withholds them when the page is not to be read).
+	dr := *st.o.Digitized
+	dr.Record = rec
+	o := &pipeline.Outcome{Page: st.o.Page, Calib: st.o.Calib, Digitized: &dr}
+	o.Remeasure(opt)
+	if o.MeasureErr != nil {
+		return nil, o.MeasureErr
+	}
+	s := Summarize(o.Findings)
+	s.Verdict, s.VerdictLevel = o.Verdict.Level.Label(), string(o.Verdict.Level)
+	for _, r := range o.Verdict.Reasons {
+		t := r.Text
+		if r.Do != "" {
+			t += " — " + r.Do
+		}
+		s.VerdictReasons = append(s.VerdictReasons, t)
+	}
+	return s, nil
 }
 
 // Summarize turns the engine's findings into the model's summary.
@@ -225,20 +256,20 @@ func Summarize(f *axis.Findings) *model.Summary {
 	iv := f.IntervalsMS
 	s := &model.Summary{
 		Values: []model.Value{
-			{Key: "heart_rate_bpm", Label: "Heart rate", Unit: "bpm", V: n(f.HeartRateBPM), SD: n(f.HeartRateSD)},
-			{Key: "pr", Label: "PR", Unit: "ms", V: n(iv.PR), SD: n(iv.PRSD)},
-			{Key: "qrs", Label: "QRS", Unit: "ms", V: n(iv.QRS), SD: n(iv.QRSSD)},
-			{Key: "qt", Label: "QT", Unit: "ms", V: n(iv.QT), SD: n(iv.QTSD)},
-			{Key: "qtc_bazett", Label: "QTc Bazett", Unit: "ms", V: n(iv.QTcBazett), SD: n(iv.QTcSD)},
+			{Key: "heart_rate_bpm", Label: "Heart rate", Unit: "bpm", V: n(f.HeartRateBPM), SD: half(f.HeartRateCI90, f.HeartRateSD)},
+			{Key: "pr", Label: "PR", Unit: "ms", V: n(iv.PR), SD: half(iv.PRCI90, iv.PRSD)},
+			{Key: "qrs", Label: "QRS", Unit: "ms", V: n(iv.QRS), SD: half(iv.QRSCI90, iv.QRSSD)},
+			{Key: "qt", Label: "QT", Unit: "ms", V: n(iv.QT), SD: half(iv.QTCI90, iv.QTSD)},
+			{Key: "qtc_bazett", Label: "QTc Bazett", Unit: "ms", V: n(iv.QTcBazett), SD: half(iv.QTcBazettCI90, iv.QTcSD)},
 			{Key: "qtc_fridericia", Label: "QTc Fridericia", Unit: "ms", V: n(iv.QTcFridericia), SD: math.NaN()},
 			{Key: "qtc_framingham", Label: "QTc Framingham", Unit: "ms", V: n(iv.QTcFramingham), SD: math.NaN()},
 			{Key: "qtc_hodges", Label: "QTc Hodges", Unit: "ms", V: n(iv.QTcHodges), SD: math.NaN()},
-			{Key: "qrs_deg", Label: "QRS axis", Unit: "°", V: n(f.Axis.QRSDeg), SD: n(f.Axis.QRSDegSD)},
-			{Key: "p_deg", Label: "P axis", Unit: "°", V: n(f.Axis.PDeg), SD: n(f.Axis.PDegSD)},
-			{Key: "t_deg", Label: "T axis", Unit: "°", V: n(f.Axis.TDeg), SD: n(f.Axis.TDegSD)},
+			{Key: "qrs_deg", Label: "QRS axis", Unit: "°", V: n(f.Axis.QRSDeg), SD: half(f.Axis.QRSDegCI90, f.Axis.QRSDegSD)},
+			{Key: "p_deg", Label: "P axis", Unit: "°", V: n(f.Axis.PDeg), SD: half(f.Axis.PDegCI90, f.Axis.PDegSD)},
+			{Key: "t_deg", Label: "T axis", Unit: "°", V: n(f.Axis.TDeg), SD: half(f.Axis.TDegCI90, f.Axis.TDegSD)},
 		},
 		QRSAxisDeg: n(f.Axis.QRSDeg), PAxisDeg: n(f.Axis.PDeg), TAxisDeg: n(f.Axis.TDeg),
-		AxisClass:  f.Axis.QRSCategory,
+		AxisClass:  axisClass(f.Axis),
 		Transition: f.Transition,
 		Rhythm:     f.Rhythm,
 		Caution:    model.Caution,
@@ -257,6 +288,26 @@ func Summarize(f *axis.Findings) *model.Summary {
 		s.Flags = append(s.Flags, fmt.Sprintf("%d premature beats", f.Premature))
 	}
 	return s
+}
+
+// axisClass is the axis category, or both sides when the interval
+// crosses a limit.
+func axisClass(a axis.Axes) string {
+	if a.QRSCategoryRange != "" {
+		return "borderline: " + a.QRSCategoryRange
+	}
+	return a.QRSCategory
+}
+
+// half returns the half-width of a 90 % interval, or sd when there is none.
+func half(ci [2]axis.Num, sd axis.Num) float64 {
+	if ci[0].OK() && ci[1].OK() {
+		return float64(ci[1]-ci[0]) / 2
+	}
+	if sd.OK() {
+		return float64(sd)
+	}
+	return math.NaN()
 }
 
 func fmtDeg(v float64) string {

@@ -110,7 +110,7 @@ type Value struct {
 	Label string  // shown to the user
 	Unit  string  // "bpm", "ms", "°"
 	V     float64 // the value
-	SD    float64 // its standard uncertainty, NaN when unknown
+	SD    float64 // its uncertainty (half the 90 % interval where the engine gives one), NaN when unknown
 }
 
 // Summary is what the findings view shows.
@@ -126,6 +126,12 @@ type Summary struct {
 	Flags       []string
 	Caution     string
 	Detail      any // the engine's own findings, for export
+	// Verdict is the page's verdict in words ("read with care"),
+	// VerdictLevel its code (ready, care, not_readable), VerdictReasons
+	// the reasons with what to do; "" when no page was read.
+	Verdict        string
+	VerdictLevel   string
+	VerdictReasons []string
 }
 
 // Get returns the value with the given key.
