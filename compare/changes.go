@@ -54,10 +54,13 @@ func (c *comparer) value(i int, name string) item {
 	case ItemTAxis:
 		v, sd = float64(f.Axis.TDeg), float64(f.Axis.TDegSD)
 	case ItemTransition:
-		// No spread is reported for the transition; the interpolated
-		// position moves by about this much between readings of one
-		// record (this package's allowance).
-		v, sd = float64(f.TransitionAt), 0.3
+		// The engine reports no spread for the transition: it is found
+		// here by placing the transition again with every precordial R
+		// and S moved to the ends of their intervals, both ways (R up and
+		// S shallower, then the reverse); a lead whose R and S are both
+		// small can move it by several positions.
+		v = float64(f.TransitionAt)
+		sd = c.transitionSpread(i, v) / z90
 	}
 	if !axis.Num(v).OK() {
 		return item{math.NaN(), math.NaN()}
@@ -66,7 +69,62 @@ func (c *comparer) value(i int, name string) item {
 	if axis.Num(sd).OK() {
 		spread = z90 * sd
 	}
-	return item{v, c.opt.Uncertainty(s, name, "", v, spread)}
+	u := c.opt.Uncertainty(s, name, "", v, spread)
+	if name == ItemQRSAxis || name == ItemPAxis || name == ItemTAxis {
+		u = math.Min(180, math.Hypot(u, c.clockTerm(f, name)))
+	}
+	return item{v, u}
+}
+
+// clockTerm is how far an axis of f turns when its wave's window is moved
+// by half the spread of the leads' shifts (Result.ClockSpreadMS) either
+// way: a column placed that far off the others in time reads its areas
+// over the wrong stretch. At most 180°.
+func (c *comparer) clockTerm(f *axis.Findings, name string) float64 {
+	lag := int(math.Round(c.res.ClockSpreadMS / 2 / gridMS))
+	if lag == 0 {
+		return 0
+	}
+	_, d0, _ := netVectorAt(f, name, 0)
+	worst := 0.0
+	for _, l := range []int{-lag, lag} {
+		m, d, _ := netVectorAt(f, name, l)
+		if m == 0 {
+			return 45
+		}
+		worst = math.Max(worst, math.Abs(math.Mod(d-d0+540, 360)-180))
+	}
+	return worst
+}
+
+// transitionSpread returns how far side i's transition moves when its
+// precordial R and S are taken at the ends of their 90 % intervals (5
+// positions when it can then no longer be placed).
+func (c *comparer) transitionSpread(i int, pos float64) float64 {
+	r, s := make([]float64, 6), make([]float64, 6)
+	ur, us := make([]float64, 6), make([]float64, 6)
+	for k, l := range record.Precordial {
+		r[k], s[k] = math.NaN(), math.NaN()
+		if x, _ := template(c.side(i).Findings, l); x == nil {
+			continue
+		}
+		w, u := c.leadValues(i, l)
+		r[k], s[k], ur[k], us[k] = w.r, w.s, u[ItemR], u[ItemS]
+	}
+	worst := 0.0
+	for _, sign := range []float64{1, -1} {
+		r2, s2 := make([]float64, 6), make([]float64, 6)
+		for k := range r {
+			r2[k] = r[k] + sign*ur[k]
+			s2[k] = math.Min(0, s[k]+sign*us[k])
+		}
+		p := transitionAt(r2, s2)
+		if math.IsNaN(p) {
+			return 5
+		}
+		worst = math.Max(worst, math.Abs(p-pos))
+	}
+	return worst
 }
 
 // change fills a Change from the two items; angular items differ on the
@@ -215,7 +273,7 @@ func (c *comparer) leadValues(i int, lead string) (waveSet, map[string]float64) 
 	if sig := s.Record.Lead(lead); sig != nil {
 		beats = beatWaves(f, sig)
 	}
-	for _, it := range leadItems {
+	for _, it := range append(leadItems, itemNeg) {
 		sp := spread90(beats, it)
 		if math.IsNaN(sp) {
 			sp = fewBeatsMV
@@ -254,14 +312,16 @@ func (c *comparer) leads() {
 			if th, ok := Thresholds[it]; ok {
 				ch.Threshold = th.Rule
 			}
-			c.judgeLead(&ch, wa, wb)
+			c.judgeLead(&ch, wa, wb, math.Hypot(ua[itemNeg], ub[itemNeg]), math.Hypot(ua[ItemQDur], ub[ItemQDur]))
 			c.res.Changes = append(c.res.Changes, ch)
 		}
 	}
 }
 
 // judgeLead decides whether a per-lead change is raised.
-func (c *comparer) judgeLead(ch *Change, wa, wb waveSet) {
+// uNeg and uQDur are the combined half-widths of the QRS's deepest point
+// and of the Q duration.
+func (c *comparer) judgeLead(ch *Change, wa, wb waveSet, uNeg, uQDur float64) {
 	if !ch.Beyond {
 		return
 	}
@@ -283,7 +343,7 @@ func (c *comparer) judgeLead(ch *Change, wa, wb waveSet) {
 		isQ := func(w waveSet) bool {
 			return w.q <= -Thresholds[ItemQ].Value && w.qdur >= qMinMS(l)
 		}
-		if isQ(wb) && !isQ(wa) && d < 0 {
+		if isQ(wb) && !isQ(wa) && d < 0 && wb.qdur-wa.qdur > uQDur {
 			ch.Raised, ch.Kind = true, KindNewQ
 			ch.Message += fmt.Sprintf("; a Q wave %.2f mV deep and %.0f ms long is new", -wb.q, wb.qdur)
 		}
@@ -291,16 +351,21 @@ func (c *comparer) judgeLead(ch *Change, wa, wb waveSet) {
 		if l == record.AVR {
 			return
 		}
-		th := Thresholds[ItemT].Value
-		switch {
-		case wa.t >= th && wb.t <= -th:
+		switch pa, pb := wa.tPolarity(), wb.tPolarity(); {
+		case pa == 1 && pb == -1:
 			ch.Raised, ch.Kind = true, KindNewTInversion
-		case wa.t <= -th && wb.t >= th:
+		case pa == -1 && pb == 1:
 			ch.Raised, ch.Kind = true, KindTUpright
 		}
 	case ItemR, ItemS:
 		a, b := math.Abs(float64(ch.Before)), math.Abs(float64(ch.After))
-		if math.Abs(d) >= Thresholds[ch.Item].Value && math.Abs(d) >= 0.25*math.Max(a, b) {
+		big := math.Abs(d) >= Thresholds[ch.Item].Value && math.Abs(d) >= 0.25*math.Max(a, b)
+		// An S whose depth moved while the QRS's deepest point did not is
+		// the same wave read as Q on one side (a small R moved).
+		if ch.Item == ItemS && !(math.Abs(wb.neg-wa.neg) > uNeg) {
+			big = false
+		}
+		if big {
 			ch.Raised, ch.Kind = true, KindAmplitude
 		}
 	}

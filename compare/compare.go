@@ -111,6 +111,11 @@ type Result struct {
 	// different gains.
 	GainFactor   axis.Num `json:"gain_factor"`
 	GainMismatch bool     `json:"gain_mismatch"`
+	// ClockSpreadMS is the range of the leads' shifts (leads whose beats
+	// correlate over 0.8): near 0 when both tracings put every lead on
+	// one clock, tens of ms when one tracing's columns sit apart in time,
+	// which moves the fiducials against some leads.
+	ClockSpreadMS float64 `json:"clock_spread_ms"`
 	// Exchange is set when B's leads look reversed or mislabelled
 	// against A's; the changes are then those of B with it undone.
 	Exchange *Exchange `json:"likely_exchange,omitempty"`
@@ -329,12 +334,24 @@ func (r *Result) align() {
 	lo, hi := qrsWindow()
 	qhi := int((onsetPreMS + 120) / gridMS)
 	var gains []float64
+	shLo, shHi := math.Inf(1), math.Inf(-1)
 	for _, p := range r.Beats {
 		sh, corr, _, dist := bestFit(p.A, p.B, lo, hi, 40)
+		if corr > 0.8 {
+			shLo, shHi = math.Min(shLo, float64(sh)*gridMS), math.Max(shHi, float64(sh)*gridMS)
+		}
 		_, g, _, _ := fit(p.A, p.B, lo, qhi, sh)
 		r.Alignment = append(r.Alignment, Alignment{Lead: p.Lead, ShiftMS: float64(sh) * gridMS, Gain: g, Corr: corr, Distance: dist})
 		if !math.IsNaN(g) && corr > 0.8 && peakToPeak(p.A[lo:qhi]) >= 0.5 {
 			gains = append(gains, g)
+		}
+	}
+	if shHi >= shLo {
+		r.ClockSpreadMS = shHi - shLo
+		// 10 ms: five samples, more than the alignment of two readings of
+		// one simultaneous record moves (0 to 4 ms on the test records).
+		if r.ClockSpreadMS >= 10 {
+			r.Notes = append(r.Notes, fmt.Sprintf("the leads' beats line up only with shifts spread over %.0f ms: one tracing's columns may sit apart in time, which moves its fiducials against some leads; the axes are given a wider interval for it", r.ClockSpreadMS))
 		}
 	}
 	if len(gains) < 3 {

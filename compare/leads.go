@@ -3,6 +3,7 @@ package compare
 import (
 	"math"
 
+	"tracelift/axis"
 	"tracelift/record"
 )
 
@@ -174,4 +175,121 @@ func (e exchange) covers(a, b map[string][]float64) bool {
 		}
 	}
 	return true
+}
+
+// netVector returns the magnitude (mV·ms, in lead I's units) of the net
+// frontal vector of a wave of f's representative beats, a least-squares
+// fit to the net areas of the limb leads present, and the wave's span in
+// ms (QRS onset to offset; P onset to offset; QRS offset to T end). Zero
+// when it cannot be measured.
+func netVector(f *axis.Findings, item string) (mag, spanMS float64) {
+	mag, _, spanMS = netVectorAt(f, item, 0)
+	return mag, spanMS
+}
+
+// netVectorAt is netVector with the wave's window moved by lag samples,
+// and also returns the vector's hexaxial angle in degrees.
+func netVectorAt(f *axis.Findings, item string, lag int) (mag, deg, spanMS float64) {
+	if f == nil {
+		return 0, 0, 0
+	}
+	fd := f.Fiducials
+	var from, to axis.Num
+	switch item {
+	case ItemQRSAxis:
+		from, to = fd.QRSOn, fd.QRSOff
+	case ItemPAxis:
+		from, to = fd.POn, fd.POff
+	default:
+		from, to = fd.QRSOff, fd.TEnd
+	}
+	if !from.OK() || !to.OK() || !fd.QRSOn.OK() || to <= from {
+		return 0, 0, 0
+	}
+	var sxx, sxy, syy, bx, by float64
+	n := 0
+	for _, l := range record.Limb6 {
+		x, r0 := template(f, l)
+		if x == nil {
+			continue
+		}
+		// Baseline: the 8 ms before the QRS onset (before the P onset for
+		// P), as the engine measures areas.
+		b0 := r0 + lag + int(math.Round(float64(fd.QRSOn)/gridMS))
+		if item == ItemPAxis {
+			b0 = r0 + lag + int(math.Round(float64(fd.POn)/gridMS))
+		}
+		i0 := r0 + lag + int(math.Round(float64(from)/gridMS))
+		i1 := r0 + lag + int(math.Round(float64(to)/gridMS))
+		if b0 < 4 || i0 < 0 || i1 >= len(x) {
+			continue
+		}
+		var base float64
+		for k := b0 - 4; k <= b0; k++ {
+			base += x[k]
+		}
+		base /= 5
+		var area float64
+		for k := i0; k <= i1; k++ {
+			if !math.IsNaN(x[k]) {
+				area += (x[k] - base) * gridMS
+			}
+		}
+		if math.IsNaN(area) {
+			continue
+		}
+		h := hexaxial[l]
+		gx := h.gain * math.Cos(h.deg*math.Pi/180)
+		gy := h.gain * math.Sin(h.deg*math.Pi/180)
+		sxx += gx * gx
+		sxy += gx * gy
+		syy += gy * gy
+		bx += gx * area
+		by += gy * area
+		n++
+	}
+	det := sxx*syy - sxy*sxy
+	if n < 2 || det < 1e-9 {
+		return 0, 0, 0
+	}
+	vx := (syy*bx - sxy*by) / det
+	vy := (sxx*by - sxy*bx) / det
+	return math.Hypot(vx, vy), math.Atan2(vy, vx) * 180 / math.Pi, float64(to - from)
+}
+
+// transitionAt places the precordial transition where log(R/|S|) crosses
+// zero between neighbouring leads V1..V6 (r, s indexed 0..5, NaN where
+// missing), as the measurement engine does (a floor of 0.01 mV on both):
+// 1 when V1 is already R-dominant, 6 when V6 still is not, NaN when it
+// cannot be placed.
+func transitionAt(r, s []float64) float64 {
+	ratio := make([]float64, 6)
+	first, last := -1, -1
+	for i := range 6 {
+		ratio[i] = math.NaN()
+		if math.IsNaN(r[i]) || math.IsNaN(s[i]) {
+			continue
+		}
+		ratio[i] = math.Log(math.Max(math.Max(r[i], 0), 0.01) / math.Max(math.Abs(s[i]), 0.01))
+		if first < 0 {
+			first = i
+		}
+		last = i
+	}
+	if first < 0 || last == first {
+		return math.NaN()
+	}
+	for i := first; i < last; i++ {
+		a, b := ratio[i], ratio[i+1]
+		if !math.IsNaN(a) && !math.IsNaN(b) && a < 0 && b >= 0 {
+			return float64(i+1) + (0-a)/(b-a)
+		}
+	}
+	switch {
+	case ratio[first] >= 0 && first == 0:
+		return 1
+	case ratio[last] < 0 && last == 5:
+		return 6
+	}
+	return math.NaN()
 }

@@ -20,11 +20,29 @@ const gridMS = 1000 / gridHz
 // deflection from J+60 ms to the T end.
 type waveSet struct {
 	q, qdur, r, s, st, t float64
+	// neg is the deepest point of the QRS (Q or S, whichever R's place
+	// makes it); tPos and tNeg the highest and lowest points of T.
+	neg, tPos, tNeg float64
 }
 
 func nanWaves() waveSet {
 	n := math.NaN()
-	return waveSet{n, n, n, n, n, n}
+	return waveSet{n, n, n, n, n, n, n, n, n}
+}
+
+// tPolarity reads T as +1 (upright: at least 0.1 mV up and its downward
+// part under half of that), -1 (inverted, the mirror) or 0 (flat or
+// biphasic), so that a biphasic T whose two halves trade places is not
+// read as a new inversion (this package's rule; 0.1 mV as in Thresholds).
+func (w waveSet) tPolarity() int {
+	th := Thresholds[ItemT].Value
+	switch {
+	case w.tPos >= th && -w.tNeg < w.tPos/2:
+		return 1
+	case -w.tNeg >= th && w.tPos < -w.tNeg/2:
+		return -1
+	}
+	return 0
 }
 
 // beatFid holds a beat's fiducials as indices into its samples.
@@ -73,6 +91,7 @@ func measureWaves(x []float64, fd beatFid) waveSet {
 	if math.IsInf(mn, 1) {
 		return w
 	}
+	w.neg = math.Min(0, mn)
 	end := off
 	if ri < 0 {
 		w.r, w.s = 0, 0
@@ -121,18 +140,22 @@ func measureWaves(x []float64, fd beatFid) waveSet {
 	if fd.tEnd > 0 {
 		tv := 0.0
 		seen := false
+		w.tPos, w.tNeg = 0, 0
 		for k := off + int(math.Round(60/gridMS)); k <= fd.tEnd && k < len(x); k++ {
 			v := x[k] - base
 			if math.IsNaN(v) {
 				continue
 			}
 			seen = true
+			w.tPos, w.tNeg = math.Max(w.tPos, v), math.Min(w.tNeg, v)
 			if math.Abs(v) > math.Abs(tv) {
 				tv = v
 			}
 		}
 		if seen {
 			w.t = tv
+		} else {
+			w.tPos, w.tNeg = math.NaN(), math.NaN()
 		}
 	}
 	return w
@@ -153,12 +176,18 @@ func (w waveSet) get(item string) float64 {
 		return w.st
 	case ItemT:
 		return w.t
+	case itemNeg:
+		return w.neg
 	}
 	return math.NaN()
 }
 
 // leadItems are the per-lead items, in the order they are listed.
 var leadItems = []string{ItemQ, ItemQDur, ItemR, ItemS, ItemST, ItemT}
+
+// itemNeg is the QRS's deepest point, kept to tell a Q read as an S (or
+// the reverse, when a small R moves) from a change; it is not listed.
+const itemNeg = "qrs_min_mv"
 
 // templateFid returns the fiducials of f on a template whose R sits at
 // index r0.
