@@ -158,6 +158,27 @@ func lengthenQT(rec *record.Record, f *axis.Findings, dms float64) *record.Recor
 	return out
 }
 
+// armsReversed records rec as with the left and right arm electrodes
+// exchanged, from the electrode potentials' definitions (common
+// practice): I = LA − RA becomes −I, II = LL − RA becomes III, III
+// becomes II, aVR and aVL trade places, aVF stays.
+func armsReversed(rec *record.Record) *record.Record {
+	out := rec.Clone()
+	set := func(dst, src string, sign float64) {
+		s := rec.Lead(src)
+		d := out.Lead(dst)
+		for k := range d.MV {
+			d.MV[k] = sign * s.MV[k]
+		}
+	}
+	set("I", "I", -1)
+	set("II", "III", 1)
+	set("III", "II", 1)
+	set("aVR", "aVL", 1)
+	set("aVL", "aVR", 1)
+	return out
+}
+
 // swapLabels exchanges two leads' names.
 func swapLabels(rec *record.Record, a, b string) *record.Record {
 	out := rec.Clone()
@@ -186,6 +207,7 @@ func TestInjectedChanges(t *testing.T) {
 		{name: "ST +0.15 mV in V2 and V3", b: addST(base, f, 0.15, "V2", "V3"), want: []string{"V2 " + ItemST, "V3 " + ItemST}},
 		{name: "QT +80 ms", b: lengthenQT(base, f, 80), want: []string{ItemQT, ItemQTc}},
 		{name: "I and aVL swapped", b: swapLabels(base, "I", "aVL"), exchange: "swapped_I_aVL"},
+		{name: "arm electrodes reversed", b: armsReversed(base), exchange: "la_ra_reversed"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
