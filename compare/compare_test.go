@@ -237,3 +237,28 @@ func TestInjectedChanges(t *testing.T) {
 		})
 	}
 }
+
+// A tracing printed or read at twice the gain (20 mm/mV taken for 10,
+// say) is every lead times 2: the common factor is reported and the
+// amplitude changes it accounts for are not raised.
+func TestGainMismatchExplained(t *testing.T) {
+	t.Parallel()
+	base := window(ptb(t), 0, 10)
+	b := base.Clone()
+	for i := range b.Signals {
+		for k := range b.Signals[i].MV {
+			b.Signals[i].MV[k] *= 2
+		}
+	}
+	r, err := Compare(Side{Label: "10 mm/mV", Record: base}, Side{Label: "20 mm/mV", Record: b}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("\n%s", table(r, testing.Verbose()))
+	if !r.GainMismatch || math.Abs(float64(r.GainFactor)-2) > 0.05 {
+		t.Errorf("gain factor %.3f (mismatch %v), want 2", float64(r.GainFactor), r.GainMismatch)
+	}
+	if k := raisedKeys(r); len(k) > 0 {
+		t.Errorf("raised %v, want nothing beyond the gain", k)
+	}
+}
