@@ -3,6 +3,9 @@ package compare
 import (
 	"fmt"
 	"math"
+	"slices"
+	"sort"
+	"strings"
 
 	"tracelift/axis"
 	"tracelift/record"
@@ -15,6 +18,8 @@ type comparer struct {
 	res  *Result
 	// per-lead values of each side, kept for the explanations.
 	vals [2]map[string]waveSet
+	// blurred lists each side's leads whose representative beat is a blur.
+	blurred [2][]string
 }
 
 // item is one side's value with its 90 % half-width.
@@ -108,7 +113,7 @@ func (c *comparer) transitionSpread(i int, pos float64) float64 {
 		if x, _ := template(c.side(i).Findings, l); x == nil {
 			continue
 		}
-		w, u := c.leadValues(i, l)
+		w, u, _ := c.leadValues(i, l)
 		r[k], s[k], ur[k], us[k] = w.r, w.s, u[ItemR], u[ItemS]
 	}
 	worst := 0.0
@@ -246,11 +251,16 @@ func describe(ch Change) string {
 
 // leadValues measures side i's representative beat of lead with its
 // uncertainty per item, and the beats' values for the spread.
-func (c *comparer) leadValues(i int, lead string) (waveSet, map[string]float64) {
+//
+// coherence is the representative beat's QRS peak to peak over the median
+// of its beats' own: near 1 when the beats were lined up before they were
+// averaged, small when they were not (beats found in the wrong places, a
+// trace lost), so that the representative beat is a blur.
+func (c *comparer) leadValues(i int, lead string) (w waveSet, u map[string]float64, coherence float64) {
 	s := c.side(i)
 	f := s.Findings
 	x, r0 := template(f, lead)
-	w := nanWaves()
+	w = nanWaves()
 	if x != nil {
 		if fd, ok := templateFid(f, r0); ok {
 			w = measureWaves(x, fd)
@@ -268,10 +278,21 @@ func (c *comparer) leadValues(i int, lead string) (waveSet, map[string]float64) 
 			}
 		}
 	}
-	u := map[string]float64{}
+	u = map[string]float64{}
 	var beats []waveSet
 	if sig := s.Record.Lead(lead); sig != nil {
 		beats = beatWaves(f, sig)
+	}
+	coherence = math.NaN()
+	if len(beats) > 0 {
+		pp := make([]float64, 0, len(beats))
+		for _, b := range beats {
+			pp = append(pp, b.r-b.neg)
+		}
+		sort.Float64s(pp)
+		if m := pp[len(pp)/2]; m > 0 {
+			coherence = (w.r - w.neg) / m
+		}
 	}
 	for _, it := range append(leadItems, itemNeg) {
 		sp := spread90(beats, it)
@@ -292,16 +313,34 @@ func (c *comparer) leadValues(i int, lead string) (waveSet, map[string]float64) 
 		}
 		u[it] = c.opt.Uncertainty(s, it, lead, w.get(it), sp)
 	}
-	return w, u
+	return w, u, coherence
 }
+
+// lowConfidence reports whether side i read lead from a picture with a
+// confidence under 0.5 (this package's choice: the digitizer's own
+// warning level for a lead it doubts).
+func (c *comparer) lowConfidence(i int, lead string) bool {
+	s := c.side(i)
+	return s.Digitized && s.quality(lead) < 0.5
+}
+
+// blurredBelow is the coherence under which a lead's representative beat
+// is taken as a blur of misplaced beats: half the beats' own size (this
+// package's choice; two readings of one record gave 0.8 to 1.1).
+const blurredBelow = 0.5
 
 func (c *comparer) leads() {
 	c.vals = [2]map[string]waveSet{{}, {}}
 	for _, p := range c.res.Beats {
 		l := p.Lead
-		wa, ua := c.leadValues(0, l)
-		wb, ub := c.leadValues(1, l)
+		wa, ua, ca := c.leadValues(0, l)
+		wb, ub, cb := c.leadValues(1, l)
 		c.vals[0][l], c.vals[1][l] = wa, wb
+		for i, co := range []float64{ca, cb} {
+			if co < blurredBelow {
+				c.blurred[i] = append(c.blurred[i], l)
+			}
+		}
 		for _, it := range leadItems {
 			unit := "mV"
 			if it == ItemQDur {
@@ -313,7 +352,43 @@ func (c *comparer) leads() {
 				ch.Threshold = th.Rule
 			}
 			c.judgeLead(&ch, wa, wb, math.Hypot(ua[itemNeg], ub[itemNeg]), math.Hypot(ua[ItemQDur], ub[ItemQDur]))
+			switch {
+			case ch.Raised && (ca < blurredBelow || cb < blurredBelow):
+				ch.Raised, ch.ExplainedBy = false, "blurred_beat"
+				ch.Message += "; not raised: a representative beat of this lead is a blur of beats that do not line up"
+			case ch.Raised && (c.lowConfidence(0, l) || c.lowConfidence(1, l)):
+				ch.Raised, ch.ExplainedBy = false, "low_confidence"
+				ch.Message += "; not raised: the digitizer is unsure of this lead's trace; check it by hand"
+			}
 			c.res.Changes = append(c.res.Changes, ch)
+		}
+	}
+	// Axes rest on the limb leads' beats: with three or more of them
+	// blurred on a side, an axis shift is not raised either.
+	for i, names := range c.blurred {
+		if len(names) == 0 {
+			continue
+		}
+		side := "A"
+		if i == 1 {
+			side = "B"
+		}
+		c.res.Notes = append(c.res.Notes, fmt.Sprintf("%s's representative beats of %s are blurs (its beats did not line up: found in the wrong places, or the trace was lost); their changes are listed, not raised; check the tracing", side, strings.Join(names, ", ")))
+		limb := 0
+		for _, l := range names {
+			if slices.Contains(record.Limb6, l) {
+				limb++
+			}
+		}
+		if limb < 3 {
+			continue
+		}
+		for k := range c.res.Changes {
+			ch := &c.res.Changes[k]
+			if ch.Raised && (ch.Item == ItemQRSAxis || ch.Item == ItemPAxis || ch.Item == ItemTAxis) {
+				ch.Raised, ch.ExplainedBy = false, "blurred_beat"
+				ch.Message += "; not raised: the limb leads' beats are blurs on " + side
+			}
 		}
 	}
 }
