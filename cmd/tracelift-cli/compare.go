@@ -29,8 +29,9 @@ func cmdCompare(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("compare", flag.ContinueOnError)
 	out := fs.String("o", "", "output directory (required)")
 	paper := fs.String("paper", "a4", "paper size of the PDF: a4 or letter")
+	dpi := fs.Float64("dpi", 0, "scale of a picture by hand, in dots per inch (used when no grid or pulse gives one)")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli compare EARLIER CURRENT -o DIR [--paper a4|letter]")
+		fmt.Fprintln(stderr, "usage: tracelift-cli compare EARLIER CURRENT -o DIR [--paper a4|letter] [--dpi N]")
 		fmt.Fprintln(stderr, "Each tracing is a picture (PNG, JPEG, TIFF, PDF), a record file (WFDB .hea, CSV, EDF+)")
 		fmt.Fprintln(stderr, "or a JSON written by 'digitize' with its CSV beside it. Writes DIR/<A>-vs-<B>.json and .pdf.")
 		fs.PrintDefaults()
@@ -48,13 +49,20 @@ func cmdCompare(args []string, stdout, stderr io.Writer) int {
 	if _, err := report.PaperByName(*paper); err != nil {
 		return usageError(stderr, "compare", fmt.Sprintf("--paper %q: a4 or letter", *paper))
 	}
+	if *dpi < 0 || *dpi > 10000 {
+		return usageError(stderr, "compare", fmt.Sprintf("--dpi %v: give a resolution between 1 and 10000", *dpi))
+	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
 	var sides [2]compare.Side
 	for i, p := range pos {
-		s, err := loadSide(ctx, p)
+		s, err := loadSide(ctx, p, *dpi)
 		if err != nil {
-			fmt.Fprintf(stderr, "tracelift-cli compare: %s: %v\n", p, err)
+			if strings.Contains(err.Error(), filepath.Base(p)) {
+				fmt.Fprintf(stderr, "tracelift-cli compare: %v\n", err)
+			} else {
+				fmt.Fprintf(stderr, "tracelift-cli compare: %s: %v\n", p, err)
+			}
 			return 1
 		}
 		sides[i] = s
@@ -123,14 +131,16 @@ func compareBrief(r *compare.Result) string {
 
 // loadSide reads one tracing: a picture is digitized, a record file read,
 // our JSON taken with the CSV written beside it.
-func loadSide(ctx context.Context, path string) (compare.Side, error) {
+func loadSide(ctx context.Context, path string, dpi float64) (compare.Side, error) {
 	s := compare.Side{Label: filepath.Base(path)}
 	if _, err := os.Stat(path); err != nil && !(filepath.Ext(path) == "" && exists(path+".hea")) {
 		return s, fmt.Errorf("cannot read it: %w", err)
 	}
 	switch strings.ToLower(filepath.Ext(path)) {
 	case ".png", ".jpg", ".jpeg", ".tif", ".tiff", ".pdf":
-		o, err := pipeline.Process(ctx, path, pipeline.Options{})
+		var opt pipeline.Options
+		opt.Calib.UserDPI = dpi
+		o, err := pipeline.Process(ctx, path, opt)
 		if err != nil {
 			return s, namingFile(err, path)
 		}
