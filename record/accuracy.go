@@ -118,7 +118,13 @@ func score(r, e []float64) Accuracy {
 		d := dr - de
 		sd += d * d
 	}
-	a := Accuracy{N: len(r)}
+	return fromSums(srr, see, sre, sd, len(r))
+}
+
+// fromSums turns the de-meaned sums Σref², Σest², Σref·est and
+// Σ(ref−est)² over n samples into the SNR, Pearson r and RMSE.
+func fromSums(srr, see, sre, sd float64, n int) Accuracy {
+	a := Accuracy{N: n}
 	switch {
 	case sd == 0:
 		a.SNRdB = math.Inf(1)
@@ -130,7 +136,7 @@ func score(r, e []float64) Accuracy {
 	if srr > 0 && see > 0 {
 		a.R = sre / math.Sqrt(srr*see)
 	}
-	a.RMSEuV = 1000 * math.Sqrt(sd/n)
+	a.RMSEuV = 1000 * math.Sqrt(sd/float64(n))
 	return a
 }
 
@@ -220,19 +226,8 @@ func CompareStrict(ref, est *Signal, t0, t1 float64) Accuracy {
 			d := r[i] - de
 			sd += d * d
 		}
-		cur := Accuracy{Lead: ref.Lead, ShiftS: shift, N: n, Coverage: float64(m) / float64(n)}
-		switch {
-		case sd == 0:
-			cur.SNRdB = math.Inf(1)
-		case srr == 0:
-			cur.SNRdB = math.Inf(-1)
-		default:
-			cur.SNRdB = 10 * math.Log10(srr/sd)
-		}
-		if srr > 0 && see > 0 {
-			cur.R = sre / math.Sqrt(srr*see)
-		}
-		cur.RMSEuV = 1000 * math.Sqrt(sd/float64(n))
+		cur := fromSums(srr, see, sre, sd, n)
+		cur.Lead, cur.ShiftS, cur.Coverage = ref.Lead, shift, float64(m)/float64(n)
 		if cur.SNRdB > best.SNRdB {
 			best = cur
 		}
