@@ -81,6 +81,9 @@ type Result struct {
 	Quality    map[string]LeadQuality
 	Laws       []LawCheck
 	Check      []Place
+	// TimeZero says how time 0 was found on the page (T0First, T0Span
+	// or T0Fall); T0Fall may put it off by the pulse's lead-out.
+	TimeZero string
 }
 
 // Expected failures.
@@ -254,7 +257,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 			bestPanels[0].Lead, bestTraces[0].Lead = name, name
 		}
 	}
-	res := &Result{Layout: h.layout, Cabrera: h.cabrera, Panels: bestPanels, Traces: bestTraces}
+	res := &Result{Layout: h.layout, Cabrera: h.cabrera, Panels: bestPanels, Traces: bestTraces, TimeZero: pg.t0From}
 	res.Record = Signals(cal, res.Panels, res.Traces, opt.RateHz)
 	res.Record.Provenance.Layout = h.layout
 	wins := windowsOf(res.Panels)
@@ -303,6 +306,7 @@ type page struct {
 	pxPerS      float64
 	halfLn      float64
 	pxPerMM     float64
+	t0From      string // how time 0 was found (T0First, T0Span, T0Fall)
 }
 
 // rowPitch is the median spacing of the rows, px.
@@ -392,6 +396,7 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 			marks[i].okStart = false
 		}
 	}
+	pg.t0From = hiddenStarts(marks, pg.halfLn, cal.PxPerMM, cal.PxPerMM*cal.SpeedMMPerS)
 	tol := math.Max(1.5, 0.3*cal.PxPerMM)
 	if x0s, L, b, fitted, ok := timeBase(rows, marks, tol); ok && L > 8 {
 		pg.rowX0, pg.span = x0s, L

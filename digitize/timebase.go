@@ -22,6 +22,13 @@ import (
 type rowMarks struct {
 	start, end     float64
 	okStart, okEnd bool
+	// joined is true when the ink runs on unbroken from the falling
+	// stroke of the row's calibration pulse into the trace: the pulse is
+	// printed joined to the trace, and where the trace's first sample
+	// stands is not shown by the ink (fall is the falling stroke's last
+	// inked column then).
+	joined bool
+	fall   int
 }
 
 // inkOn is the highest working-map level needed to count as ink when
@@ -337,6 +344,7 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 	}
 	if last, lo, hi, ok := walkTrace(g, r.x0+span/8, y, ya, yb, -1, gap, solid, stop, on); ok {
 		merged := fallX >= 0 && last <= stop+gap
+		m.fall = fallX
 		if fallX >= 0 {
 			// A walk that bridged the gap ran along the pulse's lead-out:
 			// the trace starts after the first dip in the ink along the
@@ -353,6 +361,15 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 		}
 		m.start = capEdge(g, last, lo, hi, -1, pxPerMM, hw)
 		m.okStart = last > 1 && !merged && last <= startRef+int(3*pxPerMM)
+		// Joined: every column of the 3 mm after the falling stroke holds
+		// ink somewhere in the row's band. A gap printed between the pulse
+		// and the trace empties whole columns; where the pulse is joined,
+		// the lead-out and the first waves fill them, however far the
+		// trace's first sample stands off the lead-out's level.
+		if fallX >= 0 {
+			band := int(math.Ceil(8 * pxPerMM))
+			m.joined = !emptyColumn(g, fallX+1, fallX+1+int(math.Ceil(3*pxPerMM)), max(ya, y-band), min(yb, y+band+1), max(2, int(math.Ceil(hw))), on)
+		}
 	}
 	return m
 }
@@ -587,4 +604,103 @@ func sparseAfter(g *gray, last, ref, y, band int, on uint8) bool {
 	ya, yb := max(0, y-band), min(g.h, y+band+1)
 	c, ok := inkedShare(g, last+1, ref+1, ya, yb, int(on))
 	return ok && c < 1.0/3
+}
+
+// How time 0 was found on a page.
+const (
+	// T0First: the first ink after the gap that follows the pulse, or
+	// after the margin.
+	T0First = "first ink of the traces"
+	// T0Span: the pulse is joined to the traces, so their start is not
+	// shown; time 0 stands one standard duration before the traces' end.
+	T0Span = "traces' end and a 10 s page"
+	// T0Fall: the pulse is joined to the traces and the span does not
+	// fit a standard page; time 0 is taken at the pulse's falling stroke
+	// and may be late or early by the pulse's lead-out.
+	T0Fall = "falling stroke of the joined pulse"
+)
+
+// printedS is the duration a full page of a standard resting ECG shows
+// (common practice: 10 s recorded, every layout spreading those 10 s over
+// its columns).
+const printedS = 10.0
+
+// hiddenStarts handles rows whose calibration pulse is printed joined to
+// the trace: the ink runs from the pulse's falling stroke straight on
+// into the trace, so no walk can tell where the first sample stands
+// (what ink dips along the lead-out's level is as likely a first wave
+// leaving it). When most rows with a pulse are joined, their starts are
+// replaced: by the rows' ends less the span of a standard 10 s page where
+// that lands between the falling stroke and 5 mm after it (a lead-out is
+// a few millimetres at most), else by the falling stroke itself. It
+// returns how time 0 is found.
+func hiddenStarts(marks []rowMarks, hw, pxPerMM, pxPerS float64) string {
+	nFall, nJoined := 0, 0
+	for _, m := range marks {
+		if m.fall >= 0 {
+			nFall++
+			if m.joined {
+				nJoined++
+			}
+		}
+	}
+	if nFall == 0 || 2*nJoined < nFall {
+		return T0First
+	}
+	L := printedS*pxPerS - 1 // first sample to last, at 500 Hz about one px short of the full span
+	var leads []float64
+	for _, m := range marks {
+		if m.fall >= 0 && m.okEnd {
+			leads = append(leads, (m.end-L)-(float64(m.fall)+0.5-hw))
+		}
+	}
+	span := len(leads) > 0
+	if span {
+		d := median(leads)
+		span = d >= -0.75*pxPerMM && d <= 5*pxPerMM
+	}
+	for i := range marks {
+		m := &marks[i]
+		if m.fall < 0 {
+			continue
+		}
+		switch {
+		case span && m.okEnd:
+			m.start, m.okStart = m.end-L, true
+		case span:
+			m.okStart = false
+		case !m.okStart:
+			// Only where no walk found a start: a start found after the
+			// lead-out beats the falling stroke.
+			m.start, m.okStart = float64(m.fall)+0.5-hw, true
+		}
+	}
+	if span {
+		return T0Span
+	}
+	return T0Fall
+}
+
+// emptyColumn reports whether some column in [xa, xb) holds no run of
+// ink at level on or above, within rows [ya, yb), as long as run px: a
+// line crossing the column inks at least its width there, while a fax's
+// salt or a photocopy's dust is single pixels.
+func emptyColumn(g *gray, xa, xb, ya, yb, run int, on uint8) bool {
+	for x := max(0, xa); x < min(g.w, xb); x++ {
+		n, inked := 0, false
+		for y := max(0, ya); y < min(g.h, yb); y++ {
+			if g.pix[y*g.w+x] < on {
+				n = 0
+				continue
+			}
+			if n++; n >= run {
+				inked = true
+				break
+			}
+		}
+		if !inked {
+			return true
+		}
+	}
+	return false
 }

@@ -189,3 +189,42 @@ func TestSpanScale(t *testing.T) {
 		t.Errorf("a grid's scale corrected from the span (k %.5f)", k)
 	}
 }
+
+// A pulse printed joined to the traces hides where they start: time 0 is
+// then one 10 s page (common practice: a resting ECG prints 10 s) before
+// the traces' end, when that lands just after the falling stroke.
+func TestHiddenStartsFromSpan(t *testing.T) {
+	const pxPerMM, speed = 10.0, 25.0
+	L := 10*pxPerMM*speed - 1
+	end := 100 + L + 15 // first sample 1.5 mm after the falling stroke
+	marks := []rowMarks{
+		{start: 160, okStart: true, end: end, okEnd: true, joined: true, fall: 100},
+		{start: 171, okStart: true, end: end + 0.4, okEnd: true, joined: true, fall: 100},
+		{start: 101, okStart: false, end: end - 0.3, okEnd: true, joined: true, fall: 101},
+	}
+	if got := hiddenStarts(marks, 1.5, pxPerMM, pxPerMM*speed); got != T0Span {
+		t.Fatalf("time 0 from %q, want %q", got, T0Span)
+	}
+	for i, m := range marks {
+		if !m.okStart || math.Abs(m.start-(m.end-L)) > 1e-9 {
+			t.Errorf("row %d: start %.1f ok %v, want %.1f", i, m.start, m.okStart, m.end-L)
+		}
+	}
+	// A page that is not 10 s long (here 5 s): the falling stroke stands
+	// in where no walk found a start, and the walks' starts are kept.
+	short := []rowMarks{
+		{start: 120, okStart: true, end: 100 + L/2, okEnd: true, joined: true, fall: 100},
+		{start: 101, okStart: false, end: 100 + L/2, okEnd: true, joined: true, fall: 100},
+	}
+	if got := hiddenStarts(short, 1.5, pxPerMM, pxPerMM*speed); got != T0Fall {
+		t.Fatalf("time 0 from %q, want %q", got, T0Fall)
+	}
+	if short[0].start != 120 || math.Abs(short[1].start-99) > 1e-9 || !short[1].okStart {
+		t.Errorf("starts %.1f, %.1f (ok %v), want 120 and 99 (ok)", short[0].start, short[1].start, short[1].okStart)
+	}
+	// Pulses with a gap: nothing changes.
+	gap := []rowMarks{{start: 130, okStart: true, end: 2600, okEnd: true, fall: 100}}
+	if got := hiddenStarts(gap, 1.5, pxPerMM, pxPerMM*speed); got != T0First || gap[0].start != 130 {
+		t.Errorf("gap page: %q start %.1f", got, gap[0].start)
+	}
+}

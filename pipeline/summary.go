@@ -27,6 +27,10 @@ type LayoutJSON struct {
 	Name    string           `json:"name"`
 	Cabrera bool             `json:"cabrera"`
 	Panels  []digitize.Panel `json:"panels"`
+	// TimeZero says how time 0 was found: from the traces' first ink,
+	// from their end and a standard 10 s page (a pulse joined to the
+	// traces), or at a joined pulse's falling stroke.
+	TimeZero string `json:"time_zero,omitempty"`
 }
 
 // Document is the JSON file written beside the signals: provenance,
@@ -67,7 +71,7 @@ func (o *Outcome) Document() Document {
 		}
 	}
 	if dr := o.Digitized; dr != nil {
-		d.Layout = LayoutJSON{Name: dr.Layout, Cabrera: dr.Cabrera, Panels: dr.Panels}
+		d.Layout = LayoutJSON{Name: dr.Layout, Cabrera: dr.Cabrera, Panels: dr.Panels, TimeZero: dr.TimeZero}
 		d.Quality = dr.Quality
 		d.LeadLaws = dr.Laws
 		d.Check = dr.Check

@@ -119,6 +119,10 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 		add(Care, "no_pulse", "check the gain and speed printed on the page and give them by hand if they differ",
 			"no calibration pulse was read: %g mm/mV and %g mm/s were taken from the printed settings or assumed", cal.GainMMPerMV, cal.SpeedMMPerS)
 	}
+	if dr.TimeZero == digitize.T0Fall {
+		add(Care, "time_zero_unsure", "check where the traces start after the calibration pulse",
+			"the calibration pulse is printed joined to the traces and the page is not a standard 10 s page: time 0 is taken at the pulse's falling stroke and may be off by the pulse's lead-out")
+	}
 	// Layout fit: the limb-lead laws over each column of simultaneous leads.
 	worst, worstLead := worstLaw(dr)
 	switch {
