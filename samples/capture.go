@@ -83,7 +83,7 @@ func (b *Bend) Forward(x, y float64) (float64, float64) {
 // the parallax is a few per cent, so they converge to far below a pixel).
 func (b *Bend) Inverse(u, v float64) (float64, float64) {
 	x, y := u, v
-	for it := 0; it < 8; it++ {
+	for it := 0; it < 24; it++ {
 		_, z := b.surface(x, y)
 		f := b.CamH / (b.CamH - z)
 		qx, qy := b.CamX+(u-b.CamX)/f, b.CamY+(v-b.CamY)/f
