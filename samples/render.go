@@ -288,7 +288,7 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 		Layout: st.Layout, Cabrera: st.Cabrera, SpeedMMPerS: st.SpeedMMPerS, GainMMPerMV: st.GainMMPerMV,
 		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, CleanPxPerMM: g.pxmm, PageToImage: Identity, Condition: "clean",
 		PageCount: 1,
-		Signals: &record.Record{Name: rec.Name},
+		Signals:   &record.Record{Name: rec.Name},
 	}
 	tr.Signals.Provenance = record.Provenance{
 		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, GainMMPerMV: st.GainMMPerMV, SpeedMMPerS: st.SpeedMMPerS,
