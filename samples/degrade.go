@@ -34,10 +34,52 @@ type Degradation struct {
 	Speckle float64 // fraction of pixels hit by dust or toner specks
 	Creases int     // folds across the page
 	Seed    int64
+
+	// FaxDPIX and FaxDPIY are the fax's resolution across and down
+	// (0: 200 × 100). FaxGridDrop sets the fax's contrast so that the
+	// pale grid drops out before the page is binarised.
+	FaxDPIX, FaxDPIY float64
+	FaxGridDrop      bool
+	// Curl 0..1 curls the sheet's short edges up off the table (a Bend,
+	// Truth.Bend), seen by a camera: use with Perspective.
+	Curl float64
+	// Shadow 0..1 lays a hand's shadow across the frame; Glare 0..1 a
+	// lamp's washed-out reflection (its box in Truth.Washed).
+	Shadow, Glare float64
+	// DarkTable puts the page smaller in the frame on a dark table.
+	DarkTable bool
+	// ChatApp sends the picture through a messaging app: scaled down to
+	// fit 1600 × 1200, motion-blurred by MotionPx, JPEG at JPEGQuality
+	// with chroma halved (Go's encoder writes 4:2:0); the file's bytes
+	// are kept in Printout.Encoded.
+	ChatApp  bool
+	MotionPx float64
+	// Marks lays that many stamps and pen marks over the traces
+	// (Truth.Marks); the page must be a clean render.
+	Marks int
+	// Cover puts a fax cover sheet before the ECG page (Printout.Cover;
+	// the ECG is page 2 of the file). FileTIFF asks SuiteCase.File for a
+	// TIFF that carries the fax's resolution.
+	Cover, FileTIFF bool
 }
 
-// Conditions lists the preset names for Condition.
+// Conditions lists the classic preset names for Condition.
 var Conditions = []string{"clean", "rotated", "photocopy", "photo", "fax"}
+
+// HardConditions lists the further presets: faxes whose grid is gone
+// (100–204 dpi, non-square pixels), fax documents with a cover sheet,
+// faded thermal paper, curled sheets photographed, a hand's shadow and a
+// lamp's glare, chat-app photos, faint grids on dark tables, stamps and
+// pen marks over the traces.
+var HardConditions = []string{"faxlost", "faxdoc", "thermal", "curled", "shadow", "chatapp", "darktable", "marks"}
+
+// AllConditions is Conditions followed by HardConditions.
+var AllConditions = append(append([]string(nil), Conditions...), HardConditions...)
+
+// faxResolutions are fax resolutions in use (dpi across × down): the
+// standard and fine modes in both their metric and inch forms, and plain
+// square scans (common practice).
+var faxResolutions = [][2]float64{{200, 100}, {204, 98}, {204, 196}, {200, 200}, {150, 150}, {100, 100}, {204, 98}}
 
 // Condition draws a preset degradation: "clean", "rotated", "photocopy",
 // "photo" or "fax". An unknown name gives a Degradation that Degrade
@@ -75,6 +117,60 @@ func Condition(name string, rng *rand.Rand) Degradation {
 		d.Fax = true
 		d.RotationDeg = sgn() * u(0, 1.5)
 		d.Speckle = u(0.0003, 0.002)
+	case "faxlost", "faxdoc":
+		d.Fax = true
+		d.RotationDeg = sgn() * u(0, 1.5)
+		d.Speckle = u(0.0003, 0.002)
+		r := faxResolutions[rng.Intn(len(faxResolutions))]
+		d.FaxDPIX, d.FaxDPIY = r[0], r[1]
+		d.FaxGridDrop = rng.Float64() < 0.8
+		d.FileTIFF = name == "faxdoc" || rng.Float64() < 0.7
+		d.Cover = name == "faxdoc"
+	case "thermal":
+		d.Fade = u(0.1, 0.45)
+		d.RotationDeg = sgn() * u(0, 2)
+		d.Light = u(0, 0.12)
+		d.BlurPx = u(0.3, 0.9)
+	case "curled":
+		d.Perspective = u(0.3, 0.7)
+		d.RotationDeg = sgn() * u(0, 5)
+		d.Light = u(0.1, 0.4)
+		d.BlurPx = u(0.5, 1.2)
+		d.JPEGQuality = 70 + rng.Intn(21)
+		d.Curl = u(0.4, 1)
+	case "shadow":
+		d.Perspective = u(0.2, 0.7)
+		d.RotationDeg = sgn() * u(0, 5)
+		d.Light = u(0.1, 0.35)
+		d.BlurPx = u(0.5, 1.2)
+		d.JPEGQuality = 70 + rng.Intn(21)
+		switch rng.Intn(3) {
+		case 0:
+			d.Shadow = u(0.3, 0.6)
+		case 1:
+			d.Glare = u(0.6, 1)
+		default:
+			d.Shadow, d.Glare = u(0.3, 0.6), u(0.6, 1)
+		}
+	case "chatapp":
+		d.Perspective = u(0.2, 0.8)
+		d.RotationDeg = sgn() * u(0, 6)
+		d.Light = u(0.1, 0.45)
+		d.BlurPx = u(0.2, 0.6)
+		d.ChatApp = true
+		d.JPEGQuality = 40 + rng.Intn(17)
+		d.MotionPx = u(0.8, 3)
+	case "darktable":
+		d.Perspective = u(0.3, 0.8)
+		d.RotationDeg = sgn() * u(0, 6)
+		d.Light = u(0.1, 0.4)
+		d.BlurPx = u(0.5, 1.2)
+		d.JPEGQuality = 70 + rng.Intn(21)
+		d.DarkTable = true
+	case "marks":
+		d.Marks = 2 + rng.Intn(4)
+		d.RotationDeg = sgn() * u(0, 1.5)
+		d.Light = u(0, 0.08)
 	}
 	return d
 }
@@ -83,7 +179,7 @@ func knownCondition(n string) bool {
 	if n == "" || n == "custom" {
 		return true
 	}
-	for _, c := range Conditions {
+	for _, c := range AllConditions {
 		if c == n {
 			return true
 		}
@@ -98,9 +194,9 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 		return nil, errors.New("samples: nothing to degrade")
 	}
 	if !knownCondition(d.Name) {
-		return nil, fmt.Errorf("samples: unknown condition %q (want one of %v)", d.Name, Conditions)
+		return nil, fmt.Errorf("samples: unknown condition %q (want one of %v)", d.Name, AllConditions)
 	}
-	for _, v := range []float64{d.RotationDeg, d.Perspective, d.Light, d.BlurPx, d.Fade, d.Speckle} {
+	for _, v := range []float64{d.RotationDeg, d.Perspective, d.Light, d.BlurPx, d.Fade, d.Speckle, d.FaxDPIX, d.FaxDPIY, d.Curl, d.Shadow, d.Glare, d.MotionPx} {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return nil, errors.New("samples: degradation has a NaN or infinite value")
 		}
@@ -114,6 +210,16 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 		return nil, errors.New("samples: JPEG quality must lie in 0..100 and creases in 0..20")
 	case math.Abs(d.RotationDeg) > 45:
 		return nil, errors.New("samples: rotation beyond ±45° is not supported")
+	case d.Curl < 0 || d.Curl > 1, d.Shadow < 0 || d.Shadow > 1, d.Glare < 0 || d.Glare > 1:
+		return nil, errors.New("samples: curl, shadow and glare must lie in 0..1")
+	case d.MotionPx < 0 || d.MotionPx > 30, d.Marks < 0 || d.Marks > 30:
+		return nil, errors.New("samples: motion blur must lie in 0..30 px and marks in 0..30")
+	case d.FaxDPIX < 0 || d.FaxDPIX > 600 || d.FaxDPIY < 0 || d.FaxDPIY > 600:
+		return nil, errors.New("samples: fax resolution must lie in 0..600 dpi")
+	case (d.Curl > 0 || d.Marks > 0) && (p.Truth.PageToImage != Identity || p.Truth.Bend != nil):
+		return nil, errors.New("samples: curl and marks need a clean render, not a page already degraded")
+	case d.ChatApp && d.JPEGQuality == 0:
+		return nil, errors.New("samples: a chat-app picture needs a JPEG quality")
 	}
 	rng := rand.New(rand.NewSource(d.Seed))
 	img := cloneNRGBA(p.Image)
@@ -132,6 +238,20 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 	for i := 0; i < d.Creases; i++ {
 		crease(img, rng)
 	}
+	// The further looks draw from a source of their own, so that the
+	// classic presets' draws stay as they were.
+	rng2 := rand.New(rand.NewSource(d.Seed ^ 0x2545F4914F6CDD1D))
+	if d.Marks > 0 {
+		tr.Marks = addMarks(img, tr, d.Marks, rng2)
+	}
+	var bend *Bend
+	if d.Curl > 0 {
+		bend = newBend(float64(img.Rect.Dx()), float64(img.Rect.Dy()), d.Curl, rng2)
+		shadeCurl(img, bend, rng2.Float64()*2-1)
+	}
+	if d.Fax && d.FaxGridDrop {
+		dropGrid(img, 30+20*rng2.Float64(), 120+25*rng2.Float64())
+	}
 	// Geometry.
 	W, H := float64(img.Rect.Dx()), float64(img.Rect.Dy())
 	var hm [9]float64
@@ -143,6 +263,12 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 		// The page fills most of the frame, turned and slanted; it is
 		// shrunk until all four corners are inside the frame.
 		s := 0.88 - 0.1*d.Perspective*rng.Float64()
+		if d.DarkTable {
+			s = 0.6 + 0.2*rng2.Float64()
+		}
+		if bend != nil {
+			s *= 0.95 // the lifted edges stand out past the flat page's corners
+		}
 		cx, cy := W/2+W*0.03*(rng.Float64()-0.5), H/2+H*0.03*(rng.Float64()-0.5)
 		a := d.RotationDeg * math.Pi / 180
 		ca, sa := math.Cos(a), math.Sin(a)
@@ -182,6 +308,10 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 			return nil, fmt.Errorf("samples: %w", err)
 		}
 		base := [3]float64{60 + 60*rng.Float64(), 50 + 50*rng.Float64(), 40 + 40*rng.Float64()}
+		if d.DarkTable {
+			k := 0.15 + 0.25*rng2.Float64()
+			base = [3]float64{base[0] * k, base[1] * k, base[2] * k}
+		}
 		gx, gy := rng.Float64()*2-1, rng.Float64()*2-1
 		bg = func(x, y int) color.NRGBA {
 			f := 1 + 0.25*(gx*(float64(x)/W-0.5)+gy*(float64(y)/H-0.5))
@@ -212,8 +342,12 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 		if tr.CleanPxPerMM > 0 {
 			clean = tr.CleanPxPerMM
 		}
-		fx := 200 / 25.4 / clean
-		fy := 100 / 25.4 / clean
+		dx, dy := 200.0, 100.0
+		if d.FaxDPIX > 0 && d.FaxDPIY > 0 {
+			dx, dy = d.FaxDPIX, d.FaxDPIY
+		}
+		fx := dx / 25.4 / clean
+		fy := dy / 25.4 / clean
 		if !geom {
 			bg = func(int, int) color.NRGBA { return color.NRGBA{255, 255, 255, 255} }
 		}
@@ -227,7 +361,40 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 		outH = max(1, int(math.Round(float64(outH)*fy)))
 		geom = true
 	}
-	if geom {
+	if d.ChatApp {
+		// Scaled to fit the app's 1600 × 1200 frame (either way up).
+		long, short := float64(max(outW, outH)), float64(min(outW, outH))
+		sc := math.Min(1, math.Min(1600/long, 1200/short))
+		if sc < 1 {
+			if sc < 0.8 {
+				img = gaussBlur(img, 0.4/sc, 0.4/sc)
+			}
+			hm = mul3([9]float64{sc, 0, 0, 0, sc, 0, 0, 0, 1}, hm)
+			outW = max(1, int(math.Round(float64(outW)*sc)))
+			outH = max(1, int(math.Round(float64(outH)*sc)))
+			geom = true
+			if bg == nil {
+				bg = func(int, int) color.NRGBA { return color.NRGBA{255, 255, 255, 255} }
+			}
+		}
+	}
+	if bend != nil {
+		inv, ok := Invert(hm)
+		if !ok {
+			return nil, errors.New("samples: singular page transform")
+		}
+		if bg == nil {
+			bg = func(int, int) color.NRGBA { return color.NRGBA{90, 80, 70, 255} }
+		}
+		if float64(outW)*float64(outH) > 80e6 {
+			return nil, errors.New("samples: warped image would be too large")
+		}
+		img = warpFunc(img, outW, outH, func(x, y float64) (float64, float64) {
+			u, v := Apply(inv, x, y)
+			return bend.Inverse(u, v)
+		}, bg)
+		tr.Bend = bend
+	} else if geom {
 		var err error
 		img, err = warp(img, hm, outW, outH, bg)
 		if err != nil {
@@ -240,13 +407,34 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 	if d.BlurPx > 0 && !d.Fax {
 		img = gaussBlur(img, d.BlurPx, d.BlurPx)
 	}
+	if d.Shadow > 0 {
+		handShadow(img, d.Shadow, rng2)
+	}
+	if d.Glare > 0 {
+		tr.Washed = append(tr.Washed, glare(img, d.Glare, rng2))
+	}
+	if d.MotionPx > 0 {
+		img = motionBlur(img, d.MotionPx, rng2.Float64()*math.Pi)
+	}
 	if d.Speckle > 0 {
 		speckle(img, d.Speckle, rng)
 	}
 	if d.Fax {
 		binarize(img, 105+30*rng.Float64())
 	}
-	if d.JPEGQuality > 0 && !d.Fax {
+	var encoded []byte
+	if d.ChatApp {
+		var buf bytes.Buffer
+		if err := jpeg.Encode(&buf, opaqueRGBA(img), &jpeg.Options{Quality: d.JPEGQuality}); err != nil {
+			return nil, fmt.Errorf("samples: jpeg: %w", err)
+		}
+		encoded = buf.Bytes()
+		dec, err := jpeg.Decode(bytes.NewReader(encoded))
+		if err != nil {
+			return nil, fmt.Errorf("samples: jpeg: %w", err)
+		}
+		img = toNRGBA(dec)
+	} else if d.JPEGQuality > 0 && !d.Fax {
 		var buf bytes.Buffer
 		if err := jpeg.Encode(&buf, opaqueRGBA(img), &jpeg.Options{Quality: d.JPEGQuality}); err != nil {
 			return nil, fmt.Errorf("samples: jpeg: %w", err)
@@ -272,11 +460,74 @@ func Degrade(p *Printout, d Degradation) (*Printout, error) {
 	} else {
 		cx, cy = W/2, H/2 // approximate when the input was degraded already
 	}
-	jx, jy, kx, ky := jacobian(tr.PageToImage, cx, cy)
+	jx, jy, kx, ky := jacobianOf(tr.ToImage, cx, cy)
 	tr.PxPerMMX = math.Hypot(jx, jy) * tr.CleanPxPerMM
 	tr.PxPerMMY = math.Hypot(kx, ky) * tr.CleanPxPerMM
 	tr.RotationDeg = -math.Atan2(jy, jx) * 180 / math.Pi
-	return &Printout{Image: img, Truth: tr}, nil
+	out := &Printout{Image: img, Truth: tr, Encoded: encoded, Cover: p.Cover}
+	if d.Fax && d.FileTIFF {
+		out.Truth.FileDPIX, out.Truth.FileDPIY = 200, 100
+		if d.FaxDPIX > 0 && d.FaxDPIY > 0 {
+			out.Truth.FileDPIX, out.Truth.FileDPIY = d.FaxDPIX, d.FaxDPIY
+		}
+	}
+	if d.Cover && d.Fax {
+		// A portrait cover sheet as wide as the ECG page, at the fax's
+		// resolution.
+		fdx, fdy := out.Truth.FileDPIX, out.Truth.FileDPIY
+		if fdx == 0 {
+			fdx, fdy = 200, 100
+			if d.FaxDPIX > 0 && d.FaxDPIY > 0 {
+				fdx, fdy = d.FaxDPIX, d.FaxDPIY
+			}
+		}
+		cw := img.Rect.Dx()
+		chSq := int(float64(cw) * 297 / 210)
+		sq := coverSheet(cw, chSq, fdx/25.4, rng2)
+		if fdy != fdx {
+			ch := max(1, int(math.Round(float64(chSq)*fdy/fdx)))
+			var err error
+			if fdy < fdx {
+				sq = gaussBlur(sq, 0, 0.45*fdx/fdy-0.3)
+			}
+			sq, err = warp(sq, [9]float64{1, 0, 0, 0, fdy / fdx, 0, 0, 0, 1}, cw, ch, func(int, int) color.NRGBA { return color.NRGBA{255, 255, 255, 255} })
+			if err != nil {
+				return nil, err
+			}
+		}
+		speckle(sq, d.Speckle, rng2)
+		binarize(sq, 128)
+		out.Cover = sq
+		out.Truth.PageIndex, out.Truth.PageCount = 1, 2
+	}
+	return out, nil
+}
+
+// jacobianOf returns the images of the unit x and y steps at (x, y)
+// under any map.
+func jacobianOf(f func(x, y float64) (float64, float64), x, y float64) (jx, jy, kx, ky float64) {
+	const e = 0.5
+	x0, y0 := f(x-e, y)
+	x1, y1 := f(x+e, y)
+	x2, y2 := f(x, y-e)
+	x3, y3 := f(x, y+e)
+	return (x1 - x0) / (2 * e), (y1 - y0) / (2 * e), (x3 - x2) / (2 * e), (y3 - y2) / (2 * e)
+}
+
+// dropGrid maps luma through a levels curve (lo → black, hi → white) and
+// drops the colour: a fax's contrast setting under which the pale grid
+// vanishes and the dark trace stays.
+func dropGrid(img *image.NRGBA, lo, hi float64) {
+	parallelRows(img.Rect.Dy(), func(y0, y1 int) {
+		for y := y0; y < y1; y++ {
+			row := img.Pix[y*img.Stride : y*img.Stride+4*img.Rect.Dx()]
+			for i := 0; i < len(row); i += 4 {
+				l := (299*float64(row[i]) + 587*float64(row[i+1]) + 114*float64(row[i+2])) / 1000
+				v := clamp8(255 * (l - lo) / (hi - lo))
+				row[i], row[i+1], row[i+2] = v, v, v
+			}
+		}
+	})
 }
 
 // Apply maps (x, y) by the homography h.

@@ -6,6 +6,8 @@ import (
 	"image"
 	"image/color"
 	"math"
+	"math/rand"
+	"strings"
 
 	"golang.org/x/image/vector"
 
@@ -48,12 +50,58 @@ type Truth struct {
 	// CleanPxPerMM is the clean render's scale (both axes), the unit of
 	// Panels, Pulses and the input side of PageToImage.
 	CleanPxPerMM float64
+
+	// RowT0XPx is, per row (index = Panel.Row), the x in clean-render px
+	// of the tracing's time 0 on that row: where a joined pulse's falling
+	// edge meets the trace, or where the trace starts after a gap.
+	RowT0XPx []float64
+	// PulsePlace and PulseJoined say how the pulses were printed
+	// (PulseJoined is false when no pulse was printed).
+	PulsePlace  PulsePlace
+	PulseJoined bool
+	// Strip is true for strip paper without margins.
+	Strip bool
+	// Bend, when not nil, is a non-planar warp of the paper applied
+	// before PageToImage: use ToImage to map clean-render px to the image.
+	Bend *Bend
+	// Marks are the boxes (clean-render px) of stamps and handwriting
+	// laid over the page, with their kind ("stamp", "pen").
+	Marks []Mark
+	// Washed are boxes (final-image px) of spots washed out by glare.
+	Washed [][4]float64
+	// FileDPIX and FileDPIY are the resolution the picture's file
+	// declares (0 when it declares none); a fax may carry 204 × 98.
+	FileDPIX, FileDPIY float64
+	// PageIndex is the 0-based page of the ECG in a multi-page file and
+	// PageCount the file's pages (1 for a single picture).
+	PageIndex, PageCount int
+}
+
+// Mark is a stamp or a pen mark over the page.
+type Mark struct {
+	Kind string     // "stamp" or "pen"
+	Box  [4]float64 // x0, y0, x1, y1 in clean-render px
+}
+
+// ToImage maps a clean-render point to the final image: the bend of the
+// paper first (when there is one), then PageToImage.
+func (t Truth) ToImage(x, y float64) (float64, float64) {
+	if t.Bend != nil {
+		x, y = t.Bend.Forward(x, y)
+	}
+	return Apply(t.PageToImage, x, y)
 }
 
 // Printout is an image with its truth.
 type Printout struct {
 	Image *image.NRGBA
 	Truth Truth
+	// Cover, when not nil, is a fax cover sheet sent before the ECG page
+	// (Truth.PageIndex says where the ECG page stands in the file).
+	Cover *image.NRGBA
+	// Encoded, when not nil, holds the file the picture was decoded
+	// from (a chat app's JPEG), byte for byte.
+	Encoded []byte
 }
 
 // Identity is the identity homography.
@@ -73,6 +121,7 @@ type panelPlan struct {
 	col    int
 	rhythm bool
 	t0, t1 float64
+	d0, d1 float64 // blanks left undrawn at the window's start and end, s
 }
 
 // plan lays the leads out in rows and columns with their time windows.
@@ -154,13 +203,23 @@ func layoutGeom(st Style, dur float64, rows, ncols int) (geom, error) {
 	g.widthPx = int(math.Round(st.PaperWMM * g.pxmm))
 	g.heigPx = int(math.Round(st.PaperHMM * g.pxmm))
 	mL, mT, mR, mB := st.MarginsMM[0], st.MarginsMM[1], st.MarginsMM[2], st.MarginsMM[3]
-	pulseW := 0.0
+	pulseW, rightW := 0.0, 0.0
+	pw := st.PulseMS / 1000 * st.SpeedMMPerS
 	if st.Pulses {
-		pulseW = 0.2*st.SpeedMMPerS + 4 // 1.5 mm lead-in, pulse, 2.5 mm gap
+		switch st.PulsePlace {
+		case PulseGapLeft:
+			pulseW = pw + 4 // 1.5 mm lead-in, pulse, 2.5 mm gap
+		case PulseJoinedLeft:
+			pulseW = pw + 1.5 // 1.5 mm lead-in, pulse; the trace leaves its falling edge
+		case PulseGapRight:
+			rightW = 2.5 + pw + 1.5 // gap, pulse, lead-out
+		case PulseJoinedRight:
+			rightW = 1 + pw + 1.5 // 1 mm of baseline, pulse, lead-out
+		}
 	}
 	g.pulseX = mL + 1.5
 	g.traceX0 = mL + pulseW
-	avail := st.PaperWMM - mR - g.traceX0
+	avail := st.PaperWMM - mR - rightW - g.traceX0
 	total := math.Min(10, dur)
 	if lim := avail / st.SpeedMMPerS; lim < total {
 		total = lim
@@ -172,10 +231,13 @@ func layoutGeom(st Style, dur float64, rows, ncols int) (geom, error) {
 	}
 	g.colW = g.colDur * st.SpeedMMPerS
 	head := 0.0
-	if st.Header != "" || st.Labels {
+	if (st.Header != "" || st.Labels) && !st.Strip {
 		head = st.LabelPt*0.3528*1.2 + 2 // a line of text in mm (1 pt = 0.3528 mm) and a gap
 	}
 	g.headerY = mT + st.LabelPt*0.3528
+	if st.Strip {
+		g.headerY = st.LabelPt*0.3528 + 1 // inside the grid, 1 mm below the top edge
+	}
 	g.rowTop = mT + head
 	g.rowH = (st.PaperHMM - mB - g.rowTop) / float64(rows)
 	if g.rowH < 5 {
@@ -215,24 +277,40 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 	img := image.NewNRGBA(image.Rect(0, 0, g.widthPx, g.heigPx))
 	fillNRGBA(img, st.PaperColor)
 	drawGrid(img, st, g)
+	if st.GridBorder && st.Grid != GridNone {
+		e := math.Max(st.MajorLineMM, 0.15) * g.pxmm
+		bx0, by0 := g.gridX0*g.pxmm+e/2, g.gridY0*g.pxmm+e/2
+		bx1, by1 := g.gridX1*g.pxmm-e/2, g.gridY1*g.pxmm-e/2
+		newInker(img, st.GridColor, e).polyline([]float64{bx0, bx1, bx1, bx0, bx0}, []float64{by0, by0, by1, by1, by0})
+	}
 
 	tr := Truth{
 		Layout: st.Layout, Cabrera: st.Cabrera, SpeedMMPerS: st.SpeedMMPerS, GainMMPerMV: st.GainMMPerMV,
 		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, CleanPxPerMM: g.pxmm, PageToImage: Identity, Condition: "clean",
-		Signals: &record.Record{Name: rec.Name},
+		PageCount: 1,
+		Signals:   &record.Record{Name: rec.Name},
 	}
 	tr.Signals.Provenance = record.Provenance{
 		PxPerMMX: g.pxmm, PxPerMMY: g.pxmm, GainMMPerMV: st.GainMMPerMV, SpeedMMPerS: st.SpeedMMPerS,
 		Layout: string(st.Layout), Software: "tracelift samples (truth)",
 	}
 	ink := newInker(img, st.TraceColor, st.TraceWidthMM*g.pxmm)
+	if st.Pen != PenRound || st.PenJitterMM > 0 || st.InkSpreadMM > 0 {
+		ink.useLayer(st.Pen == PenButt, st.PenJitterMM*g.pxmm, st.Seed)
+	}
 	mmToPx := func(mm float64) float64 { return mm * g.pxmm }
 	pxPerS := st.SpeedMMPerS * g.pxmm
 	pxPerMV := st.GainMMPerMV * g.pxmm
+	tr.PulsePlace = st.PulsePlace
+	tr.PulseJoined = st.Pulses && st.PulsePlace.Joined()
+	tr.Strip = st.Strip
+	for r := 0; r < rows; r++ {
+		tr.RowT0XPx = append(tr.RowT0XPx, mmToPx(g.traceX0))
+	}
 
 	// Header and labels first, so the traces draw over them.
 	txt := newTexter(st)
-	if st.Header != "" || st.Labels {
+	if (st.Header != "" || st.Labels) && (!st.Strip || st.Header != "") {
 		h := st.Header
 		var settings string
 		switch st.SettingsForm {
@@ -246,11 +324,20 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 		if h != "" {
 			h += "     "
 		}
-		txt.draw(img, mmToPx(st.MarginsMM[0]), mmToPx(g.headerY), h+settings, st.TraceColor)
+		x := st.MarginsMM[0]
+		if st.Strip {
+			x = 1.5
+		}
+		txt.draw(img, mmToPx(x), mmToPx(g.headerY), strings.TrimSpace(h+settings), st.TraceColor)
 	}
 
 	want := map[string][2]float64{} // source lead -> window (strip wins)
 	wantStrip := map[string]bool{}
+	lastCol := map[int]int{} // row -> index of its last panel
+	// Pulse polylines, joined to the trace or not, per panel index.
+	prefix := map[int][2][]float64{}
+	suffix := map[int][2][]float64{}
+	pw := st.PulseMS / 1000 * pxPerS
 	for i := range plans {
 		p := &plans[i]
 		if p.rhythm {
@@ -259,6 +346,12 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 			p.t0 = g.colDur * float64(p.col)
 			p.t1 = p.t0 + g.colDur
 		}
+		if j, ok := lastCol[p.row]; !ok || plans[j].col < p.col {
+			lastCol[p.row] = i
+		}
+	}
+	for i := range plans {
+		p := &plans[i]
 		x0 := mmToPx(g.traceX0 + g.colW*float64(p.col))
 		x1 := x0 + (p.t1-p.t0)*pxPerS
 		y0 := mmToPx(g.rowTop + g.rowH*float64(p.row))
@@ -267,33 +360,73 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 			Lead: p.lead, Row: p.row, Col: p.col, Rhythm: p.rhythm,
 			Box: [4]float64{x0, y0, x1, y0 + mmToPx(g.rowH)}, T0S: p.t0, T1S: p.t1, BaselineYPx: base,
 		})
-		if p.col == 0 && st.Pulses {
-			// Flat lead-in, 1 mV × 200 ms pulse, flat lead-out.
+		top := base - pxPerMV
+		lead := mmToPx(1.5)
+		if p.col == 0 && st.Pulses && !st.PulsePlace.Right() {
+			// Flat lead-in, 1 mV pulse, then a flat lead-out or the trace.
 			xr := mmToPx(g.pulseX)
-			xf := xr + 0.2*pxPerS
-			top := base - pxPerMV
-			ink.polyline([]float64{xr - mmToPx(1.5), xr, xr, xf, xf, xf + mmToPx(1.5)},
-				[]float64{base, base, top, top, base, base})
+			xf := xr + pw
+			if st.PulsePlace == PulseJoinedLeft {
+				prefix[i] = [2][]float64{{xr - lead, xr, xr, xf, xf}, {base, base, top, top, base}}
+			} else {
+				ink.polyline([]float64{xr - lead, xr, xr, xf, xf, xf + lead},
+					[]float64{base, base, top, top, base, base})
+			}
 			tr.Pulses = append(tr.Pulses, [4]float64{xr, top, xf, base})
 		}
+		if lastCol[p.row] == i && st.Pulses && st.PulsePlace.Right() {
+			xEnd := mmToPx(g.traceX0 + g.colW*float64(g.ncols))
+			if st.PulsePlace == PulseJoinedRight {
+				xr := xEnd + mmToPx(1)
+				xf := xr + pw
+				suffix[i] = [2][]float64{{xr, xr, xf, xf, xf + lead}, {base, top, top, base, base}}
+				tr.Pulses = append(tr.Pulses, [4]float64{xr, top, xf, base})
+			} else {
+				xr := xEnd + mmToPx(2.5)
+				xf := xr + pw
+				ink.polyline([]float64{xr - lead, xr, xr, xf, xf, xf + lead},
+					[]float64{base, base, top, top, base, base})
+				tr.Pulses = append(tr.Pulses, [4]float64{xr, top, xf, base})
+			}
+		}
 		if st.Labels {
-			txt.draw(img, x0+mmToPx(1.2), base-mmToPx(0.75*st.GainMMPerMV+1), p.lead, st.TraceColor)
+			drawLabel(img, txt, st, g, p.lead, p.col, x0, base)
 		}
 		if st.Separators && p.col > 0 && !p.rhythm {
-			h := mmToPx(2.5)
-			ink.polyline([]float64{x0, x0}, []float64{base - h, base + h})
+			switch st.Boundary {
+			case BoundaryTick:
+				h := mmToPx(2.5)
+				ink.polyline([]float64{x0, x0}, []float64{base - h, base + h})
+			case BoundaryTall:
+				ink.polyline([]float64{x0, x0}, []float64{y0 + mmToPx(0.15*g.rowH), y0 + mmToPx(0.9*g.rowH)})
+			}
 		}
+		// What is drawn of the window: a boundary gap takes half its
+		// blank from each side of a column join.
+		if st.Separators && st.Boundary == BoundaryGap && !p.rhythm {
+			gap := st.BoundaryGapMS / 1000 / 2
+			if p.col > 0 {
+				p.d0 = gap
+			}
+			if p.col < ncols-1 {
+				p.d1 = gap
+			}
+		}
+		w := [2]float64{p.t0 + p.d0, p.t1 - p.d1}
 		if p.rhythm {
-			want[p.source] = [2]float64{p.t0, p.t1}
+			want[p.source] = w
 			wantStrip[p.source] = true
 		} else if _, ok := want[p.source]; !ok {
-			want[p.source] = [2]float64{p.t0, p.t1}
+			want[p.source] = w
 		}
 	}
 	drawn := 0
 	for i, p := range plans {
 		s := rec.Lead(p.source)
+		pre, suf := prefix[i], suffix[i]
 		if s == nil || len(s.MV) == 0 {
+			ink.polyline(pre[0], pre[1])
+			ink.polyline(suf[0], suf[1])
 			continue
 		}
 		pn := tr.Panels[i]
@@ -301,8 +434,9 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 		if p.invert {
 			sign = -1
 		}
-		var xs, ys []float64
-		i0, i1 := sampleRange(s, st.StartS+p.t0, st.StartS+p.t1)
+		xs := append([]float64(nil), pre[0]...)
+		ys := append([]float64(nil), pre[1]...)
+		i0, i1 := sampleRange(s, st.StartS+p.t0+p.d0, st.StartS+p.t1-p.d1)
 		for k := i0; k < i1; k++ {
 			v := s.MV[k]
 			if math.IsNaN(v) {
@@ -314,11 +448,21 @@ func Render(rec *record.Record, st Style) (*Printout, error) {
 			xs = append(xs, pn.Box[0]+(tau-p.t0)*pxPerS)
 			ys = append(ys, pn.BaselineYPx-sign*v*pxPerMV)
 		}
+		if len(suf[0]) > 0 {
+			if len(xs) > 0 {
+				// Down to the baseline where the trace ends, then along it.
+				xs = append(xs, xs[len(xs)-1])
+				ys = append(ys, pn.BaselineYPx)
+			}
+			xs = append(xs, suf[0]...)
+			ys = append(ys, suf[1]...)
+		}
 		ink.polyline(xs, ys)
 		if i1 > i0 {
 			drawn++
 		}
 	}
+	ink.finish(st.Pen == PenThermal, st.InkSpreadMM*g.pxmm, g.pxmm)
 	if drawn == 0 {
 		return nil, ErrNoSignal
 	}
@@ -392,6 +536,12 @@ type inker struct {
 	hw   float64 // half width, px
 	rast *vector.Rasterizer
 	mask *image.Alpha
+	// layer, when not nil, collects coverage (the larger wins) instead
+	// of blending; see useLayer and finish.
+	layer  *image.Alpha
+	butt   bool
+	jitter float64
+	rng    *rand.Rand
 }
 
 func newInker(dst *image.NRGBA, c color.NRGBA, widthPx float64) *inker {
@@ -404,6 +554,7 @@ func (k *inker) polyline(xs, ys []float64) {
 	if len(xs) == 0 {
 		return
 	}
+	xs, ys = k.wobble(xs, ys)
 	minX, minY, maxX, maxY := math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)
 	for i := range xs {
 		minX, maxX = math.Min(minX, xs[i]), math.Max(maxX, xs[i])
@@ -420,6 +571,9 @@ func (k *inker) polyline(xs, ys []float64) {
 	ox, oy := float64(r.Min.X), float64(r.Min.Y)
 	hw := k.hw
 	disk := func(cx, cy float64) {
+		if k.butt {
+			return
+		}
 		// A 12-gon, wound like the segment quads (negative shoelace area
 		// in y-down coordinates) so overlapping pieces add up.
 		const n = 12
@@ -466,6 +620,18 @@ func (k *inker) polyline(xs, ys []float64) {
 		clear(k.mask.Pix[:w*h])
 	}
 	k.rast.Draw(k.mask, k.mask.Rect, image.Opaque, image.Point{})
+	if k.layer != nil {
+		for y := 0; y < h; y++ {
+			mrow := k.mask.Pix[y*w : y*w+w]
+			lrow := k.layer.Pix[(r.Min.Y+y-b.Min.Y)*k.layer.Stride+(r.Min.X-b.Min.X):]
+			for x, a := range mrow {
+				if a > lrow[x] {
+					lrow[x] = a
+				}
+			}
+		}
+		return
+	}
 	c := k.col
 	for y := 0; y < h; y++ {
 		mrow := k.mask.Pix[y*w : y*w+w]
@@ -613,4 +779,159 @@ func dot(img *image.NRGBA, cx, cy, r float64, c color.NRGBA) {
 			}
 		}
 	}
+}
+
+// drawLabel prints a lead name at the style's label place for a panel
+// starting at x0 (px) with its baseline at base (px).
+func drawLabel(img *image.NRGBA, txt *texter, st Style, g geom, name string, col int, x0, base float64) {
+	mm := func(v float64) float64 { return v * g.pxmm }
+	capH := mm(st.LabelPt * 0.3528 * 0.72) // cap height of the face, about 0.72 em (common practice)
+	switch st.LabelPlace {
+	case LabelBelow:
+		txt.draw(img, x0+mm(1.2), base+mm(0.6*st.GainMMPerMV+1)+capH, name, st.TraceColor)
+	case LabelMargin:
+		if col == 0 {
+			// In the white before the row: ends 1 mm left of the grid or
+			// of the pulse, whichever comes first, never off the page.
+			right := mm(st.MarginsMM[0]) - mm(1)
+			x := math.Max(mm(0.5), right-txt.width(name))
+			txt.draw(img, x, base+capH/2, name, st.TraceColor)
+			return
+		}
+		txt.draw(img, x0+mm(1.2), base-mm(0.75*st.GainMMPerMV+1), name, st.TraceColor)
+	case LabelInside:
+		txt.draw(img, x0+mm(0.3), base-mm(0.8), name, st.TraceColor)
+	default:
+		txt.draw(img, x0+mm(1.2), base-mm(0.75*st.GainMMPerMV+1), name, st.TraceColor)
+	}
+}
+
+// useLayer makes the inker collect coverage in a layer (finish lays it
+// on the page) instead of blending each stroke at once: for square pen
+// ends, a wobbling pen, a thermal head or ink that spreads.
+func (k *inker) useLayer(butt bool, jitterPx float64, seed int64) {
+	r := k.dst.Rect
+	k.layer = image.NewAlpha(image.Rect(0, 0, r.Dx(), r.Dy()))
+	k.butt = butt
+	k.jitter = jitterPx
+	k.rng = rand.New(rand.NewSource(seed))
+}
+
+// wobble adds a slow random offset (an AR(1) walk with the given
+// standard deviation) to a polyline's points.
+func (k *inker) wobble(xs, ys []float64) ([]float64, []float64) {
+	if k.jitter <= 0 || len(xs) == 0 {
+		return xs, ys
+	}
+	ox := make([]float64, len(xs))
+	oy := make([]float64, len(ys))
+	const a = 0.97 // correlation from one point to the next: the wobble spans tens of samples
+	b := math.Sqrt(1 - a*a)
+	nx, ny := k.rng.NormFloat64(), k.rng.NormFloat64()
+	for i := range xs {
+		nx = a*nx + b*k.rng.NormFloat64()
+		ny = a*ny + b*k.rng.NormFloat64()
+		ox[i] = xs[i] + 0.5*k.jitter*nx
+		oy[i] = ys[i] + k.jitter*ny
+	}
+	return ox, oy
+}
+
+// finish lays the collected layer on the page: through a thermal head's
+// dot lattice (8 dots per mm, a usual head resolution, from memory) when
+// thermal, bled by spreadPx when that is not 0.
+func (k *inker) finish(thermal bool, spreadPx, pxmm float64) {
+	if k.layer == nil {
+		return
+	}
+	L := k.layer
+	W, H := L.Rect.Dx(), L.Rect.Dy()
+	if thermal {
+		pitch := pxmm / 8
+		out := image.NewAlpha(L.Rect)
+		// Per column: the lattice cell's centre and whether the pixel
+		// falls in the seam after a head line.
+		cxs := make([]int, W)
+		seam := make([]bool, W)
+		for x := 0; x < W; x++ {
+			fx := (float64(x) + 0.5) / pitch
+			cxs[x] = int(math.Min(float64(W-1), (math.Floor(fx)+0.5)*pitch))
+			seam[x] = fx-math.Floor(fx) > 0.85
+		}
+		parallelRows(H, func(y0, y1 int) {
+			for y := y0; y < y1; y++ {
+				fy := (float64(y) + 0.5) / pitch
+				cy := int(math.Min(float64(H-1), (math.Floor(fy)+0.5)*pitch))
+				src := L.Pix[cy*L.Stride : cy*L.Stride+W]
+				dst := out.Pix[y*out.Stride : y*out.Stride+W]
+				for x := 0; x < W; x++ {
+					if src[cxs[x]] < 90 {
+						continue
+					}
+					if seam[x] {
+						dst[x] = 110 // a thin pale seam between head lines
+					} else {
+						dst[x] = 255
+					}
+				}
+			}
+		})
+		L = out
+	}
+	if spreadPx > 0.2 {
+		L = alphaBlur(L, spreadPx)
+		for i, a := range L.Pix {
+			L.Pix[i] = uint8(math.Min(255, 1.6*float64(a)))
+		}
+	}
+	c := k.col
+	parallelRows(H, func(y0, y1 int) {
+		for y := y0; y < y1; y++ {
+			lrow := L.Pix[y*L.Stride : y*L.Stride+W]
+			drow := k.dst.Pix[y*k.dst.Stride:]
+			for x, a := range lrow {
+				if a != 0 {
+					blendPx(drow[4*x:4*x+4], c, uint32(a)*uint32(c.A)/255)
+				}
+			}
+		}
+	})
+	k.layer = nil
+}
+
+// alphaBlur blurs a coverage layer with a Gaussian of sigma px.
+func alphaBlur(src *image.Alpha, sigma float64) *image.Alpha {
+	W, H := src.Rect.Dx(), src.Rect.Dy()
+	kk := gaussKernel(sigma)
+	r := len(kk) / 2
+	tmp := image.NewAlpha(src.Rect)
+	parallelRows(H, func(y0, y1 int) {
+		for y := y0; y < y1; y++ {
+			in := src.Pix[y*src.Stride:]
+			out := tmp.Pix[y*tmp.Stride:]
+			for x := 0; x < W; x++ {
+				var acc int32
+				for j, w := range kk {
+					xx := min(max(x+j-r, 0), W-1)
+					acc += w * int32(in[xx])
+				}
+				out[x] = uint8((acc + 32768) >> 16)
+			}
+		}
+	})
+	dst := image.NewAlpha(src.Rect)
+	parallelRows(H, func(y0, y1 int) {
+		for y := y0; y < y1; y++ {
+			out := dst.Pix[y*dst.Stride:]
+			for x := 0; x < W; x++ {
+				var acc int32
+				for j, w := range kk {
+					yy := min(max(y+j-r, 0), H-1)
+					acc += w * int32(tmp.Pix[yy*tmp.Stride+x])
+				}
+				out[x] = uint8((acc + 32768) >> 16)
+			}
+		}
+	})
+	return dst
 }

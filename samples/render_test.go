@@ -62,6 +62,13 @@ func percentile(v []float64, p float64) float64 {
 // within 0.5 px).
 func checkPixels(t *testing.T, p *Printout, st Style) {
 	t.Helper()
+	checkPixelsTol(t, p, st, 0.2, 0.5)
+}
+
+// checkPixelsTol is checkPixels with the median and 95th-percentile
+// limits given (px).
+func checkPixelsTol(t *testing.T, p *Printout, st Style, medLim, p95Lim float64) {
+	t.Helper()
 	tr := p.Truth
 	pxPerS := tr.SpeedMMPerS * tr.PxPerMMX
 	pxPerMV := tr.GainMMPerMV * tr.PxPerMMY
@@ -105,7 +112,7 @@ func checkPixels(t *testing.T, p *Printout, st Style) {
 		if testing.Verbose() && pn.Row == 0 && pn.Col == 0 {
 			t.Logf("%s: median %.3f px, 95th %.3f px, %d columns", pn.Lead, med, p95, len(errs))
 		}
-		if med > 0.2 || p95 > 0.5 {
+		if med > medLim || p95 > p95Lim {
 			t.Errorf("%s (row %d col %d): |centroid − truth| median %.3f px, 95th %.3f px over %d columns", pn.Lead, pn.Row, pn.Col, med, p95, len(errs))
 		}
 	}

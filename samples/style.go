@@ -3,6 +3,7 @@ package samples
 import (
 	"fmt"
 	"image/color"
+	"math"
 	"math/rand"
 )
 
@@ -77,7 +78,83 @@ type Style struct {
 	SettingsForm int
 
 	StartS float64 // record time drawn at tracing time 0
+
+	// The fields below widen the look; their zero values keep the
+	// classic look above (pulse left with a gap, labels above the
+	// baseline, short ticks, round pen).
+
+	// PulsePlace says where the pulse stands and how it meets the trace
+	// (used when Pulses is true). PulseMS is its width, default 200 ms.
+	PulsePlace PulsePlace
+	PulseMS    float64
+	// LabelPlace says where the lead names stand.
+	LabelPlace LabelPlace
+	// Boundary says how one column gives way to the next when
+	// Separators is true; BoundaryGapMS is the blank of BoundaryGap.
+	Boundary      Boundary
+	BoundaryGapMS float64
+	// Pen says how the trace is inked; PenJitterMM is the standard
+	// deviation of a slow wobble of the pen across the stroke, and
+	// InkSpreadMM a bleed of the ink into the paper (both 0 = none).
+	Pen         PenKind
+	PenJitterMM float64
+	InkSpreadMM float64
+	// Strip draws narrow strip paper without margins: one band, the
+	// grid running to every edge (with Layout1x1).
+	Strip bool
+	// GridBorder frames the grid rectangle with a 5 mm-line-wide border.
+	GridBorder bool
+	// Seed drives the pen's wobble and the thermal head's dots.
+	Seed int64
 }
+
+// PulsePlace is where the 1 mV calibration pulse is printed.
+type PulsePlace int
+
+// Pulse places.
+const (
+	PulseGapLeft     PulsePlace = iota // left of each row; the trace starts after a gap
+	PulseJoinedLeft                    // left; the trace leaves the pulse's falling edge at the baseline
+	PulseGapRight                      // right end of each row, after the trace, with a gap
+	PulseJoinedRight                   // right end; the trace drops to the baseline and the pulse rises from it
+)
+
+// Joined reports whether the trace runs into the pulse without a gap.
+func (p PulsePlace) Joined() bool { return p == PulseJoinedLeft || p == PulseJoinedRight }
+
+// Right reports whether the pulse stands at the right end of the row.
+func (p PulsePlace) Right() bool { return p == PulseGapRight || p == PulseJoinedRight }
+
+// LabelPlace is where the lead names are printed.
+type LabelPlace int
+
+// Label places.
+const (
+	LabelAbove  LabelPlace = iota // above the baseline, just after the panel's start
+	LabelBelow                    // below the baseline
+	LabelMargin                   // in the left margin before the row (first column), else above
+	LabelInside                   // in the first millimetre of the panel, on the baseline
+)
+
+// Boundary is how a column join is marked.
+type Boundary int
+
+// Boundaries.
+const (
+	BoundaryTick Boundary = iota // a short vertical tick across the baseline
+	BoundaryTall                 // a tick across most of the row's band
+	BoundaryGap                  // the trace stops short: a blank of BoundaryGapMS
+)
+
+// PenKind is how the trace is inked.
+type PenKind int
+
+// Pens.
+const (
+	PenRound   PenKind = iota // round caps and joins
+	PenButt                   // square ends, no rounding at the joins
+	PenThermal                // a thermal head: dots on an 8 per mm lattice, one head line at a time
+)
 
 // DefaultStyle is the commonest printout: A4 landscape, 3x4+1 with a
 // lead II rhythm strip, red grid, 25 mm/s, 10 mm/mV, 300 dpi.
@@ -181,6 +258,29 @@ func (st Style) withDefaults() (Style, error) {
 	if st.Font < 0 || st.Font >= NumFonts {
 		st.Font = FontSans
 	}
+	def(&st.PulseMS, 200)
+	def(&st.BoundaryGapMS, 40)
+	switch {
+	case bad(st.PulseMS, 40, 400):
+		return st, fmt.Errorf("samples: pulse width %v ms out of range 40..400", st.PulseMS)
+	case bad(st.BoundaryGapMS, 0, 200):
+		return st, fmt.Errorf("samples: boundary gap %v ms out of range 0..200", st.BoundaryGapMS)
+	case bad(st.PenJitterMM, 0, 0.5) || bad(st.InkSpreadMM, 0, 1):
+		return st, fmt.Errorf("samples: pen jitter or ink spread out of range")
+	case st.PulsePlace < PulseGapLeft || st.PulsePlace > PulseJoinedRight:
+		return st, fmt.Errorf("samples: unknown pulse place %d", st.PulsePlace)
+	case st.LabelPlace < LabelAbove || st.LabelPlace > LabelInside:
+		return st, fmt.Errorf("samples: unknown label place %d", st.LabelPlace)
+	case st.Boundary < BoundaryTick || st.Boundary > BoundaryGap:
+		return st, fmt.Errorf("samples: unknown boundary %d", st.Boundary)
+	case st.Pen < PenRound || st.Pen > PenThermal:
+		return st, fmt.Errorf("samples: unknown pen %d", st.Pen)
+	case st.Strip && st.Layout != Layout1x1:
+		return st, fmt.Errorf("samples: strip paper holds one strip (layout 1x1), not %s", st.Layout)
+	}
+	if st.Strip {
+		st.MarginsMM = [4]float64{}
+	}
 	return st, nil
 }
 
@@ -276,5 +376,118 @@ func RandomStyle(rng *rand.Rand) Style {
 	// From a value already drawn, so that the suite's other draws stay.
 	st.SettingsForm = int(st.LabelPt*1000) % 3
 	st.StartS = 0
+	return st
+}
+
+// WidenStyle redraws the looks that printers differ in beyond what
+// RandomStyle varies: where the pulse stands and whether the trace runs
+// into it, its width, label places and sizes, how columns meet, the pen
+// (square ends, a thermal head, a wobble, ink that spreads), a frame
+// round the grid, and, for a lone strip, strip paper without margins.
+// Each choice is drawn from rng, so that no single look is learned.
+func WidenStyle(st Style, rng *rand.Rand) Style {
+	u := func(lo, hi float64) float64 { return lo + (hi-lo)*rng.Float64() }
+	switch r := rng.Float64(); {
+	case r < 0.35:
+		st.PulsePlace = PulseGapLeft
+	case r < 0.75:
+		st.PulsePlace = PulseJoinedLeft // many carts print it so (the outside pages do)
+	case r < 0.88:
+		st.PulsePlace = PulseGapRight
+	default:
+		st.PulsePlace = PulseJoinedRight
+	}
+	if rng.Float64() < 0.06 {
+		st.Pulses = false
+	}
+	st.PulseMS = []float64{200, 200, 200, 200, 100, 160}[rng.Intn(6)]
+	switch r := rng.Float64(); {
+	case r < 0.4:
+		st.LabelPlace = LabelAbove
+	case r < 0.6:
+		st.LabelPlace = LabelBelow
+	case r < 0.8:
+		st.LabelPlace = LabelMargin
+	default:
+		st.LabelPlace = LabelInside
+	}
+	if rng.Float64() < 0.5 {
+		st.LabelPt = u(5, 16)
+	}
+	if st.LabelPlace == LabelMargin {
+		// Room for "aVR" before the grid.
+		st.MarginsMM[0] = math.Max(st.MarginsMM[0], 3*0.6*st.LabelPt*0.3528+2)
+	}
+	st.Separators = rng.Float64() < 0.75
+	st.Boundary = []Boundary{BoundaryTick, BoundaryTick, BoundaryTall, BoundaryGap, BoundaryGap}[rng.Intn(5)]
+	st.BoundaryGapMS = u(16, 80)
+	switch r := rng.Float64(); {
+	case r < 0.55:
+		st.Pen = PenRound
+	case r < 0.8:
+		st.Pen = PenButt
+	default:
+		st.Pen = PenThermal
+	}
+	if rng.Float64() < 0.5 {
+		st.TraceWidthMM = u(0.2, 0.5)
+	}
+	if rng.Float64() < 0.4 {
+		st.PenJitterMM = u(0.005, 0.03)
+	}
+	if rng.Float64() < 0.3 {
+		st.InkSpreadMM = u(0.03, 0.12)
+	}
+	st.GridBorder = rng.Float64() < 0.3
+	st.Seed = rng.Int63()
+	if st.Layout == Layout1x1 {
+		if rng.Float64() < 0.4 {
+			st.RhythmLeads = []string{[]string{"II", "III", "aVF", "V1", "V2", "V5", "V6", "I", "aVL"}[rng.Intn(9)]}
+		}
+		if rng.Float64() < 0.6 {
+			st.Strip = true
+			st.PaperHMM = u(50, 80)
+			st.PaperWMM = u(250, 300)
+			if st.GainMMPerMV > 10 {
+				st.GainMMPerMV = 10
+			}
+			st.Header = ""
+			if rng.Float64() < 0.5 {
+				st.Header = " " // the settings alone, printed inside the grid
+			}
+			if st.LabelPlace == LabelMargin {
+				st.LabelPlace = LabelAbove // no margin to print in
+			}
+			if st.PaperWMM > 210 && st.Layout == Layout1x1 && st.DPI > 400 {
+				st.DPI = 300
+			}
+		}
+	}
+	return st
+}
+
+// ConditionStyle adjusts a style to go with a condition: a faint green
+// or blue grid for "darktable", a thermal head on tinted paper for
+// "thermal"; other conditions leave it as it is.
+func ConditionStyle(cond string, st Style, rng *rand.Rand) Style {
+	switch cond {
+	case "curled", "shadow", "chatapp", "darktable", "thermal":
+		// A phone resolves no more than about 300 dpi of a whole page, and
+		// a thermal head prints 8 dots per mm: render no finer than that
+		// (it also keeps the bench quick).
+		st.DPI = math.Min(st.DPI, 300)
+	}
+	switch cond {
+	case "darktable":
+		c := []color.NRGBA{{90, 170, 100, 255}, {100, 140, 220, 255}, {120, 190, 170, 255}}[rng.Intn(3)]
+		st.GridColor = lighten(c, 0.35+0.3*rng.Float64())
+		st.Grid = GridLines
+		st.MinorLineMM = 0.03 + 0.04*rng.Float64()
+		st.MajorLineMM = st.MinorLineMM + 0.04 + 0.08*rng.Float64()
+	case "thermal":
+		st.Pen = PenThermal
+		st.PaperColor = color.NRGBA{uint8(240 + rng.Intn(12)), uint8(238 + rng.Intn(12)), uint8(225 + rng.Intn(20)), 255}
+		st.TraceColor = []color.NRGBA{{30, 30, 35, 255}, {60, 40, 70, 255}, {20, 20, 20, 255}}[rng.Intn(3)]
+	}
 	return st
 }

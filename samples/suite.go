@@ -2,6 +2,7 @@ package samples
 
 import (
 	"bytes"
+	"image"
 	"image/jpeg"
 	"image/png"
 	"math"
@@ -56,6 +57,10 @@ func NewSuiteCase(seed int64, i int, conds []string, real *record.Record) SuiteC
 	}
 	c.Style = RandomStyle(rng)
 	c.Degradation = Condition(c.Condition, rng)
+	// The wider looks from a source of their own, so that the record,
+	// the classic style's draws and the degradation stay as they were.
+	wide := rand.New(rand.NewSource((seed*1000003+int64(i))*7919 + 104729))
+	c.Style = ConditionStyle(c.Condition, WidenStyle(c.Style, wide), wide)
 	return c
 }
 
@@ -69,11 +74,25 @@ func (c SuiteCase) Printout() (*Printout, error) {
 }
 
 // File encodes the case's printout as a file would arrive: a JPEG
-// (quality 90) for a phone photo, a PNG otherwise. It returns the file's
-// name (case.jpg or case.png) and bytes.
+// (quality 90) for a phone photo, the app's own JPEG for a chat-app
+// photo, a TIFF carrying its resolution for a fax that asks for one
+// (pages cover sheet, ECG when there is a cover), a PNG otherwise. It
+// returns the file's name (case.jpg, case.tif or case.png) and bytes.
 func (c SuiteCase) File(po *Printout) (string, []byte, error) {
 	var buf bytes.Buffer
-	if c.Condition == "photo" {
+	if po.Encoded != nil {
+		return "case.jpg", po.Encoded, nil
+	}
+	if c.Degradation.FileTIFF {
+		pages := []*image.NRGBA{po.Image}
+		if po.Cover != nil {
+			pages = []*image.NRGBA{po.Cover, po.Image}
+		}
+		b, err := EncodeTIFF(pages, po.Truth.FileDPIX, po.Truth.FileDPIY, true)
+		return "case.tif", b, err
+	}
+	switch c.Condition {
+	case "photo", "curled", "shadow", "darktable":
 		err := jpeg.Encode(&buf, po.Image, &jpeg.Options{Quality: 90})
 		return "case.jpg", buf.Bytes(), err
 	}

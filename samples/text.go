@@ -51,6 +51,14 @@ func newTexter(st Style) *texter {
 	return t
 }
 
+// width returns the advance of s in px.
+func (t *texter) width(s string) float64 {
+	if t.face != nil {
+		return float64(font.MeasureString(t.face, s)) / 64
+	}
+	return float64(7 * t.scale * len([]rune(s)))
+}
+
 // draw writes s with its baseline starting at (x, y) px.
 func (t *texter) draw(dst *image.NRGBA, x, y float64, s string, c color.NRGBA) {
 	if s == "" {

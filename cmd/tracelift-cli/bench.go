@@ -52,7 +52,7 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("bench", flag.ContinueOnError)
 	n := fs.Int("cases", 25, "number of rendered printouts")
 	seed := fs.Int64("seed", 1, "seed of the suite (the same seed renders the same suite)")
-	conds := fs.String("conditions", "clean,rotated,photocopy,photo,fax", "conditions to cycle through")
+	conds := fs.String("conditions", strings.Join(samples.AllConditions, ","), "conditions to cycle through")
 	csvOut := fs.String("csv", "", "also write one row per case to this CSV file")
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
 	dpi := fs.Float64("dpi", 0, "render every case at this dpi (default: vary, 150–600)")
@@ -70,8 +70,8 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	var condList []string
 	for _, c := range strings.Split(*conds, ",") {
 		c = strings.TrimSpace(c)
-		if !slices.Contains(samples.Conditions, c) {
-			return usageError(stderr, "bench", fmt.Sprintf("--conditions: unknown condition %q (choose from %s)", c, strings.Join(samples.Conditions, ", ")))
+		if !slices.Contains(samples.AllConditions, c) {
+			return usageError(stderr, "bench", fmt.Sprintf("--conditions: unknown condition %q (choose from %s)", c, strings.Join(samples.AllConditions, ", ")))
 		}
 		condList = append(condList, c)
 	}
