@@ -24,12 +24,14 @@ type Options struct {
 
 // Panel is one drawn lead window on the rectified page.
 type Panel struct {
-	Lead      string     // as printed: a standard name, or "-aVR" for Cabrera's inverted aVR
-	Row, Col  int        // grid position; rhythm strips continue the row count
-	Rhythm    bool       // a strip across the whole page
-	Box       [4]float64 // x0, y0, x1, y1 in rectified px; x0 is time T0S
-	T0S, T1S  float64    // time window on the tracing clock
-	BaselineY float64    // y of 0 mV in rectified px
+	Lead      string     `json:"lead"`       // as printed: a standard name, or "-aVR" for Cabrera's inverted aVR
+	Row       int        `json:"row"`        // grid position; rhythm strips continue the row count
+	Col       int        `json:"col"`        // grid position
+	Rhythm    bool       `json:"rhythm"`     // a strip across the whole page
+	Box       [4]float64 `json:"box"`        // x0, y0, x1, y1 in rectified px; x0 is time T0S
+	T0S       float64    `json:"t0_s"`       // time window on the tracing clock
+	T1S       float64    `json:"t1_s"`       // time window on the tracing clock
+	BaselineY float64    `json:"baseline_y"` // y of 0 mV in rectified px
 }
 
 // Trace is one panel's traced centre line.
@@ -56,18 +58,20 @@ type LeadQuality struct {
 // aVF = II − I/2; where I or II is absent the augmented lead is instead
 // predicted by least squares from the other limb leads present.
 type LawCheck struct {
-	Column          int
-	T0S, T1S        float64
-	EinthovenRMSuV  float64
-	GoldbergerRMSuV [3]float64
-	Worst           string // the lead that most breaks the laws here
+	Column          int        `json:"column"`
+	T0S             float64    `json:"t0_s"`
+	T1S             float64    `json:"t1_s"`
+	EinthovenRMSuV  float64    `json:"einthoven_rms_uv"`
+	GoldbergerRMSuV [3]float64 `json:"goldberger_rms_uv"` // aVR, aVL, aVF
+	Worst           string     `json:"worst"`             // the lead that most breaks the laws here
 }
 
 // Place is a stretch worth checking by hand.
 type Place struct {
-	Lead     string
-	T0S, T1S float64
-	Why      string
+	Lead string  `json:"lead"`
+	T0S  float64 `json:"t0_s"`
+	T1S  float64 `json:"t1_s"`
+	Why  string  `json:"why"`
 }
 
 // Result is the digitized printout.
