@@ -17,7 +17,7 @@ import (
 // samples at 500 Hz.
 type Options struct {
 	RateHz    float64  // output rate; 0 means 500
-	Layout    string   // "" to detect, or "3x4", "3x4+1", "3x4+3", "6x2", "12x1", "1x1"
+	Layout    string   // "" to detect, or one of record.Layouts
 	LeadOrder string   // "" to detect, "standard" or "cabrera"
 	Leads     []string // optional lead names for the panels in reading order (row by row, left to right, rhythm strips last)
 }
@@ -122,8 +122,8 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		opt.RateHz = 500
 	}
 	if opt.Layout != "" {
-		if _, ok := layoutRows[opt.Layout]; !ok {
-			return nil, fmt.Errorf("digitize: unknown layout %q (want 3x4, 3x4+1, 3x4+3, 6x2, 12x1 or 1x1)", opt.Layout)
+		if !record.Layout(opt.Layout).Known() {
+			return nil, fmt.Errorf("digitize: unknown layout %q (want one of %s)", opt.Layout, record.LayoutNames(record.Layouts))
 		}
 	}
 	switch opt.LeadOrder {
@@ -175,10 +175,10 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if gn == 0 && noPulse(cal) {
 		readSettings(g, rows, pitch, cal)
 	}
-	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
-		rows = fitRows(rows, layoutRows[opt.Layout])
+	if opt.Layout != "" && layoutRows(opt.Layout) != len(rows) {
+		rows = fitRows(rows, layoutRows(opt.Layout))
 		if rows == nil {
-			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p, cal.GainMMPerMV)), opt.Layout, layoutRows[opt.Layout])
+			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p, cal.GainMMPerMV)), opt.Layout, layoutRows(opt.Layout))
 		}
 	}
 	hyps := candidates(len(rows), opt)
@@ -201,8 +201,8 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		rows2 := findRows(g2, p, cal.GainMMPerMV)
 		if opt.Layout == "" {
 			rows2 = trimRows(rows2)
-		} else if layoutRows[opt.Layout] != len(rows2) {
-			rows2 = fitRows(rows2, layoutRows[opt.Layout])
+		} else if layoutRows(opt.Layout) != len(rows2) {
+			rows2 = fitRows(rows2, layoutRows(opt.Layout))
 		}
 		// A turn of at most 1.5° leaves the traces' span as it was (to
 		// 0.04 %); a span that moved found its ends on something else
@@ -223,7 +223,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	// among the candidates has columns.
 	nseg := 1
 	for _, h := range hyps {
-		nseg = max(nseg, layoutCols[h.layout])
+		nseg = max(nseg, layoutCols(h.layout))
 	}
 	segs, err := pg.traceRows(ctx, nseg)
 	if err != nil {
@@ -240,7 +240,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		}
 	}
 	h := hyps[best]
-	if c := layoutCols[h.layout]; c != nseg {
+	if c := layoutCols(h.layout); c != nseg {
 		segs, err = pg.traceRows(ctx, c)
 		if err != nil {
 			return nil, err
@@ -694,7 +694,7 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 // segments traced in nseg equal parts.
 func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []string) ([]Panel, []Trace) {
 	names, prow, pcol, rhythm := leadGrid(h)
-	ncols := layoutCols[h.layout]
+	ncols := layoutCols(h.layout)
 	per := nseg / ncols
 	colDur := (pg.segBounds(nseg, -1)[per] - pg.x0f) / pg.pxPerS
 	var panels []Panel

@@ -25,6 +25,7 @@ import (
 	"tracelift/calib"
 	"tracelift/digitize"
 	"tracelift/pipeline"
+	"tracelift/record"
 	"tracelift/report"
 )
 
@@ -315,7 +316,7 @@ func advise(err error, path string) error {
 	case errors.Is(err, calib.ErrNoScale):
 		what = "give the scale by hand with --dpi or --px-per-mm"
 	case errors.Is(err, digitize.ErrLayout):
-		what = "give the layout by hand with --layout (3x4+1, 3x4+3, 6x2, 12x1, 1x1)"
+		what = "give the layout by hand with --layout (" + record.LayoutNames(record.Layouts) + ")"
 	case errors.Is(err, axis.ErrNoLead), errors.Is(err, axis.ErrTooShort), errors.Is(err, axis.ErrNoBeats):
 		what = "check the traced signals in the CSV; a better scan of the page may help"
 	case errors.Is(err, context.DeadlineExceeded), errors.Is(err, context.Canceled):

@@ -25,8 +25,14 @@ import (
 	"tracelift/samples"
 )
 
-// Layouts the user may choose on the Reading tab (the digitizer's names).
-var Layouts = []string{"3x4", "3x4+1", "3x4+3", "6x2", "12x1", "1x1"}
+// Layouts the user may choose on the Reading tab (record.Layouts).
+var Layouts = func() []string {
+	out := make([]string, len(record.Layouts))
+	for i, l := range record.Layouts {
+		out[i] = string(l)
+	}
+	return out
+}()
 
 // Backend is the pipeline behind the model.
 type Backend struct {
