@@ -316,12 +316,7 @@ func half(ci [2]axis.Num, sd axis.Num) float64 {
 	return math.NaN()
 }
 
-func fmtDeg(v float64) string {
-	if math.IsNaN(v) {
-		return "—"
-	}
-	return fmt.Sprintf("%.0f°", v)
-}
+func fmtDeg(v float64) string { return record.FormatNum("%.0f°", v) }
 
 // Export writes what the screen shows: the corrected record, the panels
 // where the user put them and the findings measured after the

@@ -1,6 +1,7 @@
 package record
 
 import (
+	"math"
 	"strconv"
 	"strings"
 	"testing"
@@ -42,5 +43,18 @@ func TestLayoutShapes(t *testing.T) {
 	}
 	if l, err := ParseLayout("6x2"); err != nil || l != Layout6x2 {
 		t.Errorf("ParseLayout(6x2) = %q, %v", l, err)
+	}
+}
+
+// Unmeasured values print as the one mark; measured ones with the format.
+func TestFormatNum(t *testing.T) {
+	t.Parallel()
+	for _, c := range []struct {
+		v    float64
+		want string
+	}{{math.NaN(), Missing}, {math.Inf(1), Missing}, {math.Inf(-1), Missing}, {-30.4, "-30°"}, {72, "72°"}} {
+		if got := FormatNum("%.0f°", c.v); got != c.want {
+			t.Errorf("FormatNum(%v) = %q, want %q", c.v, got, c.want)
+		}
 	}
 }
