@@ -7,6 +7,7 @@ import (
 	"sort"
 
 	"tracelift/record"
+	"tracelift/stats"
 )
 
 // mbeat is a beat of the merged beat list.
@@ -114,7 +115,7 @@ func Measure(rec *record.Record, opt Options) (*Findings, error) {
 			pk = append(pk, b.peak)
 		}
 		if len(pk) > 0 {
-			strength[ci] = median(pk)
+			strength[ci] = stats.MedianInPlace(pk)
 		}
 		maxStrength = math.Max(maxStrength, strength[ci])
 	}
@@ -248,7 +249,7 @@ func (m *measurer) rhythm(f *Findings) {
 		hr[i] = 60 / v
 	}
 	_, hsd := meanSD(hr)
-	m.rrMed = median(append([]float64(nil), rrs...))
+	m.rrMed = stats.Median(rrs)
 	f.RRMeanS, f.RRSDS = Num(mean), Num(sd)
 	f.HeartRateBPM = Num(60 / mean)
 	f.HeartRateSD = Num(hsd)

@@ -4,10 +4,10 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
 
 	"tracelift/pipeline"
+	"tracelift/stats"
 )
 
 // Findings is the part of a page's JSON document that the summary and the
@@ -122,7 +122,7 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 			f.LeadConfidence[lead] = q.Confidence
 			cs = append(cs, q.Confidence)
 		}
-		f.MedianLeadConfidence = median(cs)
+		f.MedianLeadConfidence = stats.Median(cs)
 	}
 	if m := d.Findings; m != nil {
 		f.HeartRateBPM = float64(m.HeartRateBPM)
@@ -136,17 +136,6 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 	return d.ImageSHA256, f, nil
 }
 
-func median(v []float64) float64 {
-	if len(v) == 0 {
-		return math.NaN()
-	}
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	if len(s)%2 == 1 {
-		return s[len(s)/2]
-	}
-	return (s[len(s)/2-1] + s[len(s)/2]) / 2
-}
 
 // formatNum writes a summary cell: empty for NaN, else at most 3 decimals.
 func formatNum(v float64) string {

@@ -21,6 +21,7 @@ import (
 	"tracelift/record"
 	"tracelift/record/wfdb"
 	"tracelift/samples"
+	"tracelift/stats"
 )
 
 func init() {
@@ -286,7 +287,7 @@ func appendFinite(v []float64, x float64) []float64 {
 	return append(v, x)
 }
 
-func median(v []float64) float64 { return pct(v, 50) }
+func median(v []float64) float64 { return stats.Median(v) }
 
 // pct is the p-th percentile by linear interpolation; NaN when empty.
 func pct(v []float64, p float64) float64 {
