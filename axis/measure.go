@@ -8,6 +8,8 @@ import (
 
 	"tracelift/record"
 	"tracelift/stats"
+
+	"gonum.org/v1/gonum/stat"
 )
 
 // mbeat is a beat of the merged beat list.
@@ -271,21 +273,17 @@ func (m *measurer) rhythm(f *Findings) {
 	}
 }
 
+// meanSD returns the mean and the sample standard deviation of x (gonum's
+// stat.MeanStdDev, unbiased); NaN for both when x is empty, NaN for the
+// deviation of a single value.
 func meanSD(x []float64) (mean, sd float64) {
-	if len(x) == 0 {
+	switch len(x) {
+	case 0:
 		return math.NaN(), math.NaN()
+	case 1:
+		return x[0], math.NaN()
 	}
-	for _, v := range x {
-		mean += v
-	}
-	mean /= float64(len(x))
-	if len(x) < 2 {
-		return mean, math.NaN()
-	}
-	for _, v := range x {
-		sd += (v - mean) * (v - mean)
-	}
-	return mean, math.Sqrt(sd / float64(len(x)-1))
+	return stat.MeanStdDev(x, nil)
 }
 
 func (m *measurer) beatTimes() []float64 {
