@@ -127,12 +127,11 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("digitize", flag.ContinueOnError)
 	var c commonFlags
 	c.register(fs)
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli digitize IMAGE -o DIR [options]")
-		fmt.Fprintln(stderr, "Reads a PNG, JPEG, TIFF (fax too) or PDF page of an ECG printout and writes DIR/<stem>.csv,")
-		fmt.Fprintln(stderr, "DIR/<stem>.json and the other chosen exports.")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli digitize IMAGE -o DIR [options]",
+		"Reads a PNG, JPEG, TIFF (fax too) or PDF page of an ECG printout and writes DIR/<stem>.csv,",
+		"DIR/<stem>.json and the other chosen exports.",
+	)
 	pos, code, ok := parseCommand(fs, args, stderr)
 	if !ok {
 		return code
