@@ -47,32 +47,3 @@ func FuzzMeasure(f *testing.F) {
 		}
 	})
 }
-
-// median by selection equals the textbook median (sort, take the middle
-// or the mean of the two middles) on random lengths with ties.
-func TestMedianSelect(t *testing.T) {
-	t.Parallel()
-	for n := 1; n < 200; n++ {
-		x := make([]float64, n)
-		for i := range x {
-			x[i] = float64((i*7919 + n*31) % 23)
-		}
-		y := append([]float64(nil), x...)
-		sortFloats(y)
-		want := y[n/2]
-		if n%2 == 0 {
-			want = (y[n/2-1] + y[n/2]) / 2
-		}
-		if got := median(x); got != want {
-			t.Fatalf("n=%d: median %v, want %v", n, got, want)
-		}
-	}
-}
-
-func sortFloats(x []float64) {
-	for i := 1; i < len(x); i++ {
-		for j := i; j > 0 && x[j] < x[j-1]; j-- {
-			x[j], x[j-1] = x[j-1], x[j]
-		}
-	}
-}

@@ -318,3 +318,18 @@ func BenchmarkMeasureLong(b *testing.B) {
 		}
 	}
 }
+
+// The classic 2, 4, 4, 4, 5, 5, 7, 9: mean 5, squared deviations 32, so
+// the sample SD is √(32/7) (population SD 2; from memory).
+func TestMeanSD(t *testing.T) {
+	m, sd := meanSD([]float64{2, 4, 4, 4, 5, 5, 7, 9})
+	if math.Abs(m-5) > 1e-12 || math.Abs(sd-math.Sqrt(32.0/7)) > 1e-12 {
+		t.Errorf("meanSD = %v, %v", m, sd)
+	}
+	if m, sd := meanSD([]float64{3}); m != 3 || !math.IsNaN(sd) {
+		t.Errorf("one value: %v, %v", m, sd)
+	}
+	if m, _ := meanSD(nil); !math.IsNaN(m) {
+		t.Errorf("nothing: %v", m)
+	}
+}

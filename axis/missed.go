@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"sort"
+
+	"tracelift/stats"
 )
 
 // Missed beats. The detector's T-wave test and its refractory period can
@@ -31,7 +33,7 @@ func (m *measurer) recoverMissed() (empty [][2]float64, found int) {
 	if len(rrs) < 3 {
 		return nil, 0
 	}
-	med := median(append([]float64(nil), rrs...))
+	med := stats.Median(rrs)
 	slopeAt := func(si int, t0, t1 float64) (float64, float64) {
 		s := &m.rec.Signals[si]
 		fs := s.RateHz
@@ -65,7 +67,7 @@ func (m *measurer) recoverMissed() (empty [][2]float64, found int) {
 			empty = append(empty, [2]float64{a.t, b.t})
 			continue
 		}
-		typ := median(append([]float64(nil), ref...))
+		typ := stats.Median(ref)
 		// Search from 200 ms after the beat (the refractory period) to
 		// 200 ms before the next.
 		v, t := slopeAt(a.lead, a.t+0.2, b.t-0.2)

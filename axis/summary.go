@@ -3,12 +3,15 @@ package axis
 import (
 	"fmt"
 	"strings"
+
+	"tracelift/record"
 )
 
-// fmtNum writes v with its uncertainty, or "–" when not measured.
+// fmtNum writes v with its uncertainty, or record.Missing when not
+// measured.
 func fmtNum(v, sd Num, unit string) string {
 	if !v.OK() {
-		return "–"
+		return record.Missing
 	}
 	if sd.OK() {
 		return fmt.Sprintf("%.0f ± %.0f %s", float64(v), float64(sd), unit)
@@ -18,7 +21,7 @@ func fmtNum(v, sd Num, unit string) string {
 
 func fmtDeg(v, sd Num) string {
 	if !v.OK() {
-		return "–"
+		return record.Missing
 	}
 	if sd.OK() {
 		return fmt.Sprintf("%+.0f° ± %.0f°", float64(v), float64(sd))

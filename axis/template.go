@@ -2,9 +2,9 @@ package axis
 
 import (
 	"math"
-	"sort"
 
 	"tracelift/record"
+	"tracelift/stats"
 )
 
 // tplHz is the rate of the representative beats: every lead is brought to
@@ -58,7 +58,7 @@ func detrend(s *record.Signal, beats []float64, k0, k1 float64) []float64 {
 			continue
 		}
 		kt = append(kt, t+(k0+k1)/2)
-		kv = append(kv, median(buf))
+		kv = append(kv, stats.MedianInPlace(buf))
 	}
 	if len(kt) == 0 {
 		buf = buf[:0]
@@ -69,7 +69,7 @@ func detrend(s *record.Signal, beats []float64, k0, k1 float64) []float64 {
 		}
 		m := 0.0
 		if len(buf) > 0 {
-			m = median(buf)
+			m = stats.MedianInPlace(buf)
 		}
 		for i, v := range s.MV {
 			out[i] = v - m
@@ -152,75 +152,9 @@ func medianBeat(segs [][]float64, n int) []float64 {
 			out[k] = math.NaN()
 			continue
 		}
-		out[k] = median(col)
+		out[k] = stats.MedianInPlace(col)
 	}
 	return out
-}
-
-// median returns the median of x, reordering x. x must not be empty and
-// must hold no NaN.
-func median(x []float64) float64 {
-	if len(x) <= 12 {
-		sort.Float64s(x)
-	} else {
-		selectK(x, len(x)/2)
-		if len(x)%2 == 1 {
-			return x[len(x)/2]
-		}
-		// The lower middle is the largest of the left part.
-		lo := x[0]
-		for _, v := range x[1 : len(x)/2] {
-			lo = math.Max(lo, v)
-		}
-		return (lo + x[len(x)/2]) / 2
-	}
-	m := len(x) / 2
-	if len(x)%2 == 1 {
-		return x[m]
-	}
-	return (x[m-1] + x[m]) / 2
-}
-
-// selectK reorders x so that x[k] is the k-th smallest, everything before
-// it no larger and everything after no smaller (Hoare's selection with a
-// median-of-three pivot).
-func selectK(x []float64, k int) {
-	lo, hi := 0, len(x)-1
-	for hi > lo {
-		mid := lo + (hi-lo)/2
-		if x[mid] < x[lo] {
-			x[mid], x[lo] = x[lo], x[mid]
-		}
-		if x[hi] < x[lo] {
-			x[hi], x[lo] = x[lo], x[hi]
-		}
-		if x[hi] < x[mid] {
-			x[hi], x[mid] = x[mid], x[hi]
-		}
-		p := x[mid]
-		i, j := lo, hi
-		for i <= j {
-			for x[i] < p {
-				i++
-			}
-			for x[j] > p {
-				j--
-			}
-			if i <= j {
-				x[i], x[j] = x[j], x[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return
-		}
-	}
 }
 
 // corrShift finds the shift (in grid samples, within ±maxShift) that best

@@ -584,11 +584,12 @@ func TestParseDocument(t *testing.T) {
 	if _, _, err := ParseDocument([]byte(`{"heart_rate_bpm": 60}`)); err == nil {
 		t.Error("a document without image_sha256 was accepted")
 	}
-	// Go's default field names (Confidence) and a transition given as an
-	// object are read too; a null rate stays unmeasured.
-	sha, f, err := ParseDocument([]byte(`{"image_sha256":"ab","heart_rate_bpm":null,
-		"quality":{"V1":{"Confidence":0.5},"V2":{"Confidence":0.7}},"transition":{"lead":"V4","early":false}}`))
-	if err != nil || sha != "ab" || !math.IsNaN(f.HeartRateBPM) || f.MedianLeadConfidence != 0.6 || f.Transition != "V4" {
+	// A null rate stays unmeasured; the median of two confidences is
+	// their mean; a missing interval is unmeasured, not zero.
+	sha, f, err := ParseDocument([]byte(`{"image_sha256":"ab","heart_rate_bpm":null,"intervals_ms":{"pr":150},
+		"quality":{"V1":{"confidence":0.5},"V2":{"confidence":0.7}},"transition":"V4"}`))
+	if err != nil || sha != "ab" || !math.IsNaN(f.HeartRateBPM) || f.MedianLeadConfidence != 0.6 || f.Transition != "V4" ||
+		f.PRMS != 150 || !math.IsNaN(f.QTMS) {
 		t.Errorf("got %q %+v %v", sha, f, err)
 	}
 	b, err := json.Marshal(f)

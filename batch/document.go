@@ -4,9 +4,10 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
-	"strings"
+
+	"tracelift/pipeline"
+	"tracelift/stats"
 )
 
 // Findings is the part of a page's JSON document that the summary and the
@@ -101,110 +102,40 @@ func orNaN(p *float64) float64 {
 	return *p
 }
 
-// ParseDocument reads a page's JSON document (the command-line contract in
-// DEVELOPERS.md: image_sha256; heart_rate_bpm; intervals_ms {pr, qrs, qt,
-// qtc_bazett}; axis {qrs_deg}; transition; quality {lead: {confidence}};
-// calibration {confidence}) and returns the image hash and the findings.
-// Missing or null fields are NaN; a document that is not JSON, or has no
-// image_sha256, is an error.
+// ParseDocument reads a page's JSON document (pipeline.Document, the
+// command-line contract in DEVELOPERS.md) and returns the image hash and
+// the findings the summary carries. Unmeasured or missing numbers are
+// NaN; a document that is not JSON, or has no image_sha256, is an error.
 func ParseDocument(b []byte) (sha string, f Findings, err error) {
 	f = NoFindings()
-	var d struct {
-		SHA          string                                `json:"image_sha256"`
-		HeartRate    *float64                              `json:"heart_rate_bpm"`
-		Intervals    map[string]json.RawMessage            `json:"intervals_ms"` // numbers beside their [lo, hi] intervals
-		Axis         map[string]json.RawMessage            `json:"axis"`
-		Transition   json.RawMessage                       `json:"transition"`
-		Quality      map[string]map[string]json.RawMessage `json:"quality"`
-		Calibration  map[string]json.RawMessage            `json:"calibration"`
-		MeasureError string                                `json:"measure_error"`
-		Verdict      string                                `json:"verdict"`
-	}
-	if err := json.Unmarshal(b, &d); err != nil {
+	d, err := pipeline.ParseDocument(b)
+	if err != nil {
 		return "", f, fmt.Errorf("batch: the JSON document does not parse: %w", err)
 	}
-	if d.SHA == "" {
-		return "", f, fmt.Errorf("batch: the JSON document has no image_sha256")
-	}
-	f.HeartRateBPM = orNaN(d.HeartRate)
-	f.PRMS = rawNumber(d.Intervals["pr"])
-	f.QRSMS = rawNumber(d.Intervals["qrs"])
-	f.QTMS = rawNumber(d.Intervals["qt"])
-	f.QTcBazettMS = rawNumber(d.Intervals["qtc_bazett"])
-	f.QRSAxisDeg = rawNumber(d.Axis["qrs_deg"])
-	f.Transition = rawText(d.Transition)
-	f.CalibConfidence = rawNumber(fold(d.Calibration, "confidence"))
-	f.MeasureError = d.MeasureError
-	f.Verdict = d.Verdict
+	f.CalibConfidence = d.Calibration.Confidence
+	f.MeasureError = d.MeasureErr
+	f.Verdict = string(d.Verdict)
 	if len(d.Quality) > 0 {
 		f.LeadConfidence = map[string]float64{}
 		var cs []float64
 		for lead, q := range d.Quality {
-			c := rawNumber(fold(q, "confidence"))
-			if !math.IsNaN(c) {
-				f.LeadConfidence[lead] = c
-				cs = append(cs, c)
-			}
+			f.LeadConfidence[lead] = q.Confidence
+			cs = append(cs, q.Confidence)
 		}
-		f.MedianLeadConfidence = median(cs)
+		f.MedianLeadConfidence = stats.Median(cs)
 	}
-	return d.SHA, f, nil
+	if m := d.Findings; m != nil {
+		f.HeartRateBPM = float64(m.HeartRateBPM)
+		f.PRMS = float64(m.IntervalsMS.PR)
+		f.QRSMS = float64(m.IntervalsMS.QRS)
+		f.QTMS = float64(m.IntervalsMS.QT)
+		f.QTcBazettMS = float64(m.IntervalsMS.QTcBazett)
+		f.QRSAxisDeg = float64(m.Axis.QRSDeg)
+		f.Transition = m.Transition
+	}
+	return d.ImageSHA256, f, nil
 }
 
-// fold looks a key up ignoring case (Go's default field names are
-// capitalised, the documented ones are not).
-func fold(m map[string]json.RawMessage, key string) json.RawMessage {
-	if v, ok := m[key]; ok {
-		return v
-	}
-	for k, v := range m {
-		if strings.EqualFold(k, key) {
-			return v
-		}
-	}
-	return nil
-}
-
-func rawNumber(r json.RawMessage) float64 {
-	var v *float64
-	if len(r) == 0 || json.Unmarshal(r, &v) != nil || v == nil {
-		return math.NaN()
-	}
-	return *v
-}
-
-// rawText renders a transition given as a string ("V3"), a number, or an
-// object with a lead-like field; anything else as compact JSON.
-func rawText(r json.RawMessage) string {
-	if len(r) == 0 || string(r) == "null" {
-		return ""
-	}
-	var s string
-	if json.Unmarshal(r, &s) == nil {
-		return s
-	}
-	var m map[string]json.RawMessage
-	if json.Unmarshal(r, &m) == nil {
-		for _, k := range []string{"lead", "zone", "name", "label"} {
-			if v := fold(m, k); v != nil && json.Unmarshal(v, &s) == nil {
-				return s
-			}
-		}
-	}
-	return string(r)
-}
-
-func median(v []float64) float64 {
-	if len(v) == 0 {
-		return math.NaN()
-	}
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	if len(s)%2 == 1 {
-		return s[len(s)/2]
-	}
-	return (s[len(s)/2-1] + s[len(s)/2]) / 2
-}
 
 // formatNum writes a summary cell: empty for NaN, else at most 3 decimals.
 func formatNum(v float64) string {

@@ -611,7 +611,7 @@ func suppressDots(g *image.Gray, gl gridLines) {
 		}
 	}
 	lvl := median(vals)
-	if lvl < 20 {
+	if !(lvl >= 20) { // also NaN: no grid crossing on the page
 		return
 	}
 	get := func(x, y int) uint8 {

@@ -2,7 +2,8 @@ package calib
 
 import (
 	"math"
-	"sort"
+
+	"tracelift/stats"
 )
 
 // gridModel is the grid found on the work image.
@@ -436,18 +437,9 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 	return gm, true
 }
 
-func median(a []float64) float64 {
-	if len(a) == 0 {
-		return 0
-	}
-	b := append([]float64(nil), a...)
-	sort.Float64s(b)
-	n := len(b)
-	if n%2 == 1 {
-		return b[n/2]
-	}
-	return (b[n/2-1] + b[n/2]) / 2
-}
+// median is stats.Median (NaN for an empty a), under the name the
+// package's files use.
+func median(a []float64) float64 { return stats.Median(a) }
 
 // jacobian returns the image-space vectors of one mm along X and along Y
 // at paper point (X, Y).

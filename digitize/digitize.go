@@ -17,19 +17,21 @@ import (
 // samples at 500 Hz.
 type Options struct {
 	RateHz    float64  // output rate; 0 means 500
-	Layout    string   // "" to detect, or "3x4", "3x4+1", "3x4+3", "6x2", "12x1", "1x1"
+	Layout    string   // "" to detect, or one of record.Layouts
 	LeadOrder string   // "" to detect, "standard" or "cabrera"
 	Leads     []string // optional lead names for the panels in reading order (row by row, left to right, rhythm strips last)
 }
 
 // Panel is one drawn lead window on the rectified page.
 type Panel struct {
-	Lead      string     // as printed: a standard name, or "-aVR" for Cabrera's inverted aVR
-	Row, Col  int        // grid position; rhythm strips continue the row count
-	Rhythm    bool       // a strip across the whole page
-	Box       [4]float64 // x0, y0, x1, y1 in rectified px; x0 is time T0S
-	T0S, T1S  float64    // time window on the tracing clock
-	BaselineY float64    // y of 0 mV in rectified px
+	Lead      string     `json:"lead"`       // as printed: a standard name, or "-aVR" for Cabrera's inverted aVR
+	Row       int        `json:"row"`        // grid position; rhythm strips continue the row count
+	Col       int        `json:"col"`        // grid position
+	Rhythm    bool       `json:"rhythm"`     // a strip across the whole page
+	Box       [4]float64 `json:"box"`        // x0, y0, x1, y1 in rectified px; x0 is time T0S
+	T0S       float64    `json:"t0_s"`       // time window on the tracing clock
+	T1S       float64    `json:"t1_s"`       // time window on the tracing clock
+	BaselineY float64    `json:"baseline_y"` // y of 0 mV in rectified px
 }
 
 // Trace is one panel's traced centre line.
@@ -56,18 +58,20 @@ type LeadQuality struct {
 // aVF = II − I/2; where I or II is absent the augmented lead is instead
 // predicted by least squares from the other limb leads present.
 type LawCheck struct {
-	Column          int
-	T0S, T1S        float64
-	EinthovenRMSuV  float64
-	GoldbergerRMSuV [3]float64
-	Worst           string // the lead that most breaks the laws here
+	Column          int        `json:"column"`
+	T0S             float64    `json:"t0_s"`
+	T1S             float64    `json:"t1_s"`
+	EinthovenRMSuV  float64    `json:"einthoven_rms_uv"`
+	GoldbergerRMSuV [3]float64 `json:"goldberger_rms_uv"` // aVR, aVL, aVF
+	Worst           string     `json:"worst"`             // the lead that most breaks the laws here
 }
 
 // Place is a stretch worth checking by hand.
 type Place struct {
-	Lead     string
-	T0S, T1S float64
-	Why      string
+	Lead string  `json:"lead"`
+	T0S  float64 `json:"t0_s"`
+	T1S  float64 `json:"t1_s"`
+	Why  string  `json:"why"`
 }
 
 // Result is the digitized printout.
@@ -121,8 +125,8 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		opt.RateHz = 500
 	}
 	if opt.Layout != "" {
-		if _, ok := layoutRows[opt.Layout]; !ok {
-			return nil, fmt.Errorf("digitize: unknown layout %q (want 3x4, 3x4+1, 3x4+3, 6x2, 12x1 or 1x1)", opt.Layout)
+		if !record.Layout(opt.Layout).Known() {
+			return nil, fmt.Errorf("digitize: unknown layout %q (want one of %s)", opt.Layout, record.LayoutNames(record.Layouts))
 		}
 	}
 	switch opt.LeadOrder {
@@ -174,10 +178,10 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if gn == 0 && noPulse(cal) {
 		readSettings(g, rows, pitch, cal)
 	}
-	if opt.Layout != "" && layoutRows[opt.Layout] != len(rows) {
-		rows = fitRows(rows, layoutRows[opt.Layout])
+	if opt.Layout != "" && layoutRows(opt.Layout) != len(rows) {
+		rows = fitRows(rows, layoutRows(opt.Layout))
 		if rows == nil {
-			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p, cal.GainMMPerMV)), opt.Layout, layoutRows[opt.Layout])
+			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p, cal.GainMMPerMV)), opt.Layout, layoutRows(opt.Layout))
 		}
 	}
 	hyps := candidates(len(rows), opt)
@@ -200,8 +204,8 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		rows2 := findRows(g2, p, cal.GainMMPerMV)
 		if opt.Layout == "" {
 			rows2 = trimRows(rows2)
-		} else if layoutRows[opt.Layout] != len(rows2) {
-			rows2 = fitRows(rows2, layoutRows[opt.Layout])
+		} else if layoutRows(opt.Layout) != len(rows2) {
+			rows2 = fitRows(rows2, layoutRows(opt.Layout))
 		}
 		// A turn of at most 1.5° leaves the traces' span as it was (to
 		// 0.04 %); a span that moved found its ends on something else
@@ -222,7 +226,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	// among the candidates has columns.
 	nseg := 1
 	for _, h := range hyps {
-		nseg = max(nseg, layoutCols[h.layout])
+		nseg = max(nseg, layoutCols(h.layout))
 	}
 	segs, err := pg.traceRows(ctx, nseg)
 	if err != nil {
@@ -239,7 +243,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		}
 	}
 	h := hyps[best]
-	if c := layoutCols[h.layout]; c != nseg {
+	if c := layoutCols(h.layout); c != nseg {
 		segs, err = pg.traceRows(ctx, c)
 		if err != nil {
 			return nil, err
@@ -695,7 +699,7 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 // segments traced in nseg equal parts.
 func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []string) ([]Panel, []Trace) {
 	names, prow, pcol, rhythm := leadGrid(h)
-	ncols := layoutCols[h.layout]
+	ncols := layoutCols(h.layout)
 	per := nseg / ncols
 	colDur := (pg.segBounds(nseg, -1)[per] - pg.x0f) / pg.pxPerS
 	var panels []Panel

@@ -3,13 +3,13 @@ package digitize
 import (
 	"context"
 	"math"
-	"sort"
 	"testing"
 
 	"tracelift/calib"
 	"tracelift/record"
 	"tracelift/samples"
 	"tracelift/samples/dipole"
+	"tracelift/stats"
 )
 
 // truthCal builds the calibration result from a render's truth, as
@@ -64,13 +64,9 @@ func medianSNR(acc map[string]record.Accuracy) float64 {
 		v = append(v, a.SNRdB)
 	}
 	if len(v) == 0 {
-		return math.Inf(-1)
+		return math.Inf(-1) // no lead scored fails every SNR target
 	}
-	sort.Float64s(v)
-	if len(v)%2 == 1 {
-		return v[len(v)/2]
-	}
-	return (v[len(v)/2-1] + v[len(v)/2]) / 2
+	return stats.Median(v)
 }
 
 func dipoleRecord(seed int64) *record.Record {

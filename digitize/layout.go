@@ -3,6 +3,8 @@ package digitize
 import (
 	"math"
 	"sort"
+
+	"tracelift/record"
 )
 
 // rowInfo is one row of traces found on the page.
@@ -354,11 +356,11 @@ type hypothesis struct {
 	cabrera bool
 }
 
-// layoutRows is the number of rows each layout draws.
-var layoutRows = map[string]int{"3x4": 3, "3x4+1": 4, "3x4+3": 6, "6x2": 6, "12x1": 12, "1x1": 1}
+// layoutRows is the number of rows a layout draws (0 for an unknown one).
+func layoutRows(l string) int { return record.Layout(l).Rows() }
 
 // layoutCols is the number of columns of panels.
-var layoutCols = map[string]int{"3x4": 4, "3x4+1": 4, "3x4+3": 4, "6x2": 2, "12x1": 1, "1x1": 1}
+func layoutCols(l string) int { return record.Layout(l).Cols() }
 
 // candidates lists the readings to try for n rows.
 func candidates(n int, opt Options) []hypothesis {
@@ -366,9 +368,9 @@ func candidates(n int, opt Options) []hypothesis {
 	if opt.Layout != "" {
 		lays = []string{opt.Layout}
 	} else {
-		for l, r := range layoutRows {
-			if r == n {
-				lays = append(lays, l)
+		for _, l := range record.Layouts {
+			if l.Rows() == n {
+				lays = append(lays, string(l))
 			}
 		}
 		sort.Strings(lays)
@@ -434,8 +436,8 @@ func leadGrid(h hypothesis) (names []string, rows, cols []int, rhythm []bool) {
 
 // validRowCount reports whether some layout draws n rows.
 func validRowCount(n int) bool {
-	for _, r := range layoutRows {
-		if r == n {
+	for _, l := range record.Layouts {
+		if l.Rows() == n {
 			return true
 		}
 	}

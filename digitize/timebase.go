@@ -2,7 +2,8 @@ package digitize
 
 import (
 	"math"
-	"sort"
+
+	"tracelift/stats"
 )
 
 // One clock for the whole page. Every row of a multi-row printout is
@@ -551,14 +552,9 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L, 
 	return x0s, L, b, fitted, L > 0
 }
 
-func median(v []float64) float64 {
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	if len(s)%2 == 1 {
-		return s[len(s)/2]
-	}
-	return (s[len(s)/2-1] + s[len(s)/2]) / 2
-}
+// median is stats.Median (NaN for an empty v), under the name the
+// package's files use.
+func median(v []float64) float64 { return stats.Median(v) }
 
 // solve3 solves A·x = v by Gaussian elimination with partial pivoting.
 func solve3(A [3][3]float64, v [3]float64) ([3]float64, bool) {

@@ -14,6 +14,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 
 	"tracelift/gui/model"
+	"tracelift/record"
 )
 
 // findingsView is the "Findings" tab: the measurements with their
@@ -160,16 +161,11 @@ func (f *findingsView) showVerdict(s *model.Summary) {
 	f.verdict.Refresh()
 }
 
-func deg(v float64) string {
-	if math.IsNaN(v) {
-		return "—"
-	}
-	return fmt.Sprintf("%.0f°", v)
-}
+func deg(v float64) string { return record.FormatNum("%.0f°", v) }
 
 func orNone(s string) string {
 	if s == "" {
-		return "—"
+		return record.Missing
 	}
 	return s
 }

@@ -90,7 +90,7 @@ func newSidePanel(c *Controller) *sidePanel {
 		c.edited(c.m.Assign(c.view.selected, s))
 	})
 	p.lead.PlaceHolder = "reassign to…"
-	p.changes = widget.NewLabel("—")
+	p.changes = widget.NewLabel(record.Missing)
 	p.changes.Wrapping = fyne.TextWrapWord
 	p.edits = widget.NewLabel("")
 	p.edits.Wrapping = fyne.TextWrapWord

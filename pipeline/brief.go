@@ -2,7 +2,6 @@ package pipeline
 
 import (
 	"fmt"
-	"math"
 	"sort"
 	"strings"
 
@@ -113,12 +112,7 @@ func (o *Outcome) Brief() string {
 	return b.String()
 }
 
-func num(v float64, digits int) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "—"
-	}
-	return fmt.Sprintf("%.*f", digits, v)
-}
+func num(v float64, digits int) string { return record.FormatNum(fmt.Sprintf("%%.%df", digits), v) }
 
 func leadRank(l string) int {
 	for i, s := range record.Standard12 {

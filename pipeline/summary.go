@@ -1,8 +1,12 @@
 package pipeline
 
 import (
+	"bytes"
 	"encoding/json"
+	"errors"
+	"fmt"
 
+	"tracelift/axis"
 	"tracelift/calib"
 	"tracelift/digitize"
 	"tracelift/record"
@@ -35,7 +39,11 @@ type LayoutJSON struct {
 
 // Document is the JSON file written beside the signals: provenance,
 // calibration, layout, quality, lead-law checks, corrections, and the
-// findings of the measurement engine at the top level.
+// findings of the measurement engine at the top level. Every key is
+// snake_case (a test walks the types); the findings' keys are merged in
+// beside the document's, and where both name a key ("leads", "caution")
+// the document's stands. The batch runner reads it back with
+// ParseDocument, so writer and reader share this one type.
 type Document struct {
 	File        string                          `json:"file"`
 	ImageSHA256 string                          `json:"image_sha256"`
@@ -52,6 +60,9 @@ type Document struct {
 	Corrections []record.Correction             `json:"corrections,omitempty"`
 	MeasureErr  string                          `json:"measure_error,omitempty"`
 	TimingsMS   map[string]float64              `json:"timings_ms"`
+	// Findings are the measurements, merged in at the top level; nil
+	// when the page was not measured.
+	Findings *axis.Findings `json:"-"`
 }
 
 // Document assembles the JSON document of an outcome.
@@ -83,6 +94,7 @@ func (o *Outcome) Document() Document {
 	if o.MeasureErr != nil {
 		d.MeasureErr = o.MeasureErr.Error()
 	}
+	d.Findings = o.Findings
 	if o.Digitized != nil {
 		d.Verdict, d.Reasons = o.Verdict.Level, o.Verdict.Reasons
 		if d.Reasons == nil {
@@ -97,18 +109,18 @@ func (o *Outcome) Document() Document {
 	return d
 }
 
+// documentBase is Document without its methods, for the JSON package.
+type documentBase Document
+
 // MarshalJSON writes the document with the findings' fields merged in at
 // the top level (heart_rate_bpm, intervals_ms, axis, transition, flags…),
 // so digitize and measure outputs share one shape.
-func (o *Outcome) MarshalJSON() ([]byte, error) {
-	base, err := json.Marshal(o.Document())
-	if err != nil {
-		return nil, err
+func (d Document) MarshalJSON() ([]byte, error) {
+	base, err := json.Marshal(documentBase(d))
+	if err != nil || d.Findings == nil {
+		return base, err
 	}
-	if o.Findings == nil {
-		return base, nil
-	}
-	fb, err := json.Marshal(o.Findings)
+	fb, err := json.Marshal(d.Findings)
 	if err != nil {
 		return nil, err
 	}
@@ -119,5 +131,76 @@ func (o *Outcome) MarshalJSON() ([]byte, error) {
 	if err := json.Unmarshal(base, &m); err != nil {
 		return nil, err
 	}
-	return json.MarshalIndent(m, "", "  ")
+	return json.Marshal(m)
+}
+
+// UnmarshalJSON reads what MarshalJSON writes. The findings are read
+// when the document has a heart_rate_bpm key (the findings always write
+// it); otherwise Findings stays nil.
+func (d *Document) UnmarshalJSON(b []byte) error {
+	var base documentBase
+	if err := json.Unmarshal(b, &base); err != nil {
+		return err
+	}
+	*d = Document(base)
+	var keys map[string]json.RawMessage
+	if err := json.Unmarshal(b, &keys); err != nil {
+		return err
+	}
+	if _, ok := keys["heart_rate_bpm"]; !ok {
+		return nil
+	}
+	f := struct {
+		*axis.Findings
+		// The document's own keys of the same name, which stand in the
+		// merged file instead of the findings'.
+		Leads   json.RawMessage `json:"leads"`
+		Caution json.RawMessage `json:"caution"`
+	}{Findings: unmeasured()}
+	if err := json.Unmarshal(b, &f); err != nil {
+		return err
+	}
+	d.Findings = f.Findings
+	return nil
+}
+
+// unmeasured returns findings whose headline numbers are NaN, for a
+// document that lacks some of their keys.
+func unmeasured() *axis.Findings {
+	n := axis.NaN()
+	return &axis.Findings{HeartRateBPM: n, RRMeanS: n,
+		IntervalsMS: axis.Intervals{PR: n, QRS: n, QT: n, QTcBazett: n, QTcFridericia: n, QTcFramingham: n, QTcHodges: n},
+		Axis:        axis.Axes{QRSDeg: n, PDeg: n, TDeg: n}}
+}
+
+// ErrDocument is returned by ParseDocument for bytes that are not a
+// page's JSON document.
+var ErrDocument = errors.New("pipeline: not a page's JSON document")
+
+// ParseDocument reads a JSON document written by Export (the
+// command-line contract in DEVELOPERS.md). A document that does not parse
+// or has no image_sha256 is an error wrapping ErrDocument.
+func ParseDocument(b []byte) (*Document, error) {
+	var d Document
+	if err := json.Unmarshal(b, &d); err != nil {
+		return nil, fmt.Errorf("%w: %v", ErrDocument, err)
+	}
+	if d.ImageSHA256 == "" {
+		return nil, fmt.Errorf("%w: it has no image_sha256", ErrDocument)
+	}
+	return &d, nil
+}
+
+// MarshalJSON writes the outcome's document (see Document.MarshalJSON),
+// indented.
+func (o *Outcome) MarshalJSON() ([]byte, error) {
+	b, err := json.Marshal(o.Document())
+	if err != nil {
+		return nil, err
+	}
+	var buf bytes.Buffer
+	if err := json.Indent(&buf, b, "", "  "); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
 }

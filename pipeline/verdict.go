@@ -10,6 +10,7 @@ import (
 	"tracelift/calib"
 	"tracelift/digitize"
 	"tracelift/record"
+	"tracelift/stats"
 )
 
 // Level says how far a page's measurements can be trusted.
@@ -176,7 +177,7 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 			rrs = append(rrs, float64(b.RRS))
 		}
 	}
-	if med, mad := medianMAD(rrs); len(rrs) >= 3 && mad > rrSpreadBad*med {
+	if med, mad := stats.MedianMAD(rrs); len(rrs) >= 3 && mad > rrSpreadBad*med {
 		add(NotReadable, "beats_chaotic", "turn the page if it was read sideways, or give the layout by hand",
 			"the beats found vary too much to be a heart's rhythm (RR %.0f ms, typical deviation %.0f ms)", 1000*med, 1000*mad)
 	} else if hr := f.HeartRateBPM; len(rrs) >= 3 && hr.OK() && math.Abs(float64(hr)-60/med) > rateDisagree*60/med {
@@ -267,25 +268,4 @@ func worstLaw(dr *digitize.Result) (float64, string) {
 	return worst, lead
 }
 
-// medianMAD returns the median of x and the median absolute deviation
-// from it; NaN for an empty x.
-func medianMAD(x []float64) (med, mad float64) {
-	if len(x) == 0 {
-		return math.NaN(), math.NaN()
-	}
-	m := func(v []float64) float64 {
-		s := append([]float64(nil), v...)
-		sort.Float64s(s)
-		if n := len(s); n%2 == 1 {
-			return s[n/2]
-		} else {
-			return (s[n/2-1] + s[n/2]) / 2
-		}
-	}
-	med = m(x)
-	d := make([]float64, len(x))
-	for i, v := range x {
-		d[i] = math.Abs(v - med)
-	}
-	return med, m(d)
-}
+

@@ -1,6 +1,7 @@
 package record
 
 import (
+	"fmt"
 	"math"
 	"strings"
 )
@@ -34,4 +35,17 @@ func Trimmed(lead string, rateHz, t0S float64, mv []float64) (Signal, bool) {
 		return Signal{}, false
 	}
 	return Signal{Lead: lead, RateHz: rateHz, StartS: t0S + float64(a)/rateHz, MV: append([]float64(nil), mv[a:b]...)}, true
+}
+
+// Missing is how every face prints a value that was not measured: the
+// terminal summaries, the PDF and the desktop app.
+const Missing = "—"
+
+// FormatNum writes v with a fmt format that takes one number ("%.0f ms",
+// "%+.0f°"), or Missing when v is NaN or infinite.
+func FormatNum(format string, v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return Missing
+	}
+	return fmt.Sprintf(format, v)
 }

@@ -5,6 +5,8 @@ import (
 	"math"
 
 	"github.com/go-pdf/fpdf"
+
+	"tracelift/record"
 )
 
 // HexaxialLeads are the six frontal leads at the angle of their positive
@@ -166,7 +168,7 @@ func (c *canvas) axisLegend(x, y float64, s *Summary) {
 		if math.IsNaN(a.Deg) {
 			c.font("I", 8)
 			c.color(colMuted)
-			c.text(x+16, y, "not measured", 'L')
+			c.text(x+16, y, record.Missing, 'L')
 		} else {
 			c.font("B", 9)
 			c.text(x+16, y, signedDeg(a.Deg), 'L')

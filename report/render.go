@@ -405,7 +405,7 @@ func (c *canvas) findings(s *Summary) {
 		if r.Value == "" {
 			c.font("I", 8)
 			c.color(colMuted)
-			c.text(x0+50, y, "not measured", 'R')
+			c.text(x0+50, y, record.Missing, 'R')
 		} else {
 			c.font("B", 9)
 			c.color(colText)

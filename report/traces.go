@@ -2,9 +2,9 @@ package report
 
 import (
 	"math"
-	"sort"
 
 	"tracelift/record"
+	"tracelift/stats"
 )
 
 // stretch is a piece of one lead chosen for one place on the page.
@@ -93,8 +93,9 @@ func clockStart(rec *record.Record) float64 {
 	return t
 }
 
-// median of the valid samples of s in [t0, t1); 0 when there are none.
-func median(s *record.Signal, t0, t1 float64) float64 {
+// level is the median of the valid samples of s in [t0, t1)
+// (stats.Median); 0 when there are none.
+func level(s *record.Signal, t0, t1 float64) float64 {
 	i0 := int(math.Ceil((t0 - s.StartS) * s.RateHz))
 	i1 := int(math.Ceil((t1 - s.StartS) * s.RateHz))
 	i0, i1 = max(i0, 0), min(i1, len(s.MV))
@@ -107,8 +108,7 @@ func median(s *record.Signal, t0, t1 float64) float64 {
 	if len(v) == 0 {
 		return 0
 	}
-	sort.Float64s(v)
-	return v[len(v)/2]
+	return stats.Median(v)
 }
 
 // pathMM turns the stretch [t0, t1) of s into page polylines (mm): x from
@@ -121,7 +121,7 @@ func pathMM(s *record.Signal, t0, t1, x0, y0 float64) [][][2]float64 {
 	if s == nil || s.RateHz <= 0 {
 		return nil
 	}
-	base := median(s, t0, t1)
+	base := level(s, t0, t1)
 	i0 := int(math.Ceil((t0 - s.StartS) * s.RateHz))
 	i1 := int(math.Ceil((t1 - s.StartS) * s.RateHz))
 	i0, i1 = max(i0, 0), min(i1, len(s.MV))

@@ -5,21 +5,24 @@ import (
 	"image/color"
 	"math"
 	"math/rand"
+
+	"tracelift/record"
 )
 
-// Layout names the arrangement of leads on the page.
-type Layout string
+// Layout names the arrangement of leads on the page (record.Layout).
+type Layout = record.Layout
 
-// Layouts.
+// The layouts the renderer draws.
 const (
-	Layout3x4R1 Layout = "3x4+1" // 3 rows × 4 columns + one rhythm strip (lead II)
-	Layout3x4R3 Layout = "3x4+3" // 3 rows × 4 columns + three rhythm strips (II, V1, V5)
-	Layout6x2   Layout = "6x2"   // limb leads left, precordial leads right
-	Layout12x1  Layout = "12x1"  // every lead across the page
-	Layout1x1   Layout = "1x1"   // one strip (RhythmLeads[0], default II)
+	Layout3x4R1 = record.Layout3x4R1 // 3 rows × 4 columns + one rhythm strip (lead II)
+	Layout3x4R3 = record.Layout3x4R3 // 3 rows × 4 columns + three rhythm strips (II, V1, V5)
+	Layout6x2   = record.Layout6x2   // limb leads left, precordial leads right
+	Layout12x1  = record.Layout12x1  // every lead across the page
+	Layout1x1   = record.Layout1x1   // one strip (RhythmLeads[0], default II)
 )
 
-// Layouts lists the supported layouts.
+// Layouts lists the layouts the renderer draws: record.Layouts but 3x4,
+// which the bench suite does not render.
 var Layouts = []Layout{Layout3x4R1, Layout3x4R3, Layout6x2, Layout12x1, Layout1x1}
 
 // GridKind is how the millimetre grid is printed.
@@ -197,7 +200,7 @@ func (st Style) withDefaults() (Style, error) {
 		}
 	}
 	if !ok {
-		return st, fmt.Errorf("samples: unknown layout %q (want one of 3x4+1, 3x4+3, 6x2, 12x1, 1x1)", st.Layout)
+		return st, fmt.Errorf("samples: unknown layout %q (want one of %s)", st.Layout, record.LayoutNames(Layouts))
 	}
 	def := func(v *float64, dv float64) {
 		if *v == 0 {

@@ -25,6 +25,7 @@ import (
 	"tracelift/calib"
 	"tracelift/digitize"
 	"tracelift/pipeline"
+	"tracelift/record"
 	"tracelift/report"
 )
 
@@ -68,16 +69,15 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	fs.BoolVar(&b.noResume, "no-resume", false, "digitize every file again, even when its outputs are up to date")
 	fs.StringVar(&b.base, "base", "", "folder that the paths of LIST.txt are relative to (default: the list's folder)")
 	fs.BoolVar(&b.quiet, "quiet", false, "no progress display")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli batch INPUT_DIR|LIST.txt -o OUT [options]")
-		fmt.Fprintln(stderr, "Digitizes every PNG, JPEG, TIFF and PDF below INPUT_DIR (or each path of LIST.txt, one per line)")
-		fmt.Fprintln(stderr, "into OUT, mirroring the folders. Always writes the JSON document (resume reads it), one JSON line")
-		fmt.Fprintln(stderr, "per file in OUT/batch-log.jsonl and a table of findings in OUT/summary.csv (per shard:")
-		fmt.Fprintln(stderr, "batch-log-K-of-N.jsonl, summary-K-of-N.csv; join them with 'tracelift-cli merge').")
-		fmt.Fprintln(stderr, "Files whose outputs exist and whose JSON names the same image hash are skipped.")
-		fmt.Fprintln(stderr, "Exit status: 0 every file done, 1 some files failed (listed), 2 usage error.")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli batch INPUT_DIR|LIST.txt -o OUT [options]",
+		"Digitizes every PNG, JPEG, TIFF and PDF below INPUT_DIR (or each path of LIST.txt, one per line)",
+		"into OUT, mirroring the folders. Always writes the JSON document (resume reads it), one JSON line",
+		"per file in OUT/batch-log.jsonl and a table of findings in OUT/summary.csv (per shard:",
+		"batch-log-K-of-N.jsonl, summary-K-of-N.csv; join them with 'tracelift-cli merge').",
+		"Files whose outputs exist and whose JSON names the same image hash are skipped.",
+		"Exit status: 0 every file done, 1 some files failed (listed), 2 usage error.",
+	)
 	pos, code, ok := parseCommand(fs, args, stderr)
 	if !ok {
 		return code
@@ -315,7 +315,7 @@ func advise(err error, path string) error {
 	case errors.Is(err, calib.ErrNoScale):
 		what = "give the scale by hand with --dpi or --px-per-mm"
 	case errors.Is(err, digitize.ErrLayout):
-		what = "give the layout by hand with --layout (3x4+1, 3x4+3, 6x2, 12x1, 1x1)"
+		what = "give the layout by hand with --layout (" + record.LayoutNames(record.Layouts) + ")"
 	case errors.Is(err, axis.ErrNoLead), errors.Is(err, axis.ErrTooShort), errors.Is(err, axis.ErrNoBeats):
 		what = "check the traced signals in the CSV; a better scan of the page may help"
 	case errors.Is(err, context.DeadlineExceeded), errors.Is(err, context.Canceled):

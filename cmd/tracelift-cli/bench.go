@@ -21,6 +21,7 @@ import (
 	"tracelift/record"
 	"tracelift/record/wfdb"
 	"tracelift/samples"
+	"tracelift/stats"
 )
 
 func init() {
@@ -57,10 +58,9 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
 	dpi := fs.Float64("dpi", 0, "render every case at this dpi (default: vary, 150–600)")
 	outside := fs.String("outside", "", "instead of rendering, score the printouts of another renderer in this folder (outside*.json truth beside each picture)")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli bench [options]")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli bench [options]",
+	)
 	if _, code, ok := parseCommand(fs, args, stderr); !ok {
 		return code
 	}
@@ -286,7 +286,7 @@ func appendFinite(v []float64, x float64) []float64 {
 	return append(v, x)
 }
 
-func median(v []float64) float64 { return pct(v, 50) }
+func median(v []float64) float64 { return stats.Median(v) }
 
 // pct is the p-th percentile by linear interpolation; NaN when empty.
 func pct(v []float64, p float64) float64 {

@@ -30,12 +30,11 @@ func cmdCompare(args []string, stdout, stderr io.Writer) int {
 	out := fs.String("o", "", "output directory (required)")
 	paper := fs.String("paper", "a4", "paper size of the PDF: a4 or letter")
 	dpi := fs.Float64("dpi", 0, "scale of a picture by hand, in dots per inch (used when no grid or pulse gives one)")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli compare EARLIER CURRENT -o DIR [--paper a4|letter] [--dpi N]")
-		fmt.Fprintln(stderr, "Each tracing is a picture (PNG, JPEG, TIFF, PDF), a record file (WFDB .hea, CSV, EDF+)")
-		fmt.Fprintln(stderr, "or a JSON written by 'digitize' with its CSV beside it. Writes DIR/<A>-vs-<B>.json and .pdf.")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli compare EARLIER CURRENT -o DIR [--paper a4|letter] [--dpi N]",
+		"Each tracing is a picture (PNG, JPEG, TIFF, PDF), a record file (WFDB .hea, CSV, EDF+)",
+		"or a JSON written by 'digitize' with its CSV beside it. Writes DIR/<A>-vs-<B>.json and .pdf.",
+	)
 	pos, code, ok := parseCommand(fs, args, stderr)
 	if !ok {
 		return code

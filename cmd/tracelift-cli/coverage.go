@@ -29,10 +29,9 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 	csvOut := fs.String("csv", "", "also write one row per case and measurement to this CSV file")
 	csvIn := fs.String("from-csv", "", "read the cases from a CSV file written by --csv instead of rendering them")
 	outside := fs.String("outside", "", "check the outside pages in this folder (outsideNN.json beside each picture) instead of the rendered suite")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli coverage [options]")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli coverage [options]",
+	)
 	if _, code, ok := parseCommand(fs, args, stderr); !ok {
 		return code
 	}

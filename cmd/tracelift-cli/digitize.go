@@ -13,6 +13,7 @@ import (
 
 	"tracelift/digitize"
 	"tracelift/pipeline"
+	"tracelift/record"
 	"tracelift/record/ledger"
 	"tracelift/report"
 )
@@ -42,7 +43,7 @@ func (c *commonFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&c.out, "o", "", "output directory (required)")
 	fs.StringVar(&c.formats, "format", "csv,json", "comma-separated exports: csv, wfdb, edf, json, pdf")
 	fs.Float64Var(&c.rate, "rate", 500, "output sample rate in Hz")
-	fs.StringVar(&c.layout, "layout", "", "force the layout: 3x4+1, 3x4+3, 6x2, 12x1, 1x1 (default: find it)")
+	fs.StringVar(&c.layout, "layout", "", "force the layout: "+record.LayoutNames(record.Layouts)+" (default: find it)")
 	fs.StringVar(&c.order, "order", "", "force the lead order: standard or cabrera (default: find it)")
 	fs.Float64Var(&c.dpi, "dpi", 0, "scale by hand, in dots per inch (used when no grid or pulse gives one)")
 	fs.Float64Var(&c.pxPerMM, "px-per-mm", 0, "scale by hand, in pixels per mm (used when no grid or pulse gives one)")
@@ -126,12 +127,11 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("digitize", flag.ContinueOnError)
 	var c commonFlags
 	c.register(fs)
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli digitize IMAGE -o DIR [options]")
-		fmt.Fprintln(stderr, "Reads a PNG, JPEG, TIFF (fax too) or PDF page of an ECG printout and writes DIR/<stem>.csv,")
-		fmt.Fprintln(stderr, "DIR/<stem>.json and the other chosen exports.")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli digitize IMAGE -o DIR [options]",
+		"Reads a PNG, JPEG, TIFF (fax too) or PDF page of an ECG printout and writes DIR/<stem>.csv,",
+		"DIR/<stem>.json and the other chosen exports.",
+	)
 	pos, code, ok := parseCommand(fs, args, stderr)
 	if !ok {
 		return code

@@ -44,6 +44,17 @@ func parseCommand(fs *flag.FlagSet, args []string, stderr io.Writer) (pos []stri
 	return pos, 0, true
 }
 
+// usageFunc returns a FlagSet's Usage function: the lines, then the flags'
+// defaults, on stderr.
+func usageFunc(fs *flag.FlagSet, stderr io.Writer, lines ...string) func() {
+	return func() {
+		for _, l := range lines {
+			fmt.Fprintln(stderr, l)
+		}
+		fs.PrintDefaults()
+	}
+}
+
 // usageError reports a usage mistake of the named subcommand, points to
 // its help and returns the usage exit code, 2.
 func usageError(stderr io.Writer, name, msg string) int {

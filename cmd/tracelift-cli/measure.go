@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -32,16 +31,12 @@ func cmdMeasure(args []string, stdout, stderr io.Writer) int {
 	out := fs.String("o", "", "output directory for <stem>.json (required)")
 	beatLead := fs.String("beat-lead", "", "lead to find the beats on (default: the clearest long lead)")
 	quiet := fs.Bool("q", false, "do not print the summary")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli measure RECORD.hea|RECORD.csv [...] -o DIR [--beat-lead II] [-q]")
-		fs.PrintDefaults()
-	}
-	files, err := parseArgs(fs, args, stderr)
-	if errors.Is(err, flag.ErrHelp) {
-		return 0
-	}
-	if err != nil {
-		return 2
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli measure RECORD.hea|RECORD.csv [...] -o DIR [--beat-lead II] [-q]",
+	)
+	files, code, ok := parseCommand(fs, args, stderr)
+	if !ok {
+		return code
 	}
 	if len(files) == 0 || *out == "" {
 		fs.Usage()

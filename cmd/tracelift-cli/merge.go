@@ -21,13 +21,12 @@ func cmdMerge(args []string, stdout, stderr io.Writer) int {
 	out := fs.String("o", "", "folder for the joined summary.csv (required)")
 	inputs := fs.String("inputs", "", "INPUT_DIR or LIST.txt of the batch: also report files that no summary mentions")
 	base := fs.String("base", "", "with --inputs LIST.txt: the folder its paths are relative to")
-	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: tracelift-cli merge OUT1 OUT2 …|'OUT/summary-*-of-*.csv' -o DIR [--inputs INPUT_DIR|LIST.txt]")
-		fmt.Fprintln(stderr, "Joins batch summaries (a folder stands for its summary-K-of-N.csv files) into DIR/summary.csv,")
-		fmt.Fprintln(stderr, "reporting files found twice, shards without a summary and, with --inputs, files never done.")
-		fmt.Fprintln(stderr, "Exit status: 0 complete and every file done, 1 something is missing, doubled or failed, 2 usage error.")
-		fs.PrintDefaults()
-	}
+	fs.Usage = usageFunc(fs, stderr,
+		"usage: tracelift-cli merge OUT1 OUT2 …|'OUT/summary-*-of-*.csv' -o DIR [--inputs INPUT_DIR|LIST.txt]",
+		"Joins batch summaries (a folder stands for its summary-K-of-N.csv files) into DIR/summary.csv,",
+		"reporting files found twice, shards without a summary and, with --inputs, files never done.",
+		"Exit status: 0 complete and every file done, 1 something is missing, doubled or failed, 2 usage error.",
+	)
 	pos, code, ok := parseCommand(fs, args, stderr)
 	if !ok {
 		return code

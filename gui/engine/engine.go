@@ -25,8 +25,14 @@ import (
 	"tracelift/samples"
 )
 
-// Layouts the user may choose on the Reading tab (the digitizer's names).
-var Layouts = []string{"3x4", "3x4+1", "3x4+3", "6x2", "12x1", "1x1"}
+// Layouts the user may choose on the Reading tab (record.Layouts).
+var Layouts = func() []string {
+	out := make([]string, len(record.Layouts))
+	for i, l := range record.Layouts {
+		out[i] = string(l)
+	}
+	return out
+}()
 
 // Backend is the pipeline behind the model.
 type Backend struct {
@@ -310,12 +316,7 @@ func half(ci [2]axis.Num, sd axis.Num) float64 {
 	return math.NaN()
 }
 
-func fmtDeg(v float64) string {
-	if math.IsNaN(v) {
-		return "—"
-	}
-	return fmt.Sprintf("%.0f°", v)
-}
+func fmtDeg(v float64) string { return record.FormatNum("%.0f°", v) }
 
 // Export writes what the screen shows: the corrected record, the panels
 // where the user put them and the findings measured after the

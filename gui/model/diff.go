@@ -4,13 +4,15 @@ import (
 	"fmt"
 	"math"
 	"strings"
+
+	"tracelift/record"
 )
 
 // Format writes a value with its uncertainty for people: "72 ± 3 bpm",
-// "—" when not measured.
+// record.Missing when not measured.
 func (v Value) Format() string {
 	if math.IsNaN(v.V) || math.IsInf(v.V, 0) {
-		return "—"
+		return record.Missing
 	}
 	s := fmt.Sprintf("%.0f", v.V)
 	if !math.IsNaN(v.SD) && !math.IsInf(v.SD, 0) && v.SD > 0 {
@@ -70,7 +72,7 @@ func Diff(before, after *Summary) []Change {
 
 func orDash(s string) string {
 	if s == "" {
-		return "—"
+		return record.Missing
 	}
 	return s
 }
