@@ -604,6 +604,11 @@ type segTrace struct {
 	x0   int
 	y    []float64
 	conf []float32
+	// join is the trace across the boundary at the segment's left end
+	// (nil for the first): a rhythm strip runs on unbroken where the
+	// rows above change lead, and its trace fills the margins kept
+	// clear of separator ticks there.
+	join *segTrace
 }
 
 // segBounds returns the column edges of n equal segments of row r's
@@ -676,6 +681,28 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 		}
 	}
 	R := fitPenRadius(all, math.Max(pg.halfLn, 1))
+	// The stretches across each boundary, with 1 mm of trace either side
+	// of the margins to follow the line in and out.
+	ctxPx := int(math.Ceil(pg.pxPerMM))
+	for r, row := range pg.rows {
+		xs := pg.segBounds(n, r)
+		for s := 1; s < n; s++ {
+			a := int(math.Round(xs[s]))
+			bd := band{x0: max(0, a-margin-ctxPx), x1: min(pg.g.w, a+margin+ctxPx+1), home: row.base, pitch: pg.pitch, halfLine: math.Max(pg.halfLn, 1)}
+			bd.y0 = max(0, int(row.base-0.95*pg.pitch))
+			bd.y1 = min(pg.g.h, int(row.base+0.95*pg.pitch))
+			e := followPath(pg.g, bd)
+			if e == nil {
+				continue
+			}
+			ys, cf := e.finish(R)
+			j := &segTrace{x0: bd.x0, y: make([]float64, len(ys)), conf: cf}
+			for i := range ys {
+				j.y[i] = ys[i] + 0.5
+			}
+			out[r][s].join = j
+		}
+	}
 	for r := range edges {
 		for s, e := range edges[r] {
 			if e == nil {
@@ -693,6 +720,20 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 		}
 	}
 	return out, nil
+}
+
+// fillJoin fills the blanks of trace tr from the trace j across a
+// segment boundary.
+func fillJoin(tr *Trace, j *segTrace) {
+	if j == nil {
+		return
+	}
+	for k, v := range j.y {
+		i := j.x0 + k - tr.X0
+		if i >= 0 && i < len(tr.Y) && math.IsNaN(tr.Y[i]) && !math.IsNaN(v) {
+			tr.Y[i], tr.Conf[i] = v, j.conf[k]
+		}
+	}
 }
 
 // assemble builds the panels and traces of hypothesis h from row
@@ -720,6 +761,11 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 		for s := s0; s < s1; s++ {
 			tr.Y = append(tr.Y, segs[r][s].y...)
 			tr.Conf = append(tr.Conf, segs[r][s].conf...)
+		}
+		if rhythm[i] {
+			for s := s0 + 1; s < s1; s++ {
+				fillJoin(&tr, segs[r][s].join)
+			}
 		}
 		if b := modeY(tr.Y); !math.IsNaN(b) {
 			base = b
