@@ -27,6 +27,9 @@ type LoadOptions struct {
 	// Context, when set, stops the helper programs (poppler for a PDF)
 	// when it is cancelled.
 	Context context.Context
+	// PDFDPI is the resolution a PDF page is rendered at; 0 chooses it
+	// from the page's size (see pdfResolution).
+	PDFDPI int
 }
 
 const (
@@ -52,6 +55,15 @@ func (o LoadOptions) maxBytes() int64 {
 // PDF through poppler's pdftoppm) and returns the chosen page. Errors wrap
 // ErrFormat or ErrTooBig and name the file and what to do.
 func Load(path string, opt LoadOptions) (*Page, error) {
+	data, err := readImageFile(path, opt)
+	if err != nil {
+		return nil, err
+	}
+	return Decode(data, path, opt)
+}
+
+// readImageFile reads the image file at path within the byte budget.
+func readImageFile(path string, opt LoadOptions) ([]byte, error) {
 	fi, err := os.Stat(path)
 	if err != nil {
 		return nil, fmt.Errorf("calib: %s: %w", path, err)
@@ -66,15 +78,7 @@ func Load(path string, opt LoadOptions) (*Page, error) {
 		return nil, fmt.Errorf("calib: %s is %d bytes, over the %d byte limit; scan at a lower resolution or raise the limit: %w",
 			path, fi.Size(), opt.maxBytes(), ErrTooBig)
 	}
-	data, err := readBounded(path, opt.maxBytes())
-	if err != nil {
-		return nil, err
-	}
-	pg, err := Decode(data, path, opt)
-	if err != nil {
-		return nil, err
-	}
-	return pg, nil
+	return readBounded(path, opt.maxBytes())
 }
 
 // Decode is Load on bytes already in memory; name is used in messages and

@@ -10,6 +10,7 @@ import (
 	"image/color"
 	"image/jpeg"
 	"image/png"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -213,13 +214,18 @@ func TestTIFFFaxG4(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if pg.PageCount != 2 || pg.Image.Bounds().Dx() != 300 {
-		t.Fatalf("pages %d bounds %v", pg.PageCount, pg.Image.Bounds())
+	// The 98 dpi rows are stretched to 204 dpi: 120 rows become
+	// round(120 × 204 / 98) = 250.
+	if pg.PageCount != 2 || pg.Image.Bounds().Dx() != 300 || pg.Image.Bounds().Dy() != 250 {
+		t.Fatalf("pages %d bounds %v, want 300×250", pg.PageCount, pg.Image.Bounds())
 	}
-	if pg.DPIX != 204 || pg.DPIY != 98 {
-		t.Fatalf("dpi %v×%v, want 204×98", pg.DPIX, pg.DPIY)
+	if st := pg.Stated; st.X != 204 || st.Y != 98 || st.Unit != "inch" || !st.Resampled() {
+		t.Fatalf("stated %+v, want 204×98 per inch, resampled", st)
 	}
-	if g := color.GrayModel.Convert(pg.Image.At(30, 20)).(color.Gray).Y; g != 0 {
+	if math.Abs(pg.DPIX-204) > 0.01 || math.Abs(pg.DPIY-204) > 1 {
+		t.Fatalf("dpi after resampling %v×%v, want 204×204", pg.DPIX, pg.DPIY)
+	}
+	if g := color.GrayModel.Convert(pg.Image.At(30, 42)).(color.Gray).Y; g != 0 {
 		t.Fatalf("inside the drawn box grey %d, want black", g)
 	}
 	pg2, err := Load(out, LoadOptions{Page: 1})

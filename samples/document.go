@@ -4,9 +4,11 @@ import (
 	"bytes"
 	"encoding/binary"
 	"errors"
+	"fmt"
 	"image"
 	"image/color"
 	"image/draw"
+	"image/jpeg"
 	"math"
 	"math/rand"
 )
@@ -220,4 +222,58 @@ func greyPlane(m image.Image) []uint8 {
 		}
 	}
 	return out
+}
+
+// ScannedPDF wraps pages as a scanner writes them into a PDF: each page an
+// 8-bit JPEG image (DCTDecode, ISO 32000-1 7.4.8) filling a page of its
+// size at dpi. The structure is the plain one of ISO 32000-1 7.5: header,
+// objects, cross-reference table, trailer.
+func ScannedPDF(pages []image.Image, dpi float64, quality int) ([]byte, error) {
+	if len(pages) == 0 || !(dpi > 0) {
+		return nil, errors.New("samples: no page or no resolution for the PDF")
+	}
+	var b bytes.Buffer
+	var offs []int
+	obj := func(body string, stream []byte) {
+		offs = append(offs, b.Len())
+		fmt.Fprintf(&b, "%d 0 obj\n%s", len(offs), body)
+		if stream != nil {
+			b.WriteString("\nstream\n")
+			b.Write(stream)
+			b.WriteString("\nendstream")
+		}
+		b.WriteString("\nendobj\n")
+	}
+	b.WriteString("%PDF-1.4\n%\xe2\xe3\xcf\xd3\n")
+	n := len(pages)
+	// Objects: 1 catalog, 2 page tree, then per page: page, content, image.
+	kids := ""
+	for i := 0; i < n; i++ {
+		kids += fmt.Sprintf("%d 0 R ", 3+3*i)
+	}
+	obj("<< /Type /Catalog /Pages 2 0 R >>", nil)
+	obj(fmt.Sprintf("<< /Type /Pages /Kids [%s] /Count %d >>", kids, n), nil)
+	for i, pg := range pages {
+		bnd := pg.Bounds()
+		wpt, hpt := float64(bnd.Dx())/dpi*72, float64(bnd.Dy())/dpi*72
+		var jb bytes.Buffer
+		grey := image.NewGray(image.Rect(0, 0, bnd.Dx(), bnd.Dy()))
+		copy(grey.Pix, greyPlane(pg))
+		if err := jpeg.Encode(&jb, grey, &jpeg.Options{Quality: quality}); err != nil {
+			return nil, err
+		}
+		page, content, img := 3+3*i, 4+3*i, 5+3*i
+		obj(fmt.Sprintf("<< /Type /Page /Parent 2 0 R /MediaBox [0 0 %.2f %.2f] /Contents %d 0 R /Resources << /XObject << /Im%d %d 0 R >> >> >>", wpt, hpt, content, i, img), nil)
+		cs := fmt.Sprintf("q %.2f 0 0 %.2f 0 0 cm /Im%d Do Q", wpt, hpt, i)
+		obj(fmt.Sprintf("<< /Length %d >>", len(cs)), []byte(cs))
+		obj(fmt.Sprintf("<< /Type /XObject /Subtype /Image /Width %d /Height %d /ColorSpace /DeviceGray /BitsPerComponent 8 /Filter /DCTDecode /Length %d >>", bnd.Dx(), bnd.Dy(), jb.Len()), jb.Bytes())
+		_ = page
+	}
+	xref := b.Len()
+	fmt.Fprintf(&b, "xref\n0 %d\n0000000000 65535 f \n", len(offs)+1)
+	for _, o := range offs {
+		fmt.Fprintf(&b, "%010d 00000 n \n", o)
+	}
+	fmt.Fprintf(&b, "trailer\n<< /Size %d /Root 1 0 R >>\nstartxref\n%d\n%%%%EOF\n", len(offs)+1, xref)
+	return b.Bytes(), nil
 }
