@@ -124,9 +124,9 @@ type Report struct {
 	Results             []Result // one per input handled, sorted by File
 	OK, Skipped, Failed int
 	// NoECG counts the pages of documents passed over as holding no ECG.
-	NoECG int
-	LogPath             string
-	SummaryPath         string
+	NoECG       int
+	LogPath     string
+	SummaryPath string
 	// Interrupted is set when ctx was cancelled before every input was
 	// handled; the summary then holds the files handled so far.
 	Interrupted bool

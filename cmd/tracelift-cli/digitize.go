@@ -37,8 +37,8 @@ type commonFlags struct {
 	// pages is searched for its first ECG page.
 	pageGiven bool
 	maxMP     float64
-	maxMB   float64
-	paper   string
+	maxMB     float64
+	paper     string
 }
 
 func (c *commonFlags) register(fs *flag.FlagSet) {
