@@ -277,3 +277,33 @@ func ScannedPDF(pages []image.Image, dpi float64, quality int) ([]byte, error) {
 	fmt.Fprintf(&b, "trailer\n<< /Size %d /Root 1 0 R >>\nstartxref\n%d\n%%%%EOF\n", len(offs)+1, xref)
 	return b.Bytes(), nil
 }
+
+// FaxRows turns a page rendered at a fax's horizontal resolution into the
+// bilevel picture a fax machine sends at a coarser vertical one: each
+// output row averages the rows it covers (keep = output rows per input
+// row, e.g. 98/204) and is cut at mid-grey.
+func FaxRows(img image.Image, keep float64) *image.Gray {
+	b := img.Bounds()
+	w, h := b.Dx(), b.Dy()
+	g := greyPlane(img)
+	oh := max(1, int(math.Round(float64(h)*keep)))
+	out := image.NewGray(image.Rect(0, 0, w, oh))
+	for oy := 0; oy < oh; oy++ {
+		y0 := float64(oy) / keep
+		y1 := float64(oy+1) / keep
+		for x := 0; x < w; x++ {
+			var s, n float64
+			for y := int(y0); y < int(math.Ceil(y1)) && y < h; y++ {
+				wt := math.Min(y1, float64(y+1)) - math.Max(y0, float64(y))
+				s += wt * float64(g[y*w+x])
+				n += wt
+			}
+			v := uint8(255)
+			if n > 0 && s/n < 128 {
+				v = 0
+			}
+			out.Pix[oy*out.Stride+x] = v
+		}
+	}
+	return out
+}
