@@ -129,15 +129,18 @@ func processDocument(ctx context.Context, path string, opt Options) (*Outcome, e
 		skipped = append(skipped, note)
 		notes = append(notes, note)
 	}
+	// A page the screen passed over is taken only when its own grid or
+	// calibration pulse gives the scale: the tracer finds "traces" in
+	// lines of text, and a sheet's size is no proof of an ECG.
 	for _, i := range later {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
 		o, err := try(i, "the only page that could be read; the quick look had passed it over")
-		if err == nil {
+		if err == nil && o.Calib != nil && (o.Calib.Source == "grid" || o.Calib.Source == "pulse") {
 			return finish(o, nil)
 		}
-		if !notECG(err) {
+		if err != nil && !notECG(err) {
 			return finish(o, err)
 		}
 	}
