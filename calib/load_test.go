@@ -17,6 +17,8 @@ import (
 	"testing"
 
 	"golang.org/x/image/tiff"
+
+	"tracelift/samples"
 )
 
 func tinyImage(w, h int) *image.NRGBA {
@@ -364,6 +366,9 @@ func FuzzDecode(f *testing.F) {
 	f.Add(encTIFF(f, tinyImage(3, 2)))
 	f.Add(twoPageTIFF(3, 2, 10, 20))
 	f.Add([]byte("II*\x00\x08\x00\x00\x00"))
+	if fax, err := samples.WriteTIFF([]samples.TIFFPage{{Image: tinyImage(9, 4), DPIX: 204, DPIY: 98, Bilevel: true}, {Image: tinyImage(5, 5)}}); err == nil {
+		f.Add(fax) // two pages, the first of non-square pixels
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		if bytes.HasPrefix(bytes.TrimLeft(data, "\x00\t\r\n "), []byte("%PDF-")) {
 			return // PDFs go to an external tool; not fuzzed here
@@ -377,6 +382,15 @@ func FuzzDecode(f *testing.F) {
 		}
 		if pg.Image == nil || pg.Image.Bounds().Empty() {
 			t.Fatal("no error and no image")
+		}
+		// Every page of the document decodes or fails cleanly, and the
+		// quick screen looks at it without trouble.
+		if doc, err := NewDocument(data, "fuzz", LoadOptions{MaxPixels: 1 << 20}); err == nil {
+			for i := 0; i < min(doc.Pages, 4); i++ {
+				if p, err := doc.Preview(i); err == nil {
+					Screen(p)
+				}
+			}
 		}
 	})
 }
