@@ -16,6 +16,21 @@ func (in Input) Name() string {
 	return in.Rel
 }
 
+// DocumentOf returns the file a log or summary name belongs to: name
+// without its "#pN" page suffix (see Input.Name).
+func DocumentOf(name string) string {
+	i := strings.LastIndex(name, "#p")
+	if i < 0 || i+2 == len(name) {
+		return name
+	}
+	for _, r := range name[i+2:] {
+		if r < '0' || r > '9' {
+			return name
+		}
+	}
+	return name[:i]
+}
+
 // ExpandPages replaces each document of several pages (a multi-page TIFF,
 // a PDF) by one input per page, so that every ECG page becomes its own
 // record: page 1 keeps the document's stem, page N is "<stem>-pN" (made

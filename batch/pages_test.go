@@ -129,3 +129,25 @@ func TestDocumentPagesInBatch(t *testing.T) {
 		t.Errorf("the pages of fax.tif went to different shards")
 	}
 }
+
+// Merging with --inputs counts a document as done when its pages have
+// rows.
+func TestMergeKnowsPages(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "summary.csv")
+	if err := WriteSummaryFile(p, []Row{{File: "fax.tif#p1", Status: StatusNoECG, Findings: NoFindings()}, {File: "fax.tif#p2", Status: StatusOK, Findings: NoFindings()}}); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := Merge([]string{p}, []string{"fax.tif", "other.png"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fmt.Sprint(rep.MissingFiles) != "[other.png]" {
+		t.Errorf("missing %v, want [other.png]", rep.MissingFiles)
+	}
+	for name, want := range map[string]string{"fax.tif#p12": "fax.tif", "a#p.png": "a#p.png", "b.tif": "b.tif", "c#p": "c#p"} {
+		if got := DocumentOf(name); got != want {
+			t.Errorf("DocumentOf(%q) = %q, want %q", name, got, want)
+		}
+	}
+}

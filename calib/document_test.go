@@ -2,6 +2,7 @@ package calib
 
 import (
 	"context"
+	"image"
 	"image/color"
 	"math"
 	"os"
@@ -185,6 +186,35 @@ func TestStatedResolutionRefused(t *testing.T) {
 		}
 		if !c.want && pg.Image.Bounds().Dy() != 30 {
 			t.Errorf("%v × %v dpi: height %d, want 30", c.x, c.y, pg.Image.Bounds().Dy())
+		}
+	}
+}
+
+// The quick screen of one page (the cost a document pays per page before
+// its ECG page is read): an A4 page at 200 dpi. Goal: well under 0.1 s,
+// so a 10-page document is screened within a second.
+func BenchmarkScreen(b *testing.B) {
+	pg := &Page{Image: ptbPage(b, 200).Image}
+	b.ReportAllocs()
+	for b.Loop() {
+		Screen(pg)
+	}
+}
+
+// Loading a scanned A4 PDF page (a JPEG image in a PDF, rasterised by
+// poppler at 300 dpi). Goal: a small part of the 2 s a scanned PDF page
+// may take on one core.
+func BenchmarkScannedPDFPage(b *testing.B) {
+	if _, err := exec.LookPath("pdftoppm"); err != nil {
+		b.Skip("poppler-utils not installed")
+	}
+	data, err := samples.ScannedPDF([]image.Image{ptbPage(b, 300).Image}, 300, 85)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		if _, err := Decode(data, "scan.pdf", LoadOptions{}); err != nil {
+			b.Fatal(err)
 		}
 	}
 }
