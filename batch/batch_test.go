@@ -41,7 +41,7 @@ func writeTree(t *testing.T, dir string, files map[string]string) {
 // "partial" writes the CSV and fails.
 type fake struct{ calls atomic.Int64 }
 
-func (f *fake) process(ctx context.Context, in, dir, stem string) (FileResult, error) {
+func (f *fake) process(ctx context.Context, in string, page int, dir, stem string) (FileResult, error) {
 	f.calls.Add(1)
 	b, err := os.ReadFile(in)
 	if err != nil {

@@ -22,6 +22,9 @@ type Input struct {
 	Path string // where to read it (as given or found)
 	Rel  string // slash-separated path relative to the input folder or list base
 	Stem string // output file name without extension (unique within Rel's folder)
+	// Page is the page of a document of several pages (from 1; see
+	// ExpandPages); 0 for a file taken whole.
+	Page int
 	// Err is set when the input was refused while collecting (a ".." path, a
 	// path outside the list's base folder); Run reports it as a failed file.
 	Err string

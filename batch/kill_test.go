@@ -22,7 +22,7 @@ import (
 // slowWriter is a ProcessFunc that writes a large CSV slowly, then the JSON
 // document, so a kill lands in the middle of a page's outputs.
 func slowWriter(calls *atomic.Int64) ProcessFunc {
-	return func(ctx context.Context, in, dir, stem string) (FileResult, error) {
+	return func(ctx context.Context, in string, page int, dir, stem string) (FileResult, error) {
 		calls.Add(1)
 		b, err := os.ReadFile(in)
 		if err != nil {

@@ -48,6 +48,7 @@ func NewPool(size, recycle int, cmd func() *exec.Cmd) *Pool {
 
 type request struct {
 	In   string `json:"in"`
+	Page int    `json:"page,omitempty"`
 	Dir  string `json:"dir"`
 	Stem string `json:"stem"`
 }
@@ -58,7 +59,7 @@ type response struct {
 }
 
 // Process is the pool's ProcessFunc.
-func (p *Pool) Process(ctx context.Context, in, dir, stem string) (FileResult, error) {
+func (p *Pool) Process(ctx context.Context, in string, page int, dir, stem string) (FileResult, error) {
 	var w *poolWorker
 	select {
 	case w = <-p.free:
@@ -72,7 +73,7 @@ func (p *Pool) Process(ctx context.Context, in, dir, stem string) (FileResult, e
 			return FileResult{}, fmt.Errorf("batch: cannot start a page worker: %w", err)
 		}
 	}
-	fr, alive, err := w.do(ctx, request{In: in, Dir: dir, Stem: stem})
+	fr, alive, err := w.do(ctx, request{In: in, Page: page, Dir: dir, Stem: stem})
 	if !alive {
 		p.forget(w)
 		w = nil
@@ -225,7 +226,7 @@ func Serve(ctx context.Context, r io.Reader, w io.Writer, proc ProcessFunc) erro
 		if err := json.Unmarshal(sc.Bytes(), &q); err != nil {
 			return fmt.Errorf("batch: bad request to the page worker: %w", err)
 		}
-		fr, err := proc(ctx, q.In, q.Dir, q.Stem)
+		fr, err := proc(ctx, q.In, q.Page, q.Dir, q.Stem)
 		var resp response
 		resp.Result = fr
 		if err != nil {

@@ -22,7 +22,7 @@ func TestPoolWorker(t *testing.T) {
 		t.Skip("run by the pool tests")
 	}
 	var fk fake
-	err := Serve(context.Background(), os.Stdin, os.Stdout, func(ctx context.Context, in, dir, stem string) (FileResult, error) {
+	err := Serve(context.Background(), os.Stdin, os.Stdout, func(ctx context.Context, in string, page int, dir, stem string) (FileResult, error) {
 		b, _ := os.ReadFile(in)
 		switch strings.TrimSpace(string(b)) {
 		case "killed":
@@ -35,7 +35,7 @@ func TestPoolWorker(t *testing.T) {
 		case "stray":
 			os.Stdout.WriteString("not an answer\n")
 		}
-		return fk.process(ctx, in, dir, stem)
+		return fk.process(ctx, in, page, dir, stem)
 	})
 	if err != nil {
 		os.Exit(3)
@@ -117,7 +117,7 @@ func TestPoolSurvivesBadWorkers(t *testing.T) {
 		ctx, cancel := context.WithTimeout(context.Background(), limit)
 		defer cancel()
 		t0 := time.Now()
-		_, err := pool.Process(ctx, filepath.Join(src, name), t.TempDir(), "x")
+		_, err := pool.Process(ctx, filepath.Join(src, name), 0, t.TempDir(), "x")
 		return time.Since(t0), err
 	}
 	for _, c := range []struct {

@@ -28,6 +28,9 @@ const (
 	StatusOK      Status = "ok"      // digitized in this run
 	StatusSkipped Status = "skipped" // outputs already there and match the input
 	StatusFailed  Status = "failed"
+	// StatusNoECG: a page of a document that holds no ECG (a cover
+	// sheet); nothing is written for it.
+	StatusNoECG Status = "no_ecg"
 )
 
 // FileResult is what a ProcessFunc reports for a page it digitized.
@@ -40,13 +43,17 @@ type FileResult struct {
 	// Page is the page digitized, from 1, for a file of several pages; 0
 	// otherwise. The output folder's ledger records it with the file.
 	Page int `json:",omitempty"`
+	// NoECG, when set, says why the page holds no ECG (a cover sheet of
+	// a document); nothing was written and the page is not failed.
+	NoECG string `json:",omitempty"`
 }
 
-// ProcessFunc digitizes the image at in and writes its outputs into dir
+// ProcessFunc digitizes the image at in (page page of it, from 1, for a
+// document of several pages; 0 for a single picture) and writes its outputs into dir
 // (a fresh, empty scratch folder) as <stem>.<ext>. It must write the JSON
 // document <stem>.json. A returned error fails this file only; its text
 // should name the file and say what to do. ctx carries the page deadline.
-type ProcessFunc func(ctx context.Context, in, dir, stem string) (FileResult, error)
+type ProcessFunc func(ctx context.Context, in string, page int, dir, stem string) (FileResult, error)
 
 // Options for Run. The zero value of each field is a documented default.
 type Options struct {
@@ -82,7 +89,7 @@ const DefaultPageTimeout = 120 * time.Second
 // Result is the outcome of one file: a line of the log.
 type Result struct {
 	Time      string             `json:"time"`
-	File      string             `json:"file"` // Input.Rel
+	File      string             `json:"file"` // Input.Name()
 	Path      string             `json:"path"`
 	Status    Status             `json:"status"`
 	Error     string             `json:"error,omitempty"`
@@ -94,6 +101,8 @@ type Result struct {
 	PeakRSSMB float64            `json:"peak_rss_mb,omitempty"`
 	CPUSecond float64            `json:"cpu_s,omitempty"`
 	Worker    int                `json:"worker"`
+	Page      int                `json:"page,omitempty"` // of a document, from 1
+	rel       string             // Input.Rel: the document a page belongs to
 }
 
 // Row returns the summary line of r.
@@ -114,8 +123,10 @@ func (r Result) Row() Row {
 type Report struct {
 	Results             []Result // one per input handled, sorted by File
 	OK, Skipped, Failed int
-	LogPath             string
-	SummaryPath         string
+	// NoECG counts the pages of documents passed over as holding no ECG.
+	NoECG       int
+	LogPath     string
+	SummaryPath string
 	// Interrupted is set when ctx was cancelled before every input was
 	// handled; the summary then holds the files handled so far.
 	Interrupted bool
@@ -245,6 +256,8 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 			rep.OK++
 		case StatusSkipped:
 			rep.Skipped++
+		case StatusNoECG:
+			rep.NoECG++
 		default:
 			rep.Failed++
 		}
@@ -254,6 +267,9 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 	}
 	if err := logf.Sync(); err != nil && logErr == nil {
 		logErr = fmt.Errorf("batch: writing the log: %w", err)
+	}
+	if ctx.Err() == nil {
+		failEmptyDocuments(rep, ins)
 	}
 	sort.Slice(rep.Results, func(a, b int) bool { return rep.Results[a].File < rep.Results[b].File })
 	rows := make([]Row, len(rep.Results))
@@ -268,6 +284,37 @@ func Run(ctx context.Context, ins []Input, proc ProcessFunc, opt Options) (*Repo
 		return rep, fmt.Errorf("batch: interrupted after %d of %d files (%w); run the same command again to go on: finished files are kept", len(rep.Results), len(ins), ctx.Err())
 	}
 	return rep, logErr
+}
+
+// failEmptyDocuments fails the first page of each document none of whose
+// pages holds an ECG: a document of cover sheets only is no success.
+func failEmptyDocuments(rep *Report, ins []Input) {
+	pages := map[string]int{}
+	for _, in := range ins {
+		if in.Page > 0 {
+			pages[in.Rel]++
+		}
+	}
+	none := map[string]int{}
+	first := map[string]int{}
+	for i, r := range rep.Results {
+		if r.Page > 0 && r.Status == StatusNoECG {
+			none[r.rel]++
+			if j, ok := first[r.rel]; !ok || rep.Results[j].Page > r.Page {
+				first[r.rel] = i
+			}
+		}
+	}
+	for rel, n := range none {
+		if n != pages[rel] {
+			continue
+		}
+		r := &rep.Results[first[rel]]
+		r.Error = fmt.Sprintf("batch: none of the %d pages of %s holds an ECG (page %d: %s); check that this is the right document", n, r.Path, r.Page, r.Error)
+		r.Status = StatusFailed
+		rep.NoECG--
+		rep.Failed++
+	}
 }
 
 func expected(exts []string) []string {
@@ -295,7 +342,7 @@ type worker struct {
 // one handles one input; it never panics and always returns a result.
 func (w *worker) one(ctx context.Context, in Input) (r Result) {
 	t0 := time.Now()
-	r = Result{File: in.Rel, Path: in.Path, Status: StatusFailed}
+	r = Result{File: in.Name(), Path: in.Path, Status: StatusFailed, Page: in.Page, rel: in.Rel}
 	defer func() {
 		r.Seconds = time.Since(t0).Seconds()
 		r.Time = time.Now().UTC().Format(time.RFC3339)
@@ -341,7 +388,7 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 		r.Error = "batch: " + err.Error()
 		return r
 	}
-	fr, abandoned, err := w.call(ctx, in.Path, scratch, stem)
+	fr, abandoned, err := w.call(ctx, in.Path, in.Page, scratch, stem)
 	if !abandoned {
 		defer os.RemoveAll(scratch)
 	}
@@ -352,6 +399,10 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 	}
 	if err != nil {
 		r.Error = err.Error()
+		return r
+	}
+	if fr.NoECG != "" {
+		r.Status, r.Error = StatusNoECG, fr.NoECG
 		return r
 	}
 	if fr.SHA256 != "" && fr.SHA256 != sha {
@@ -379,7 +430,7 @@ func (w *worker) one(ctx context.Context, in Input) (r Result) {
 // not returned grace after the deadline is abandoned (its goroutine keeps
 // running until the function returns; its scratch folder is left to the
 // final clean-up).
-func (w *worker) call(ctx context.Context, in, dir, stem string) (fr FileResult, abandoned bool, err error) {
+func (w *worker) call(ctx context.Context, in string, page int, dir, stem string) (fr FileResult, abandoned bool, err error) {
 	pctx, cancel := ctx, context.CancelFunc(func() {})
 	if w.timeout > 0 {
 		pctx, cancel = context.WithTimeout(ctx, w.timeout)
@@ -396,7 +447,7 @@ func (w *worker) call(ctx context.Context, in, dir, stem string) (fr FileResult,
 				ch <- out{err: fmt.Errorf("batch: internal error while digitizing %s (%v); this is a bug, please report it with the file", in, p)}
 			}
 		}()
-		fr, err := w.proc(pctx, in, dir, stem)
+		fr, err := w.proc(pctx, in, page, dir, stem)
 		ch <- out{fr, err}
 	}()
 	timedOut := func(e error) error {

@@ -267,8 +267,12 @@ func Merge(paths []string, expected []string) (*MergeReport, error) {
 		}
 	}
 	sort.Strings(rep.MissingShards)
+	docs := map[string]bool{} // the documents whose pages have rows
+	for f := range byFile {
+		docs[DocumentOf(f)] = true
+	}
 	for _, e := range expected {
-		if _, ok := byFile[e]; !ok {
+		if _, ok := byFile[e]; !ok && !docs[e] {
 			rep.MissingFiles = append(rep.MissingFiles, e)
 		}
 	}

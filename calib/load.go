@@ -27,6 +27,9 @@ type LoadOptions struct {
 	// Context, when set, stops the helper programs (poppler for a PDF)
 	// when it is cancelled.
 	Context context.Context
+	// PDFDPI is the resolution a PDF page is rendered at; 0 chooses it
+	// from the page's size (see pdfResolution).
+	PDFDPI int
 }
 
 const (
@@ -52,6 +55,15 @@ func (o LoadOptions) maxBytes() int64 {
 // PDF through poppler's pdftoppm) and returns the chosen page. Errors wrap
 // ErrFormat or ErrTooBig and name the file and what to do.
 func Load(path string, opt LoadOptions) (*Page, error) {
+	data, err := readImageFile(path, opt)
+	if err != nil {
+		return nil, err
+	}
+	return Decode(data, path, opt)
+}
+
+// readImageFile reads the image file at path within the byte budget.
+func readImageFile(path string, opt LoadOptions) ([]byte, error) {
 	fi, err := os.Stat(path)
 	if err != nil {
 		return nil, fmt.Errorf("calib: %s: %w", path, err)
@@ -66,15 +78,7 @@ func Load(path string, opt LoadOptions) (*Page, error) {
 		return nil, fmt.Errorf("calib: %s is %d bytes, over the %d byte limit; scan at a lower resolution or raise the limit: %w",
 			path, fi.Size(), opt.maxBytes(), ErrTooBig)
 	}
-	data, err := readBounded(path, opt.maxBytes())
-	if err != nil {
-		return nil, err
-	}
-	pg, err := Decode(data, path, opt)
-	if err != nil {
-		return nil, err
-	}
-	return pg, nil
+	return readBounded(path, opt.maxBytes())
 }
 
 // Decode is Load on bytes already in memory; name is used in messages and
@@ -121,6 +125,9 @@ func Decode(data []byte, name string, opt LoadOptions) (*Page, error) {
 	if b.Dx() < 1 || b.Dy() < 1 {
 		return nil, fmt.Errorf("calib: %s holds an empty image: %w", name, ErrFormat)
 	}
+	if err := squarePixels(pg, name, opt); err != nil {
+		return nil, err
+	}
 	return pg, nil
 }
 
@@ -161,6 +168,9 @@ func decodePNG(data []byte, name string, opt LoadOptions, pg *Page) error {
 	}
 	pg.Image = img
 	pg.DPIX, pg.DPIY = pngDPI(data)
+	if pg.DPIX > 0 && pg.DPIY > 0 {
+		pg.Stated = Resolution{X: pg.DPIX, Y: pg.DPIY, Unit: "inch", From: "PNG pHYs (pixels per metre)"}
+	}
 	return nil
 }
 
@@ -215,6 +225,9 @@ func decodeJPEG(data []byte, name string, opt LoadOptions, pg *Page) error {
 		}
 	}
 	pg.Image = img
+	if pg.DPIX > 0 && pg.DPIY > 0 {
+		pg.Stated = Resolution{X: pg.DPIX, Y: pg.DPIY, Unit: "inch", From: "JPEG JFIF or EXIF"}
+	}
 	return nil
 }
 
@@ -493,7 +506,8 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	}
 	ents, _ := readIFD(data, bo, offs[opt.Page])
 	var w, h uint32
-	unit := uint32(2)
+	var xres, yres float64
+	unit, unitGiven := uint32(tiffResUnitInch), false // TIFF 6.0: inch unless stated
 	for _, e := range ents {
 		switch e.tag {
 		case 256:
@@ -501,18 +515,14 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 		case 257:
 			h = e.val(data, bo)
 		case 282:
-			pg.DPIX = e.rational(data, bo)
+			xres = e.rational(data, bo)
 		case 283:
-			pg.DPIY = e.rational(data, bo)
+			yres = e.rational(data, bo)
 		case 296:
-			unit = e.val(data, bo)
+			unit, unitGiven = e.val(data, bo), true
 		}
 	}
-	if unit == 3 {
-		pg.DPIX, pg.DPIY = pg.DPIX*2.54, pg.DPIY*2.54
-	} else if unit != 2 {
-		pg.DPIX, pg.DPIY = 0, 0
-	}
+	pg.Stated, pg.DPIX, pg.DPIY = tiffResolution(xres, yres, unit, unitGiven)
 	if err := checkSize(name, int(w), int(h), opt); err != nil {
 		return err
 	}

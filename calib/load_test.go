@@ -10,12 +10,15 @@ import (
 	"image/color"
 	"image/jpeg"
 	"image/png"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"testing"
 
 	"golang.org/x/image/tiff"
+
+	"tracelift/samples"
 )
 
 func tinyImage(w, h int) *image.NRGBA {
@@ -213,13 +216,18 @@ func TestTIFFFaxG4(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if pg.PageCount != 2 || pg.Image.Bounds().Dx() != 300 {
-		t.Fatalf("pages %d bounds %v", pg.PageCount, pg.Image.Bounds())
+	// The 98 dpi rows are stretched to 204 dpi: 120 rows become
+	// round(120 × 204 / 98) = 250.
+	if pg.PageCount != 2 || pg.Image.Bounds().Dx() != 300 || pg.Image.Bounds().Dy() != 250 {
+		t.Fatalf("pages %d bounds %v, want 300×250", pg.PageCount, pg.Image.Bounds())
 	}
-	if pg.DPIX != 204 || pg.DPIY != 98 {
-		t.Fatalf("dpi %v×%v, want 204×98", pg.DPIX, pg.DPIY)
+	if st := pg.Stated; st.X != 204 || st.Y != 98 || st.Unit != "inch" || !st.Resampled() {
+		t.Fatalf("stated %+v, want 204×98 per inch, resampled", st)
 	}
-	if g := color.GrayModel.Convert(pg.Image.At(30, 20)).(color.Gray).Y; g != 0 {
+	if math.Abs(pg.DPIX-204) > 0.01 || math.Abs(pg.DPIY-204) > 1 {
+		t.Fatalf("dpi after resampling %v×%v, want 204×204", pg.DPIX, pg.DPIY)
+	}
+	if g := color.GrayModel.Convert(pg.Image.At(30, 42)).(color.Gray).Y; g != 0 {
 		t.Fatalf("inside the drawn box grey %d, want black", g)
 	}
 	pg2, err := Load(out, LoadOptions{Page: 1})
@@ -358,6 +366,9 @@ func FuzzDecode(f *testing.F) {
 	f.Add(encTIFF(f, tinyImage(3, 2)))
 	f.Add(twoPageTIFF(3, 2, 10, 20))
 	f.Add([]byte("II*\x00\x08\x00\x00\x00"))
+	if fax, err := samples.WriteTIFF([]samples.TIFFPage{{Image: tinyImage(9, 4), DPIX: 204, DPIY: 98, Bilevel: true}, {Image: tinyImage(5, 5)}}); err == nil {
+		f.Add(fax) // two pages, the first of non-square pixels
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		if bytes.HasPrefix(bytes.TrimLeft(data, "\x00\t\r\n "), []byte("%PDF-")) {
 			return // PDFs go to an external tool; not fuzzed here
@@ -371,6 +382,15 @@ func FuzzDecode(f *testing.F) {
 		}
 		if pg.Image == nil || pg.Image.Bounds().Empty() {
 			t.Fatal("no error and no image")
+		}
+		// Every page of the document decodes or fails cleanly, and the
+		// quick screen looks at it without trouble.
+		if doc, err := NewDocument(data, "fuzz", LoadOptions{MaxPixels: 1 << 20}); err == nil {
+			for i := 0; i < min(doc.Pages, 4); i++ {
+				if p, err := doc.Preview(i); err == nil {
+					Screen(p)
+				}
+			}
 		}
 	})
 }

@@ -15,6 +15,10 @@ type Page struct {
 	PageCount int
 	DPIX      float64 // resolution stated by the file, 0 when unknown
 	DPIY      float64
+	// Stated is the resolution as the file states it, and how the page was
+	// resampled to square pixels when the two axes differ (a fax at
+	// 204 × 98 dpi); DPIX and DPIY are then those of the resampled image.
+	Stated Resolution
 }
 
 // Options steer detection. The zero value detects everything.

@@ -44,6 +44,15 @@ func (o *Outcome) Brief() string {
 			}
 		}
 	}
+	if o.Pages != nil {
+		fmt.Fprintf(&b, "page       %s\n", o.Pages.Line())
+	}
+	if pg := o.Page; pg != nil && pg.Stated.Note != "" {
+		fmt.Fprintf(&b, "pixels     %s\n", pg.Stated.Note)
+		if chk := ResolutionCheck(pg, o.Calib); chk != "" {
+			fmt.Fprintf(&b, "           the file's resolution: %s\n", chk)
+		}
+	}
 	if c := o.Calib; c != nil {
 		fmt.Fprintf(&b, "scale      %.3f × %.3f px/mm (from %s, confidence %.2f), rotation %.2f°\n",
 			c.PxPerMMX, c.PxPerMMY, c.Source, c.Confidence, c.RotationDeg)

@@ -26,6 +26,15 @@ type Options struct {
 	// ByHand holds settings the user gave by hand; they win over what the
 	// page shows (see ByHand).
 	ByHand ByHand
+	// FindPage searches a document of several pages (a fax with a cover
+	// sheet, a PDF) for its first page that holds an ECG instead of
+	// reading Load.Page; Outcome.Pages says which page was read and why
+	// the ones before it were not.
+	FindPage bool
+	// Screen, for a page of a document of several pages, looks at the
+	// page quickly first (calib.Screen) and refuses it with an error
+	// wrapping ErrNoECGPage when it holds no ECG (a cover sheet).
+	Screen bool
 	// Progress, when set, is told the stage begun and the fraction of the
 	// work done (0..1). It is called on the caller's goroutine.
 	Progress func(stage string, frac float64)
@@ -44,6 +53,9 @@ type Outcome struct {
 	// findings.
 	Verdict Verdict
 	Timings Timings
+	// Pages says which page of a document of several pages was read and
+	// how it was chosen; nil for a single picture.
+	Pages *PageChoice
 }
 
 // Timings of each stage.
@@ -54,21 +66,14 @@ type Timings struct {
 // Total returns the sum of the stages.
 func (t Timings) Total() time.Duration { return t.Load + t.Calib + t.Digitize + t.Measure }
 
-// Process runs every stage on the image file at path.
+// Process runs every stage on the image file at path: on the page
+// Options.Load names, or, with Options.FindPage, on the first page of a
+// document that holds an ECG.
 func Process(ctx context.Context, path string, opt Options) (*Outcome, error) {
-	t0 := time.Now()
 	if opt.Load.Context == nil {
 		opt.Load.Context = ctx
 	}
-	pg, err := calib.Load(path, opt.Load)
-	if err != nil {
-		return nil, err
-	}
-	o, err := ProcessPage(ctx, pg, opt)
-	if o != nil {
-		o.Timings.Load = time.Since(t0) - o.Timings.Total()
-	}
-	return o, err
+	return processDocument(ctx, path, opt)
 }
 
 // ProcessPage runs calibration, tracing and measurement on a loaded page.

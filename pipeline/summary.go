@@ -49,6 +49,7 @@ type Document struct {
 	ImageSHA256 string                          `json:"image_sha256"`
 	Software    string                          `json:"software"`
 	Caution     string                          `json:"caution"`
+	Source      *SourceJSON                     `json:"source,omitempty"`
 	Verdict     Level                           `json:"verdict,omitempty"`
 	Reasons     []Reason                        `json:"verdict_reasons,omitempty"`
 	Calibration CalibrationJSON                 `json:"calibration"`
@@ -71,6 +72,7 @@ func (o *Outcome) Document() Document {
 	if o.Page != nil {
 		d.File = o.Page.Path
 		d.ImageSHA256 = o.Page.SHA256
+		d.Source = o.source()
 	}
 	if c := o.Calib; c != nil {
 		d.Calibration = CalibrationJSON{

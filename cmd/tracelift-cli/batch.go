@@ -82,6 +82,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return code
 	}
+	b.common.seen(fs)
 	usageErr := func(msg string) int { return usageError(stderr, "batch", msg) }
 	if len(pos) != 1 {
 		return usageErr("give one INPUT_DIR or LIST.txt")
@@ -127,6 +128,12 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "tracelift-cli batch: no PNG, JPEG, TIFF or PDF file found below %s\n", pos[0])
 		return 1
 	}
+	files := len(ins)
+	if !b.common.pageGiven {
+		// Every page of a document becomes its own record (after the
+		// split into shards: a document's pages share its shard).
+		ins = batch.ExpandPages(ins, countPages(&b.common))
+	}
 
 	var proc batch.ProcessFunc
 	if b.inProcess {
@@ -154,7 +161,10 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		MaxBytes: int64(b.common.maxMB * 1e6),
 	}
 	if n > 1 {
-		fmt.Fprintf(stderr, "shard %d of %d: %d of %d files\n", k, n, len(ins), len(all))
+		fmt.Fprintf(stderr, "shard %d of %d: %d of %d files\n", k, n, files, len(all))
+	}
+	if len(ins) > files {
+		fmt.Fprintf(stderr, "%d files hold %d pages: every page of a document is looked at, each ECG page becomes a record of its own (<stem>-p2 …)\n", files, len(ins))
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
@@ -164,7 +174,16 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
 		return 1
 	}
-	fmt.Fprintf(stdout, "%d files: %d digitized, %d up to date, %d failed\n", len(rep.Results), rep.OK, rep.Skipped, rep.Failed)
+	if rep.NoECG > 0 {
+		fmt.Fprintf(stdout, "%d pages: %d digitized, %d up to date, %d without an ECG passed over, %d failed\n", len(rep.Results), rep.OK, rep.Skipped, rep.NoECG, rep.Failed)
+		for _, r := range rep.Results {
+			if r.Status == batch.StatusNoECG {
+				fmt.Fprintf(stdout, "  passed over %s: %s\n", r.File, r.Error)
+			}
+		}
+	} else {
+		fmt.Fprintf(stdout, "%d files: %d digitized, %d up to date, %d failed\n", len(rep.Results), rep.OK, rep.Skipped, rep.Failed)
+	}
 	var rows []batch.Row
 	for _, r := range rep.Results {
 		rows = append(rows, r.Row())
@@ -192,6 +211,19 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 		return 1
 	}
 	return 0
+}
+
+// countPages counts the pages of a TIFF or PDF for ExpandPages; a file
+// that cannot be opened counts as one page (its page worker reports why).
+func countPages(c *commonFlags) func(string) int {
+	opt := c.options().Load
+	return func(path string) int {
+		d, err := calib.OpenDocument(path, opt)
+		if err != nil {
+			return 1
+		}
+		return d.Pages
+	}
 }
 
 // jsonLast makes sure the JSON document is written, and written last, so a
@@ -240,16 +272,27 @@ func passThrough(fs *flag.FlagSet) []string {
 // inProcess digitizes in this process. A page past its deadline is
 // abandoned: its goroutine runs on until the OpenCV call returns.
 func inProcess(c *commonFlags, formats []string) batch.ProcessFunc {
-	return func(ctx context.Context, in, dir, stem string) (batch.FileResult, error) {
-		return digitizeOne(ctx, c, formats, in, dir, stem)
+	return func(ctx context.Context, in string, page int, dir, stem string) (batch.FileResult, error) {
+		return digitizeOne(ctx, c, formats, in, page, dir, stem)
 	}
 }
 
-func digitizeOne(ctx context.Context, c *commonFlags, formats []string, in, dir, stem string) (batch.FileResult, error) {
+// digitizeOne digitizes one input of a batch: page (from 1) of a document
+// of several pages, screened first so that a cover sheet is passed over
+// with a word instead of failed; 0 for a file taken whole.
+func digitizeOne(ctx context.Context, c *commonFlags, formats []string, in string, page int, dir, stem string) (batch.FileResult, error) {
 	var fr batch.FileResult
-	o, err := pipeline.Process(ctx, in, c.options())
+	opt := c.options()
+	if page > 0 {
+		opt.Load.Page, opt.FindPage, opt.Screen = page-1, false, true
+	}
+	o, err := pipeline.Process(ctx, in, opt)
 	if o != nil {
 		fr.TimingsMS = timingsMS(o.Timings)
+	}
+	if err != nil && errors.Is(err, pipeline.ErrNoECGPage) {
+		fr.NoECG = strings.TrimSuffix(strings.TrimPrefix(err.Error(), in+" "), ": "+pipeline.ErrNoECGPage.Error())
+		return fr, nil
 	}
 	if err != nil {
 		return fr, namingFile(err, in)
@@ -344,8 +387,9 @@ func cmdServe(args []string, stdout, stderr io.Writer) int {
 		return 2
 	}
 	formats, _ := pipeline.ParseFormats(c.formats)
-	err = batch.Serve(context.Background(), os.Stdin, stdout, func(ctx context.Context, in, dir, stem string) (batch.FileResult, error) {
-		return digitizeOne(ctx, &c, formats, in, dir, stem)
+	c.seen(fs)
+	err = batch.Serve(context.Background(), os.Stdin, stdout, func(ctx context.Context, in string, page int, dir, stem string) (batch.FileResult, error) {
+		return digitizeOne(ctx, &c, formats, in, page, dir, stem)
 	})
 	if err != nil {
 		fmt.Fprintln(stderr, "tracelift-cli batch:", err)
@@ -396,7 +440,7 @@ func (p *progress) result(done, total int, r batch.Result) {
 	rate := float64(done) / el.Minutes()
 	left := time.Duration(float64(el) / float64(done) * float64(total-done)).Round(time.Second)
 	line := fmt.Sprintf("[%d/%d] %-7s %s (%.1f s; %.1f pages/min, about %v left)", done, total, r.Status, r.File, r.Seconds, rate, left)
-	if r.Status == batch.StatusFailed {
+	if r.Status == batch.StatusFailed || r.Status == batch.StatusNoECG {
 		line += ": " + r.Error
 	}
 	fmt.Fprintln(p.w, line)

@@ -34,9 +34,12 @@ type commonFlags struct {
 	gain    float64
 	speed   float64
 	page    int
-	maxMP   float64
-	maxMB   float64
-	paper   string
+	// pageGiven: --page was given; without it a document of several
+	// pages is searched for its first ECG page.
+	pageGiven bool
+	maxMP     float64
+	maxMB     float64
+	paper     string
 }
 
 func (c *commonFlags) register(fs *flag.FlagSet) {
@@ -49,7 +52,7 @@ func (c *commonFlags) register(fs *flag.FlagSet) {
 	fs.Float64Var(&c.pxPerMM, "px-per-mm", 0, "scale by hand, in pixels per mm (used when no grid or pulse gives one)")
 	fs.Float64Var(&c.gain, "gain", 0, "gain stated on the printout in mm/mV (checked against the pulse)")
 	fs.Float64Var(&c.speed, "speed", 0, "paper speed stated on the printout in mm/s (checked against the pulse)")
-	fs.IntVar(&c.page, "page", 1, "page of a multi-page TIFF or PDF (1-based)")
+	fs.IntVar(&c.page, "page", 1, "page of a multi-page TIFF or PDF (1-based; default: the first page that holds an ECG)")
 	fs.Float64Var(&c.maxMP, "max-megapixels", 200, "refuse images larger than this many megapixels")
 	fs.Float64Var(&c.maxMB, "max-megabytes", 200, "refuse files larger than this many megabytes")
 	fs.StringVar(&c.paper, "paper", "a4", "paper size of the PDF summary: a4 or letter")
@@ -58,6 +61,7 @@ func (c *commonFlags) register(fs *flag.FlagSet) {
 func (c *commonFlags) options() pipeline.Options {
 	var o pipeline.Options
 	o.Load.Page = c.page - 1
+	o.FindPage = !c.pageGiven
 	o.Load.MaxPixels = int64(c.maxMP * 1e6)
 	o.Load.MaxBytes = int64(c.maxMB * 1e6)
 	o.Calib.UserDPI = c.dpi
@@ -68,6 +72,15 @@ func (c *commonFlags) options() pipeline.Options {
 	o.Digitize.Layout = c.layout
 	o.Digitize.LeadOrder = c.order
 	return o
+}
+
+// seen notes which options the command line gave (after parsing fs).
+func (c *commonFlags) seen(fs *flag.FlagSet) {
+	fs.Visit(func(f *flag.Flag) {
+		if f.Name == "page" {
+			c.pageGiven = true
+		}
+	})
 }
 
 func (c *commonFlags) check() error {
@@ -130,12 +143,14 @@ func cmdDigitize(args []string, stdout, stderr io.Writer) int {
 	fs.Usage = usageFunc(fs, stderr,
 		"usage: tracelift-cli digitize IMAGE -o DIR [options]",
 		"Reads a PNG, JPEG, TIFF (fax too) or PDF page of an ECG printout and writes DIR/<stem>.csv,",
-		"DIR/<stem>.json and the other chosen exports.",
+		"DIR/<stem>.json and the other chosen exports. Of a TIFF or PDF of several pages it reads the",
+		"first page that holds an ECG (a cover sheet is passed over) unless --page chooses one.",
 	)
 	pos, code, ok := parseCommand(fs, args, stderr)
 	if !ok {
 		return code
 	}
+	c.seen(fs)
 	if len(pos) != 1 {
 		fmt.Fprintln(stderr, "tracelift-cli digitize: give exactly one image file")
 		fs.Usage()
