@@ -363,6 +363,30 @@ func (c *comparer) leads() {
 			c.res.Changes = append(c.res.Changes, ch)
 		}
 	}
+	// Axes rest on the limb leads: where a side's I, II and III break
+	// Einthoven's law (II = I + III) where they were recorded together,
+	// its layout or lead order was misread, and no axis shift is raised.
+	for i, sd := range []*Side{c.a, c.b} {
+		if sd == nil || sd.Record == nil {
+			continue
+		}
+		rel, ok := einthovenMisfit(sd.Record)
+		if !ok || rel <= einthovenBroken {
+			continue
+		}
+		side := "A"
+		if i == 1 {
+			side = "B"
+		}
+		c.res.Notes = append(c.res.Notes, fmt.Sprintf("%s's leads I, II and III break Einthoven's law (residual %.0f %% of lead II): the layout or the lead order was probably misread; axis shifts are listed, not raised", side, 100*rel))
+		for k := range c.res.Changes {
+			ch := &c.res.Changes[k]
+			if ch.Raised && (ch.Item == ItemQRSAxis || ch.Item == ItemPAxis || ch.Item == ItemTAxis) {
+				ch.Raised, ch.ExplainedBy = false, "lead_law"
+				ch.Message += "; not raised: the limb leads break Einthoven's law on " + side
+			}
+		}
+	}
 	// Axes rest on the limb leads' beats: with three or more of them
 	// blurred on a side, an axis shift is not raised either.
 	for i, names := range c.blurred {
@@ -492,4 +516,58 @@ func (c *comparer) explain(beatsA map[string][]float64) {
 			}
 		}
 	}
+}
+
+// einthovenBroken is the residual of Einthoven's law, relative to lead
+// II's spread, above which a record's limb leads are taken as misread:
+// traced from a picture they keep it to within about a tenth (the
+// digitizer's lead-law checks); a wrong layout or lead order breaks it
+// by far more.
+const einthovenBroken = 0.35
+
+// einthovenMisfit returns the RMS of I + III − II over the samples where
+// all three were recorded, relative to lead II's RMS there (means
+// removed), and false when they share under 0.5 s.
+func einthovenMisfit(r *record.Record) (float64, bool) {
+	I, II, III := r.Lead("I"), r.Lead("II"), r.Lead("III")
+	if I == nil || II == nil || III == nil || I.RateHz <= 0 || I.RateHz != II.RateHz || I.RateHz != III.RateHz {
+		return 0, false
+	}
+	at := func(s *record.Signal, t float64) float64 {
+		k := int(math.Round((t - s.StartS) * s.RateHz))
+		if k < 0 || k >= len(s.MV) {
+			return math.NaN()
+		}
+		return s.MV[k]
+	}
+	var a, b, c []float64
+	for k := range II.MV {
+		t := II.StartS + float64(k)/II.RateHz
+		x, y, z := at(I, t), II.MV[k], at(III, t)
+		if math.IsNaN(x) || math.IsNaN(y) || math.IsNaN(z) {
+			continue
+		}
+		a, b, c = append(a, x), append(b, y), append(c, z)
+	}
+	if float64(len(b)) < 0.5*II.RateHz {
+		return 0, false
+	}
+	mean := func(v []float64) float64 {
+		m := 0.0
+		for _, x := range v {
+			m += x
+		}
+		return m / float64(len(v))
+	}
+	ma, mb, mc := mean(a), mean(b), mean(c)
+	var res, ref float64
+	for k := range b {
+		d := (a[k] - ma) + (c[k] - mc) - (b[k] - mb)
+		res += d * d
+		ref += (b[k] - mb) * (b[k] - mb)
+	}
+	if ref <= 0 {
+		return 0, false
+	}
+	return math.Sqrt(res / ref), true
 }
