@@ -330,7 +330,8 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 	pg := &page{g: g, rows: rows, pxPerMM: cal.PxPerMM, pxPerS: cal.PxPerMM * cal.SpeedMMPerS}
 	pg.pitch = rowPitch(rows, g, cal.PxPerMM)
 	pg.halfLn = strokeHalfWidth(g, rows, cal.PxPerMM)
-	var starts, ends, falls []int
+	var starts, ends, falls, rises []int
+	var mg *gray
 	for i := range rows {
 		r := &rows[i]
 		var fall int
@@ -343,9 +344,22 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 				r.x0 = max(r.x0, x+1)
 			}
 		}
+		// A pulse may stand at the row's right end instead: the same
+		// search on the page mirrored left to right finds it.
+		rise := -1
+		if fall < 0 {
+			if mg == nil {
+				mg = mirrored(g)
+			}
+			if mx0, mfall := pulseEndFall(mg, g.w-1-r.x1, g.w-1-r.x0, r.base, pg.pitch, cal.PxPerMM, cal.SpeedMMPerS, cal.GainMMPerMV); mfall >= 0 {
+				rise = g.w - 1 - mfall
+				r.x1 = min(r.x1, g.w-1-mx0)
+			}
+		}
 		starts = append(starts, r.x0)
 		ends = append(ends, r.x1)
 		falls = append(falls, fall)
+		rises = append(rises, rise)
 	}
 	sort.Ints(starts)
 	sort.Ints(ends)
@@ -392,7 +406,7 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		minFall = math.MaxInt
 	}
 	for i, r := range rows {
-		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i], capHW, startRef, endRef)
+		marks[i] = measureRow(g, r, pg.pitch, cal.PxPerMM, falls[i], rises[i], capHW, startRef, endRef)
 		// The pulses stand before time 0 in every row: a start found left
 		// of another row's pulse is a walk along something else (a pulse
 		// not recognised in this row, a label, the margin).
@@ -429,6 +443,24 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 		}
 	}
 	return pg
+}
+
+// mirrored returns g mirrored left to right.
+func mirrored(g *gray) *gray {
+	m := &gray{w: g.w, h: g.h, pix: make([]uint8, len(g.pix))}
+	if g.raw != nil {
+		m.raw = make([]uint8, len(g.raw))
+	}
+	for y := 0; y < g.h; y++ {
+		row := y * g.w
+		for x := 0; x < g.w; x++ {
+			m.pix[row+g.w-1-x] = g.pix[row+x]
+			if g.raw != nil {
+				m.raw[row+g.w-1-x] = g.raw[row+x]
+			}
+		}
+	}
+	return m
 }
 
 // calibPulseEnd returns the last column of a pulse calib found standing

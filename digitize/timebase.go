@@ -30,6 +30,11 @@ type rowMarks struct {
 	// inked column then).
 	joined bool
 	fall   int
+	// joinedEnd and rise are the same at a pulse printed at the row's
+	// right end: rise is the first column of its rising stroke (−1 when
+	// there is none).
+	joinedEnd bool
+	rise      int
 }
 
 // inkOn is the highest working-map level needed to count as ink when
@@ -304,8 +309,8 @@ func capEdge(g *gray, last, lo, hi, dir int, pxPerMM, hw float64) float64 {
 // startRef and endRef are where the rows' ink coarsely starts and ends
 // (after any pulse): a walk that stops more than 3 mm inside them lost
 // the trace at a break.
-func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float64, startRef, endRef int) rowMarks {
-	var m rowMarks
+func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX, riseX int, hw float64, startRef, endRef int) rowMarks {
+	m := rowMarks{rise: riseX}
 	ya, yb := max(0, int(r.base-0.95*pitch)), min(g.h, int(r.base+0.95*pitch))
 	span := r.x1 - r.x0
 	if span < 20 {
@@ -325,7 +330,13 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX int, hw float6
 	}
 	y := int(r.base)
 	// End: walk right from well inside.
-	if last, lo, hi, ok := walkTrace(g, r.x1-span/8, y, ya, yb, +1, gap, solid, g.w-1, on); ok {
+	endStop := g.w - 1
+	if riseX >= 0 {
+		endStop = riseX - 1
+		band := int(math.Ceil(8 * pxPerMM))
+		m.joinedEnd = !emptyColumn(g, riseX-int(math.Ceil(3*pxPerMM)), riseX, max(ya, y-band), min(yb, y+band+1), max(2, int(math.Ceil(hw))), on)
+	}
+	if last, lo, hi, ok := walkTrace(g, r.x1-span/8, y, ya, yb, +1, gap, solid, endStop, on); ok && !m.joinedEnd {
 		cut := false
 		if core >= 0 {
 			last, lo, hi, cut = backOffLine(g, last, lo, hi, ya, yb, -1, core, pxPerMM)
@@ -641,7 +652,7 @@ func hiddenStarts(marks []rowMarks, hw, pxPerMM, pxPerS float64) string {
 		}
 	}
 	if nFall == 0 || 2*nJoined < nFall {
-		return T0First
+		return hiddenEnds(marks, hw, pxPerMM, pxPerS)
 	}
 	L := printedS*pxPerS - 1 // first sample to last, at 500 Hz about one px short of the full span
 	var leads []float64
@@ -699,4 +710,50 @@ func emptyColumn(g *gray, xa, xb, ya, yb, run int, on uint8) bool {
 		}
 	}
 	return false
+}
+
+// hiddenEnds is hiddenStarts for a pulse printed at the rows' right end
+// and joined to them: the traces' ends are not shown, and stand one
+// standard 10 s page after their starts where that lands within 5 mm
+// before the rising stroke, else at the rising stroke.
+func hiddenEnds(marks []rowMarks, hw, pxPerMM, pxPerS float64) string {
+	nRise, nJoined := 0, 0
+	for _, m := range marks {
+		if m.rise >= 0 {
+			nRise++
+			if m.joinedEnd {
+				nJoined++
+			}
+		}
+	}
+	if nRise == 0 || 2*nJoined < nRise {
+		return T0First
+	}
+	L := printedS*pxPerS - 1
+	var lags []float64
+	for _, m := range marks {
+		if m.rise >= 0 && m.okStart {
+			lags = append(lags, (float64(m.rise)-0.5+hw)-(m.start+L))
+		}
+	}
+	span := len(lags) > 0
+	if span {
+		d := median(lags)
+		span = d >= -0.75*pxPerMM && d <= 5*pxPerMM
+	}
+	for i := range marks {
+		m := &marks[i]
+		if m.rise < 0 {
+			continue
+		}
+		switch {
+		case span && m.okStart:
+			m.end, m.okEnd = m.start+L, true
+		case span:
+			m.okEnd = false
+		case !m.okEnd:
+			m.end, m.okEnd = float64(m.rise)-0.5+hw, true
+		}
+	}
+	return T0First
 }
