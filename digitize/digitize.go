@@ -236,20 +236,24 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	var bestPanels []Panel
 	var bestTraces []Trace
 	for i, h := range hyps {
-		panels, traces := pg.assemble(h, segs, nseg, opt.Leads)
+		panels, traces := pg.assemble(h, segs, nseg, opt.Leads, false)
 		s := lawScore(Signals(cal, panels, traces, 250), windowsOf(panels))
 		if s < bestScore-1e-9 || best < 0 {
 			best, bestScore, bestPanels, bestTraces = i, s, panels, traces
 		}
 	}
 	h := hyps[best]
+	// The layout is chosen on the segments' own traces; the chosen one
+	// is then assembled again with the traces across segment boundaries
+	// filling the margins.
 	if c := layoutCols(h.layout); c != nseg {
 		segs, err = pg.traceRows(ctx, c)
 		if err != nil {
 			return nil, err
 		}
-		bestPanels, bestTraces = pg.assemble(h, segs, c, opt.Leads)
+		nseg = c
 	}
+	bestPanels, bestTraces = pg.assemble(h, segs, nseg, opt.Leads, true)
 	if h.layout == "1x1" && len(opt.Leads) == 0 && len(bestPanels) == 1 && len(bestTraces) == 1 {
 		// A lone strip is named by its label when it can be read; else
 		// it stays the layout's usual II.
@@ -768,9 +772,45 @@ func fillJoin(tr *Trace, j *segTrace) {
 	}
 }
 
+// fillEdge fills the blanks at one end of trace tr (dir −1 its start,
+// +1 its end) from the trace j across the boundary there, when j meets
+// tr within tol px at tr's last traced column before the blanks.
+func fillEdge(tr *Trace, j *segTrace, dir int, tol float64) {
+	if j == nil || len(tr.Y) == 0 {
+		return
+	}
+	// The last traced column, walking from the end inwards.
+	i := 0
+	if dir > 0 {
+		i = len(tr.Y) - 1
+	}
+	for i >= 0 && i < len(tr.Y) && math.IsNaN(tr.Y[i]) {
+		i -= dir
+	}
+	if i < 0 || i >= len(tr.Y) || i == 0 && dir < 0 || i == len(tr.Y)-1 && dir > 0 {
+		return
+	}
+	k := i + tr.X0 - j.x0
+	if k < 0 || k >= len(j.y) || math.IsNaN(j.y[k]) || math.Abs(j.y[k]-tr.Y[i]) > tol {
+		return
+	}
+	// The fill stops where the trace across the boundary jumps by more
+	// than tol from one column to the next: it has run onto a separator
+	// tick or the next panel's lead.
+	prev := tr.Y[i]
+	for i += dir; i >= 0 && i < len(tr.Y) && math.IsNaN(tr.Y[i]); i += dir {
+		k := i + tr.X0 - j.x0
+		if k < 0 || k >= len(j.y) || math.IsNaN(j.y[k]) || math.Abs(j.y[k]-prev) > tol {
+			return
+		}
+		tr.Y[i], tr.Conf[i] = j.y[k], j.conf[k]
+		prev = j.y[k]
+	}
+}
+
 // assemble builds the panels and traces of hypothesis h from row
 // segments traced in nseg equal parts.
-func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []string) ([]Panel, []Trace) {
+func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []string, fill bool) ([]Panel, []Trace) {
 	names, prow, pcol, rhythm := leadGrid(h)
 	ncols := layoutCols(h.layout)
 	per := nseg / ncols
@@ -794,9 +834,21 @@ func (pg *page) assemble(h hypothesis, segs [][]segTrace, nseg int, override []s
 			tr.Y = append(tr.Y, segs[r][s].y...)
 			tr.Conf = append(tr.Conf, segs[r][s].conf...)
 		}
-		if rhythm[i] {
+		// Within a panel the lead runs on across segment boundaries (a
+		// rhythm strip across the columns' too): the traces across them
+		// fill the margins kept clear of separator ticks. At the panel's
+		// own edges the trace across the boundary fills up to the
+		// boundary where it meets the panel's trace.
+		if fill {
 			for s := s0 + 1; s < s1; s++ {
 				fillJoin(&tr, segs[r][s].join)
+			}
+			tol := math.Max(2, 0.3*pg.pxPerMM)
+			if s0 > 0 {
+				fillEdge(&tr, segs[r][s0].join, -1, tol)
+			}
+			if s1 < nseg {
+				fillEdge(&tr, segs[r][s1].join, +1, tol)
 			}
 		}
 		if b := modeY(tr.Y); !math.IsNaN(b) {

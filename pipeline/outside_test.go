@@ -17,16 +17,16 @@ const outsideDir = "../../shared/data/outside-printouts"
 // The floors each outside page is held to: the median per-lead SNR in dB
 // scored the way that folder's README asks (record.CompareRecordStrict:
 // blanks count as error, a lead not recovered 0 dB, best shift within
-// ±40 ms in 2 ms steps). They stand about 1.5 dB under where the tracer
+// ±40 ms in 2 ms steps). They stand up to about 1.5 dB under where the tracer
 // lands today, so that a change that loses ground on pictures we did not
 // draw turns this test red; they are to be raised as the tracer improves,
 // never lowered to let a change through. The goals (issue 15) are 20 dB
 // for clean pages and 12 dB for photos and faxes; pages still short of
 // them are named in failing.
 var outsideFloors = map[string]float64{
-	"outside01": 13, // clean 200 dpi 3x4+1, pulse joined (lands 14.7)
-	"outside02": 19, // clean 300 dpi 6x2, pulse joined (lands 20.4)
-	"outside06": 10, // phone photo 3x4+1, pulse joined (lands 11.5)
+	"outside01": 16.5, // clean 200 dpi 3x4+1, pulse joined (lands 18.1; goal 20)
+	"outside02": 20,   // clean 300 dpi 6x2, pulse joined (lands 21.8)
+	"outside06": 12,   // phone photo 3x4+1, pulse joined (lands 13.2)
 }
 
 // failing are the outside pages the tracer does not read yet: what goes
@@ -68,7 +68,7 @@ func TestOutsidePrintouts(t *testing.T) {
 			if err != nil {
 				t.Errorf("%s: %v", p.Name, err)
 			} else if !(med >= floor) {
-				t.Errorf("%s: median per-lead SNR %.1f dB, under its floor of %.0f dB", p.Name, med, floor)
+				t.Errorf("%s: median per-lead SNR %.1f dB, under its floor of %.1f dB", p.Name, med, floor)
 			}
 			continue
 		}

@@ -93,5 +93,3 @@ func window(s *record.Signal) (float64, float64) {
 	}
 	return s.StartS + float64(i0)/s.RateHz, s.StartS + float64(i1)/s.RateHz
 }
-
-

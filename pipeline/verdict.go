@@ -267,5 +267,3 @@ func worstLaw(dr *digitize.Result) (float64, string) {
 	}
 	return worst, lead
 }
-
-
