@@ -62,6 +62,7 @@ func TestDocumentRoundTrip(t *testing.T) {
 	t.Parallel()
 	f := unmeasured()
 	f.HeartRateBPM, f.IntervalsMS.QRS, f.Transition = 72, 94, "V3/V4"
+	f.Leads = []axis.LeadMeasure{{Lead: "V2", Beats: 9, Quality: 0.8}}
 	d := Document{
 		ImageSHA256: "ab", Verdict: Care,
 		Layout:   LayoutJSON{Name: "3x4+1", Panels: []digitize.Panel{{Lead: "II", Row: 3, Rhythm: true, T0S: 0, T1S: 10, BaselineY: 812}}},
@@ -76,7 +77,7 @@ func TestDocumentRoundTrip(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, key := range []string{`"t0_s":2.5`, `"einthoven_rms_uv":12`, `"why":"no trace found"`, `"baseline_y":812`,
-		`"heart_rate_bpm":72`, `"leads":["II","V2"]`} {
+		`"heart_rate_bpm":72`, `"recorded_leads":["II","V2"]`, `"leads":[{"lead":"V2","beats":9`} {
 		if !strings.Contains(string(b), key) {
 			t.Errorf("the document lacks %s: %s", key, b)
 		}
@@ -90,7 +91,8 @@ func TestDocumentRoundTrip(t *testing.T) {
 		t.Errorf("read back %+v", back)
 	}
 	if back.Findings == nil || back.Findings.HeartRateBPM != 72 || back.Findings.IntervalsMS.QRS != 94 ||
-		!math.IsNaN(float64(back.Findings.IntervalsMS.PR)) || back.Findings.Transition != "V3/V4" {
+		!math.IsNaN(float64(back.Findings.IntervalsMS.PR)) || back.Findings.Transition != "V3/V4" ||
+		len(back.Findings.Leads) != 1 || back.Findings.Leads[0].Beats != 9 {
 		t.Errorf("findings read back %+v", back.Findings)
 	}
 	// Without the findings' keys the document has none.

@@ -41,8 +41,9 @@ type LayoutJSON struct {
 // calibration, layout, quality, lead-law checks, corrections, and the
 // findings of the measurement engine at the top level. Every key is
 // snake_case (a test walks the types); the findings' keys are merged in
-// beside the document's, and where both name a key ("leads", "caution")
-// the document's stands. The batch runner reads it back with
+// beside the document's (the findings' per-lead measures under "leads",
+// the record's lead names under "recorded_leads"), and where both name a
+// key ("caution") the document's stands. The batch runner reads it back with
 // ParseDocument, so writer and reader share this one type.
 type Document struct {
 	File        string                          `json:"file"`
@@ -57,7 +58,7 @@ type Document struct {
 	Quality     map[string]digitize.LeadQuality `json:"quality"`
 	LeadLaws    []digitize.LawCheck             `json:"lead_laws,omitempty"`
 	Check       []digitize.Place                `json:"check_by_hand,omitempty"`
-	Leads       []string                        `json:"leads"`
+	Leads       []string                        `json:"recorded_leads"`
 	Corrections []record.Correction             `json:"corrections,omitempty"`
 	MeasureErr  string                          `json:"measure_error,omitempty"`
 	TimingsMS   map[string]float64              `json:"timings_ms"`
@@ -156,7 +157,6 @@ func (d *Document) UnmarshalJSON(b []byte) error {
 		*axis.Findings
 		// The document's own keys of the same name, which stand in the
 		// merged file instead of the findings'.
-		Leads   json.RawMessage `json:"leads"`
 		Caution json.RawMessage `json:"caution"`
 	}{Findings: unmeasured()}
 	if err := json.Unmarshal(b, &f); err != nil {
