@@ -672,6 +672,13 @@ func (pg *page) segBounds(n, r int) []float64 {
 	return out
 }
 
+// rowBand is the band the path of row is followed in over columns
+// [x0, x1): the row's baseline ± 0.95 of the row pitch.
+func (pg *page) rowBand(row rowInfo, x0, x1 int) band {
+	return band{x0: x0, x1: x1, home: row.base, pitch: pg.pitch, halfLine: math.Max(pg.halfLn, 1),
+		y0: max(0, int(row.base-0.95*pg.pitch)), y1: min(pg.g.h, int(row.base+0.95*pg.pitch))}
+}
+
 func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 	margin := int(math.Ceil(pg.halfLn + 0.3*pg.pxPerMM)) // clear of separator ticks at a boundary
 	out := make([][]segTrace, len(pg.rows))
@@ -695,10 +702,7 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 			if s < n-1 {
 				tb -= margin
 			}
-			bd := band{x0: ta, x1: min(tb, pg.g.w), home: row.base, pitch: pg.pitch, halfLine: math.Max(pg.halfLn, 1)}
-			bd.y0 = max(0, int(row.base-0.95*pg.pitch))
-			bd.y1 = min(pg.g.h, int(row.base+0.95*pg.pitch))
-			edges[r][s] = followPath(pg.g, bd)
+			edges[r][s] = followPath(pg.g, pg.rowBand(row, ta, min(tb, pg.g.w)))
 			st := segTrace{x0: a, y: make([]float64, b-a), conf: make([]float32, b-a)}
 			for i := range st.y {
 				st.y[i] = math.NaN()
@@ -724,9 +728,7 @@ func (pg *page) traceRows(ctx context.Context, n int) ([][]segTrace, error) {
 		xs := pg.segBounds(n, r)
 		for s := 1; s < n; s++ {
 			a := int(math.Round(xs[s]))
-			bd := band{x0: max(0, a-margin-ctxPx), x1: min(pg.g.w, a+margin+ctxPx+1), home: row.base, pitch: pg.pitch, halfLine: math.Max(pg.halfLn, 1)}
-			bd.y0 = max(0, int(row.base-0.95*pg.pitch))
-			bd.y1 = min(pg.g.h, int(row.base+0.95*pg.pitch))
+			bd := pg.rowBand(row, max(0, a-margin-ctxPx), min(pg.g.w, a+margin+ctxPx+1))
 			e := followPath(pg.g, bd)
 			if e == nil {
 				continue

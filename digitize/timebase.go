@@ -639,53 +639,90 @@ const printedS = 10.0
 // leaving it). When most rows with a pulse are joined, their starts are
 // replaced: by the rows' ends less the span of a standard 10 s page where
 // that lands between the falling stroke and 5 mm after it (a lead-out is
-// a few millimetres at most), else by the falling stroke itself. It
-// returns how time 0 is found.
+// a few millimetres at most), else by the falling stroke itself. Rows
+// with no pulse on the left are tried for one joined at their right end,
+// whose rising stroke hides their ends the same way. It returns how time
+// 0 is found.
 func hiddenStarts(marks []rowMarks, hw, pxPerMM, pxPerS float64) string {
-	nFall, nJoined := 0, 0
-	for _, m := range marks {
-		if m.fall >= 0 {
-			nFall++
-			if m.joined {
+	switch joined, span := hideJoined(marks, false, hw, pxPerMM, pxPerS); {
+	case !joined:
+		hideJoined(marks, true, hw, pxPerMM, pxPerS)
+		return T0First
+	case span:
+		return T0Span
+	default:
+		return T0Fall
+	}
+}
+
+// pulseSide is one row's marks seen from the end where its pulse stands:
+// the trace end the pulse hides and the one it leaves in view.
+type pulseSide struct {
+	edge        float64 // where the pulse's stroke facing the trace stands
+	has, joined bool
+	seen        float64 // the end in view
+	seenOK      bool
+	hidden      *float64 // the end the pulse hides
+	hiddenOK    *bool
+	dir         float64 // −1 for a pulse on the left, +1 on the right: from the end in view towards the pulse
+}
+
+func sideOf(m *rowMarks, right bool, hw float64) pulseSide {
+	if right {
+		return pulseSide{edge: float64(m.rise) - 0.5 + hw, has: m.rise >= 0, joined: m.joinedEnd,
+			seen: m.start, seenOK: m.okStart, hidden: &m.end, hiddenOK: &m.okEnd, dir: +1}
+	}
+	return pulseSide{edge: float64(m.fall) + 0.5 - hw, has: m.fall >= 0, joined: m.joined,
+		seen: m.end, seenOK: m.okEnd, hidden: &m.start, hiddenOK: &m.okStart, dir: -1}
+}
+
+// hideJoined replaces the hidden ends of the rows whose pulse, at the
+// left end or the right, is joined to the trace, when most rows with a
+// pulse there are: by the end in view and a 10 s page where that lands
+// within 5 mm of the pulse's stroke on the trace's side (span true), else
+// by the stroke itself where no walk found the end. joined is false when
+// they are not.
+func hideJoined(marks []rowMarks, right bool, hw, pxPerMM, pxPerS float64) (joined, span bool) {
+	nPulse, nJoined := 0, 0
+	for i := range marks {
+		if v := sideOf(&marks[i], right, hw); v.has {
+			nPulse++
+			if v.joined {
 				nJoined++
 			}
 		}
 	}
-	if nFall == 0 || 2*nJoined < nFall {
-		return hiddenEnds(marks, hw, pxPerMM, pxPerS)
+	if nPulse == 0 || 2*nJoined < nPulse {
+		return false, false
 	}
 	L := printedS*pxPerS - 1 // first sample to last, at 500 Hz about one px short of the full span
-	var leads []float64
-	for _, m := range marks {
-		if m.fall >= 0 && m.okEnd {
-			leads = append(leads, (m.end-L)-(float64(m.fall)+0.5-hw))
+	var gaps []float64       // from the derived end to the pulse's stroke, away from the trace
+	for i := range marks {
+		if v := sideOf(&marks[i], right, hw); v.has && v.seenOK {
+			gaps = append(gaps, v.dir*(v.edge-(v.seen+v.dir*L)))
 		}
 	}
-	span := len(leads) > 0
-	if span {
-		d := median(leads)
+	if len(gaps) > 0 {
+		d := median(gaps)
 		span = d >= -0.75*pxPerMM && d <= 5*pxPerMM
 	}
 	for i := range marks {
-		m := &marks[i]
-		if m.fall < 0 {
+		v := sideOf(&marks[i], right, hw)
+		if !v.has {
 			continue
 		}
 		switch {
-		case span && m.okEnd:
-			m.start, m.okStart = m.end-L, true
+		case span && v.seenOK:
+			*v.hidden, *v.hiddenOK = v.seen+v.dir*L, true
 		case span:
-			m.okStart = false
-		case !m.okStart:
-			// Only where no walk found a start: a start found after the
-			// lead-out beats the falling stroke.
-			m.start, m.okStart = float64(m.fall)+0.5-hw, true
+			*v.hiddenOK = false
+		case !*v.hiddenOK:
+			// Only where no walk found the end: one found after the
+			// lead-out beats the pulse's stroke.
+			*v.hidden, *v.hiddenOK = v.edge, true
 		}
 	}
-	if span {
-		return T0Span
-	}
-	return T0Fall
+	return true, span
 }
 
 // emptyColumn reports whether some column in [xa, xb) holds no run of
@@ -710,50 +747,4 @@ func emptyColumn(g *gray, xa, xb, ya, yb, run int, on uint8) bool {
 		}
 	}
 	return false
-}
-
-// hiddenEnds is hiddenStarts for a pulse printed at the rows' right end
-// and joined to them: the traces' ends are not shown, and stand one
-// standard 10 s page after their starts where that lands within 5 mm
-// before the rising stroke, else at the rising stroke.
-func hiddenEnds(marks []rowMarks, hw, pxPerMM, pxPerS float64) string {
-	nRise, nJoined := 0, 0
-	for _, m := range marks {
-		if m.rise >= 0 {
-			nRise++
-			if m.joinedEnd {
-				nJoined++
-			}
-		}
-	}
-	if nRise == 0 || 2*nJoined < nRise {
-		return T0First
-	}
-	L := printedS*pxPerS - 1
-	var lags []float64
-	for _, m := range marks {
-		if m.rise >= 0 && m.okStart {
-			lags = append(lags, (float64(m.rise)-0.5+hw)-(m.start+L))
-		}
-	}
-	span := len(lags) > 0
-	if span {
-		d := median(lags)
-		span = d >= -0.75*pxPerMM && d <= 5*pxPerMM
-	}
-	for i := range marks {
-		m := &marks[i]
-		if m.rise < 0 {
-			continue
-		}
-		switch {
-		case span && m.okStart:
-			m.end, m.okEnd = m.start+L, true
-		case span:
-			m.okEnd = false
-		case !m.okEnd:
-			m.end, m.okEnd = float64(m.rise)-0.5+hw, true
-		}
-	}
-	return T0First
 }

@@ -185,7 +185,6 @@ func warpFunc(src *image.NRGBA, w, h int, inv func(x, y float64) (float64, float
 		}
 	}
 	dst := image.NewNRGBA(image.Rect(0, 0, w, h))
-	sw, sh := src.Rect.Dx(), src.Rect.Dy()
 	parallelRows(h, func(y0, y1 int) {
 		for y := y0; y < y1; y++ {
 			fy := (float64(y) + 0.5) / step
@@ -201,29 +200,7 @@ func warpFunc(src *image.NRGBA, w, h int, inv func(x, y float64) (float64, float
 				v := (gv[k]*(1-tx)+gv[k+1]*tx)*(1-ty) + (gv[k+gw]*(1-tx)+gv[k+gw+1]*tx)*ty - 0.5
 				p := row[4*x : 4*x+4]
 				p[3] = 255
-				ix, iy := int(math.Floor(u)), int(math.Floor(v))
-				var acc [3]float64
-				var inside float64
-				for q := 0; q < 4; q++ {
-					xx, yy := ix+q&1, iy+q>>1
-					if xx < 0 || yy < 0 || xx >= sw || yy >= sh {
-						continue
-					}
-					wt := (1 - math.Abs(float64(xx)-u)) * (1 - math.Abs(float64(yy)-v))
-					o := yy*src.Stride + xx*4
-					acc[0] += wt * float64(src.Pix[o])
-					acc[1] += wt * float64(src.Pix[o+1])
-					acc[2] += wt * float64(src.Pix[o+2])
-					inside += wt
-				}
-				if inside < 1-1e-9 {
-					c := bg(x, y)
-					o := 1 - inside
-					acc[0] += o * float64(c.R)
-					acc[1] += o * float64(c.G)
-					acc[2] += o * float64(c.B)
-				}
-				p[0], p[1], p[2] = clamp8(acc[0]), clamp8(acc[1]), clamp8(acc[2])
+				bilinearOrBg(p, src, u, v, bg, x, y)
 			}
 		}
 	})

@@ -630,6 +630,36 @@ func parallelRows(n int, f func(y0, y1 int)) {
 	wg.Wait()
 }
 
+// bilinearOrBg sets p's colour to src sampled bilinearly at (u, v),
+// where neighbours outside src contribute bg(x, y), the background at the
+// destination pixel (x, y).
+func bilinearOrBg(p []uint8, src *image.NRGBA, u, v float64, bg func(x, y int) color.NRGBA, x, y int) {
+	sw, sh := src.Rect.Dx(), src.Rect.Dy()
+	ix, iy := int(math.Floor(u)), int(math.Floor(v))
+	var acc [3]float64
+	var inside float64
+	for k := 0; k < 4; k++ {
+		xx, yy := ix+k&1, iy+k>>1
+		if xx < 0 || yy < 0 || xx >= sw || yy >= sh {
+			continue
+		}
+		wt := (1 - math.Abs(float64(xx)-u)) * (1 - math.Abs(float64(yy)-v))
+		o := yy*src.Stride + xx*4
+		acc[0] += wt * float64(src.Pix[o])
+		acc[1] += wt * float64(src.Pix[o+1])
+		acc[2] += wt * float64(src.Pix[o+2])
+		inside += wt
+	}
+	if inside < 1-1e-9 {
+		c := bg(x, y)
+		o := 1 - inside
+		acc[0] += o * float64(c.R)
+		acc[1] += o * float64(c.G)
+		acc[2] += o * float64(c.B)
+	}
+	p[0], p[1], p[2] = clamp8(acc[0]), clamp8(acc[1]), clamp8(acc[2])
+}
+
 // warp resamples src through homography h (src px -> dst px) bilinearly
 // into a w × h image; points outside the page take bg.
 func warp(src *image.NRGBA, hm [9]float64, w, h int, bg func(x, y int) color.NRGBA) (*image.NRGBA, error) {
@@ -674,29 +704,7 @@ func warp(src *image.NRGBA, hm [9]float64, w, h int, bg func(x, y int) color.NRG
 				}
 				// At or beyond the page edge: neighbours outside the page
 				// contribute the background.
-				ix, iy := int(math.Floor(u)), int(math.Floor(v))
-				var acc [3]float64
-				var inside float64
-				for k := 0; k < 4; k++ {
-					xx, yy := ix+k&1, iy+k>>1
-					if xx < 0 || yy < 0 || xx >= sw || yy >= sh {
-						continue
-					}
-					wt := (1 - math.Abs(float64(xx)-u)) * (1 - math.Abs(float64(yy)-v))
-					o := yy*stride + xx*4
-					acc[0] += wt * float64(src.Pix[o])
-					acc[1] += wt * float64(src.Pix[o+1])
-					acc[2] += wt * float64(src.Pix[o+2])
-					inside += wt
-				}
-				if inside < 1-1e-9 {
-					c := bg(x, y)
-					o := 1 - inside
-					acc[0] += o * float64(c.R)
-					acc[1] += o * float64(c.G)
-					acc[2] += o * float64(c.B)
-				}
-				p[0], p[1], p[2] = clamp8(acc[0]), clamp8(acc[1]), clamp8(acc[2])
+				bilinearOrBg(p, src, u, v, bg, x, y)
 			}
 		}
 	})

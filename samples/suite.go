@@ -88,7 +88,11 @@ func (c SuiteCase) File(po *Printout) (string, []byte, error) {
 		if po.Cover != nil {
 			pages = []*image.NRGBA{po.Cover, po.Image}
 		}
-		b, err := EncodeTIFF(pages, po.Truth.FileDPIX, po.Truth.FileDPIY, true)
+		tp := make([]TIFFPage, len(pages))
+		for i, pg := range pages {
+			tp[i] = TIFFPage{Image: pg, DPIX: po.Truth.FileDPIX, DPIY: po.Truth.FileDPIY, Bilevel: true}
+		}
+		b, err := WriteTIFF(tp)
 		return "case.tif", b, err
 	}
 	switch c.Condition {
