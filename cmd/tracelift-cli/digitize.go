@@ -124,11 +124,12 @@ func (c *commonFlags) checkNumbers() error {
 			return fmt.Errorf("%s %v: give a value between %g and %g %s, or leave it out", r.name, r.v, r.lo, r.hi, r.unit)
 		}
 	}
-	if !(c.maxMP > 0 && c.maxMP <= 1e5) {
-		return fmt.Errorf("--max-megapixels %v: give a positive number (at most 100000)", c.maxMP)
+	// Limits under one pixel or one byte would be read as no limit.
+	if !(c.maxMP >= 1e-6 && c.maxMP <= 1e5) {
+		return fmt.Errorf("--max-megapixels %v: give a number from 0.000001 to 100000", c.maxMP)
 	}
-	if !(c.maxMB > 0 && c.maxMB <= 1e6) {
-		return fmt.Errorf("--max-megabytes %v: give a positive number (at most 1000000)", c.maxMB)
+	if !(c.maxMB >= 1e-6 && c.maxMB <= 1e6) {
+		return fmt.Errorf("--max-megabytes %v: give a number from 0.000001 to 1000000", c.maxMB)
 	}
 	if err := digitize.CheckOptions(c.options().Digitize); err != nil {
 		return fmt.Errorf("--layout/--order: %w", err)
