@@ -57,6 +57,15 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 			}
 		}
 	}
+	if !found && !opt.ForceUser {
+		// A photographed sheet seen at a steep slant (a strip on a table):
+		// its grid's period runs from fine to coarse across the picture
+		// and no tile agrees with the next. Flattened by the sheet's
+		// outline, the lines run evenly and the grid is measured there.
+		if g, ok := sheetGrid(wk); ok {
+			gm, found = g, true
+		}
+	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -91,6 +100,72 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 		dbgGrid("no grid: theta %.3f° coherence %.2f", theta*180/math.Pi, coh)
 	}
 	return withoutGrid(ctx, pg, wk, theta, opt)
+}
+
+// sheetGrid finds the grid on the work image flattened by the sheet's
+// outline; the model returned maps mm to work px like any other.
+func sheetGrid(wk *work) (gridModel, bool) {
+	q, ok := sheetQuad(wk)
+	if !ok {
+		return gridModel{}, false
+	}
+	M, W, H, ok := sheetFrame(q, wk)
+	if !ok {
+		return gridModel{}, false
+	}
+	dmin, err1 := warpPlane(wk.dmin, wk.w, wk.h, M, W, H)
+	dmax, err2 := warpPlane(wk.dmax, wk.w, wk.h, M, W, H)
+	if err1 != nil || err2 != nil {
+		return gridModel{}, false
+	}
+	flat := &work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}
+	g, ok := measureGrid(flat, 0)
+	if dbgGrid != nil {
+		dbgGrid("sheet grid: %d×%d flat, grid found %v, rms %.3f mm on %d tiles", W, H, ok, g.rmsMM, g.tiles)
+	}
+	if !ok {
+		return gridModel{}, false
+	}
+	g.H = M.mul(g.H)
+	g.perspTerms = math.Hypot(g.H[6]*(g.X1-g.X0), g.H[7]*(g.Y1-g.Y0))
+	g.sheet = &q
+	return g, true
+}
+
+// clearOffSheet blanks the ink outside the sheet's outline, brought in by
+// margin px: the edge between a sheet and the table behind it is a long
+// straight line that reads as a trace. q is in the ink map's own px.
+func clearOffSheet(ink *image.Gray, q [4][2]float64, margin float64) {
+	sign := 1.0
+	if quadArea(q) < 0 {
+		sign = -1
+	}
+	type edge struct{ nx, ny, c float64 } // inside where nx·x + ny·y + c ≥ 0
+	var es [4]edge
+	for i := range q {
+		a, b := q[i], q[(i+1)%4]
+		dx, dy := b[0]-a[0], b[1]-a[1]
+		l := math.Hypot(dx, dy)
+		if l == 0 {
+			return
+		}
+		// Clockwise on the picture (y down): the inside lies to the right
+		// of each edge, at (−dy, dx).
+		nx, ny := -dy/l*sign, dx/l*sign
+		es[i] = edge{nx, ny, -(nx*a[0] + ny*a[1]) - margin}
+	}
+	b := ink.Bounds()
+	for y := b.Min.Y; y < b.Max.Y; y++ {
+		row := ink.Pix[(y-b.Min.Y)*ink.Stride:]
+		for x := b.Min.X; x < b.Max.X; x++ {
+			for _, e := range es {
+				if e.nx*float64(x)+e.ny*float64(y)+e.c < 0 {
+					row[x-b.Min.X] = 0
+					break
+				}
+			}
+		}
+	}
 }
 
 // secondPass measures the grid again on the work image resampled through
@@ -236,6 +311,16 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	}
 	// Grid lines in the rectified frame lie at whole mm (extent snapped).
 	ink, paperBox := inkMap(rect, gridLines{known: true, s: s})
+	if gm.sheet != nil {
+		if Mi, ok := M.inv(); ok {
+			var qr [4][2]float64
+			for i, c := range gm.sheet {
+				fx, fy := full.apply(c[0], c[1])
+				qr[i][0], qr[i][1] = Mi.apply(fx, fy)
+			}
+			clearOffSheet(ink, qr, 1.5*s)
+		}
+	}
 	ink0 := ink
 	// The turn is judged well inside the measured grid: a photographed
 	// sheet's edges are long straight lines in the ink map that read as

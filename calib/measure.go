@@ -18,6 +18,10 @@ type gridModel struct {
 	conf       float64
 	perspTerms float64 // |h31|,|h32| scaled to the page size: 0 for a flat scan
 	scaleErr   float64 // how far the model's local scale lies from the tiles' own (relative, worse axis)
+	// sheet is the photographed sheet's outline (work px, corners in
+	// order) when the grid was measured on the sheet flattened by it;
+	// nothing outside it is ink.
+	sheet *[4][2]float64
 }
 
 // scaleAgreement compares the model's scale with the one each tile reads
@@ -65,8 +69,11 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	if min(wk.w, wk.h) < 2*64 {
 		return gridModel{}, false
 	}
-	if min(wk.w, wk.h) < 2*ts {
-		ts = min(wk.w, wk.h) / 2
+	if min(wk.w, wk.h) < 4*ts {
+		// A strip: at least four rows of tiles across it, so the lines
+		// along it are seen at several places across (one row cannot tell
+		// the scale across from an offset).
+		ts = max(min(wk.w, wk.h)/4, 64)
 	}
 	// First with the ink left out; a black grid (fax, photocopy) is as
 	// dark as the ink, so a second try keeps every pixel.
@@ -247,8 +254,18 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 			default:
 				continue
 			}
-			for _, ax := range []struct{ unit, nValid, nImage float64 }{{uu, nu, eu}, {uv, nv, ev}} {
-				if ax.unit == 1 && ax.nImage < 60 {
+			for i, ax := range []struct{ unit, nValid, nImage float64 }{{uu, nu, eu}, {uv, nv, ev}} {
+				// Fewer than 60 periods across the picture are too few
+				// for 1 mm lines, unless the other axis knows its unit
+				// (its 5 mm lines seen with their harmonics, or 1 mm
+				// lines seen beneath them) and reads the same scale: a
+				// strip of paper is only 40–60 mm tall.
+				other := av
+				if i == 1 {
+					other = au
+				}
+				anchored := r < 1.25 && (other.m == 5 || other.oneMM)
+				if ax.unit == 1 && ax.nImage < 60 && !(anchored && ax.nImage >= 30) {
 					sc += 10
 				}
 				if ax.unit == 5 && ax.nValid > 100 {

@@ -2,6 +2,7 @@ package calib
 
 import (
 	"context"
+	"image"
 	"math"
 	"math/rand"
 	"testing"
@@ -110,6 +111,29 @@ func TestSnapPaper(t *testing.T) {
 		w, h, ok := snapPaper(c.w, c.h)
 		if ok != c.ok || (ok && (w != c.ww || h != c.wh)) {
 			t.Errorf("snapPaper(%v, %v) = %v, %v, %v; want %v, %v, %v", c.w, c.h, w, h, ok, c.ww, c.wh, c.ok)
+		}
+	}
+}
+
+// TestClearOffSheet: ink outside a sheet's outline, brought in by the
+// margin, is blanked whichever way the corners run; inside it is kept.
+func TestClearOffSheet(t *testing.T) {
+	for _, q := range [][4][2]float64{
+		{{10, 10}, {90, 10}, {90, 90}, {10, 90}}, // clockwise on the picture
+		{{10, 10}, {10, 90}, {90, 90}, {90, 10}}, // the other way round
+	} {
+		ink := image.NewGray(image.Rect(0, 0, 100, 100))
+		for i := range ink.Pix {
+			ink.Pix[i] = 255
+		}
+		clearOffSheet(ink, q, 5)
+		for _, c := range []struct {
+			x, y int
+			want uint8
+		}{{50, 50, 255}, {16, 50, 255}, {12, 50, 0}, {95, 50, 0}, {50, 3, 0}, {50, 87, 0}, {50, 84, 255}} {
+			if got := ink.GrayAt(c.x, c.y).Y; got != c.want {
+				t.Errorf("corners %v: (%d,%d) = %d, want %d", q, c.x, c.y, got, c.want)
+			}
 		}
 	}
 }
