@@ -9,6 +9,7 @@ import (
 	"errors"
 	"fmt"
 	"image"
+	"image/color"
 	"image/draw"
 	"image/jpeg"
 	"image/png"
@@ -133,7 +134,11 @@ func Decode(data []byte, name string, opt LoadOptions) (*Page, error) {
 
 // checkSize rejects a header size over the pixel budget before anything is
 // allocated (a decompression bomb declares its size honestly in the header).
-func checkSize(name string, w, h int, opt LoadOptions) error {
+// bpp is the bytes per pixel of the image the decoder will allocate (8 for
+// 16-bit RGBA, 1 for 8-bit grey); the decoded bytes must stay within the
+// memory budget, which is the pixel budget at 4 bytes a pixel (an 8-bit
+// RGBA page of the largest size allowed). bpp <= 0 counts as 4.
+func checkSize(name string, w, h, bpp int, opt LoadOptions) error {
 	if w <= 0 || h <= 0 {
 		return fmt.Errorf("calib: %s declares an empty %d×%d image: %w", name, w, h, ErrFormat)
 	}
@@ -141,7 +146,31 @@ func checkSize(name string, w, h int, opt LoadOptions) error {
 		return fmt.Errorf("calib: %s is %d×%d pixels, over the budget of %d; scan at a lower resolution (300 dpi is plenty) or raise the limit: %w",
 			name, w, h, opt.maxPixels(), ErrTooBig)
 	}
+	if bpp <= 0 {
+		bpp = 4
+	}
+	if need, budget := int64(w)*int64(h)*int64(bpp), opt.maxPixels()*4; need > budget {
+		return fmt.Errorf("calib: %s is %d×%d pixels at %d bytes a pixel, %d MB once decoded, over the memory budget of %d MB; save it with 8 bits per channel or at a lower resolution (300 dpi is plenty): %w",
+			name, w, h, bpp, need>>20, budget>>20, ErrTooBig)
+	}
 	return nil
+}
+
+// modelBytes is the bytes per pixel the standard decoders allocate for a
+// colour model (image/png picks the image type from the colour model).
+func modelBytes(m color.Model) int {
+	switch m {
+	case color.GrayModel, color.AlphaModel:
+		return 1
+	case color.Gray16Model, color.Alpha16Model:
+		return 2
+	case color.RGBA64Model, color.NRGBA64Model:
+		return 8
+	}
+	if _, ok := m.(color.Palette); ok {
+		return 1
+	}
+	return 4
 }
 
 func pageOnly(name string, opt LoadOptions) error {
@@ -159,7 +188,7 @@ func decodePNG(data []byte, name string, opt LoadOptions, pg *Page) error {
 	if err != nil {
 		return fmt.Errorf("calib: %s: damaged PNG (%v): %w", name, err, ErrFormat)
 	}
-	if err := checkSize(name, cfg.Width, cfg.Height, opt); err != nil {
+	if err := checkSize(name, cfg.Width, cfg.Height, modelBytes(cfg.ColorModel), opt); err != nil {
 		return err
 	}
 	img, err := png.Decode(bytes.NewReader(data))
@@ -209,7 +238,9 @@ func decodeJPEG(data []byte, name string, opt LoadOptions, pg *Page) error {
 	if err != nil {
 		return fmt.Errorf("calib: %s: damaged JPEG (%v): %w", name, err, ErrFormat)
 	}
-	if err := checkSize(name, cfg.Width, cfg.Height, opt); err != nil {
+	// JPEG is 8 bits a sample: grey decodes to 1 byte a pixel, colour to
+	// YCbCr (3 bytes) or CMYK (4); count 4 for colour.
+	if err := checkSize(name, cfg.Width, cfg.Height, modelBytes(cfg.ColorModel), opt); err != nil {
 		return err
 	}
 	img, err := jpeg.Decode(bytes.NewReader(data))
@@ -421,6 +452,36 @@ func (e ifdEntry) val(_ []byte, bo binary.ByteOrder) uint32 {
 	return 0
 }
 
+// first returns the first SHORT or LONG value, also when the values do not
+// fit in the entry and it holds their offset (BitsPerSample of RGB).
+func (e ifdEntry) first(t []byte, bo binary.ByteOrder) uint32 {
+	size := map[uint16]uint32{3: 2, 4: 4}[e.typ]
+	if size == 0 || e.count*size <= 4 {
+		return e.val(t, bo)
+	}
+	off := int64(bo.Uint32(e.raw[:]))
+	if off < 0 || off+int64(size) > int64(len(t)) {
+		return 0
+	}
+	if size == 2 {
+		return uint32(bo.Uint16(t[off:]))
+	}
+	return bo.Uint32(t[off:])
+}
+
+// tiffBytes is the bytes per pixel x/image/tiff allocates: grey or
+// palette 1 (2 at 16 bits), colour RGBA 4 (RGBA64 8 at 16 bits).
+func tiffBytes(bits, spp uint32) int {
+	per := 1
+	if bits > 8 {
+		per = 2
+	}
+	if spp >= 3 {
+		return 4 * per
+	}
+	return per
+}
+
 func (e ifdEntry) rational(t []byte, bo binary.ByteOrder) float64 {
 	if e.typ != 5 {
 		return 0
@@ -506,6 +567,7 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 	}
 	ents, _ := readIFD(data, bo, offs[opt.Page])
 	var w, h uint32
+	bits, spp := uint32(1), uint32(1) // TIFF 6.0 defaults
 	var xres, yres float64
 	unit, unitGiven := uint32(tiffResUnitInch), false // TIFF 6.0: inch unless stated
 	for _, e := range ents {
@@ -514,6 +576,10 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 			w = e.val(data, bo)
 		case 257:
 			h = e.val(data, bo)
+		case 258:
+			bits = e.first(data, bo)
+		case 277:
+			spp = e.val(data, bo)
 		case 282:
 			xres = e.rational(data, bo)
 		case 283:
@@ -523,7 +589,7 @@ func decodeTIFF(data []byte, name string, opt LoadOptions, pg *Page) error {
 		}
 	}
 	pg.Stated, pg.DPIX, pg.DPIY = tiffResolution(xres, yres, unit, unitGiven)
-	if err := checkSize(name, int(w), int(h), opt); err != nil {
+	if err := checkSize(name, int(w), int(h), tiffBytes(bits, spp), opt); err != nil {
 		return err
 	}
 	ov := &headerOverlay{data: data}

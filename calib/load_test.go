@@ -14,6 +14,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"golang.org/x/image/tiff"
@@ -396,3 +397,66 @@ func FuzzDecode(f *testing.F) {
 }
 
 func crc32IEEE(b []byte) uint32 { return crc32.ChecksumIEEE(b) }
+
+// pngHeader writes a PNG of IHDR, one small IDAT and IEND only (PNG spec
+// 5.2 signature, 11.2.2 IHDR: width, height, bit depth, colour type,
+// compression, filter, interlace), so a huge declared size costs nothing.
+func pngHeader(w, h uint32, depth, colourType byte) []byte {
+	chunk := func(typ string, body []byte) []byte {
+		c := make([]byte, 8+len(body)+4)
+		binary.BigEndian.PutUint32(c, uint32(len(body)))
+		copy(c[4:], typ)
+		copy(c[8:], body)
+		binary.BigEndian.PutUint32(c[8+len(body):], crc32IEEE(c[4:8+len(body)]))
+		return c
+	}
+	ihdr := make([]byte, 13)
+	binary.BigEndian.PutUint32(ihdr, w)
+	binary.BigEndian.PutUint32(ihdr[4:], h)
+	ihdr[8], ihdr[9] = depth, colourType
+	out := []byte("\x89PNG\r\n\x1a\n")
+	out = append(out, chunk("IHDR", ihdr)...)
+	// An empty zlib stream (RFC 1950 header 78 9c, a final stored block of
+	// length 0, Adler-32 of nothing = 1).
+	out = append(out, chunk("IDAT", []byte{0x78, 0x9c, 0x01, 0x00, 0x00, 0xff, 0xff, 0, 0, 0, 1})...)
+	return append(out, chunk("IEND", nil)...)
+}
+
+// A 14000×14000 PNG at 16 bits a channel, RGBA (colour type 6), is under the
+// pixel budget (196e6 < 200e6) but would take 14000·14000·8 bytes ≈ 1.5 GB
+// as image.NRGBA64: it is refused from the header, before decoding. The same
+// size at 8-bit grey (196 MB) stays within the budget.
+func TestDecodeDeepPNGRefused(t *testing.T) {
+	data := pngHeader(14000, 14000, 16, 6)
+	cfg, err := png.DecodeConfig(bytes.NewReader(data))
+	if err != nil {
+		t.Fatalf("test header does not parse: %v", err)
+	}
+	if cfg.ColorModel != color.NRGBA64Model {
+		t.Fatalf("test header decodes as %T, want NRGBA64", cfg.ColorModel)
+	}
+	_, err = Decode(data, "deep.png", LoadOptions{})
+	if !errors.Is(err, ErrTooBig) {
+		t.Fatalf("got %v, want ErrTooBig", err)
+	}
+	for _, want := range []string{"deep.png", "14000×14000", "8 bytes a pixel", "8 bits per channel"} {
+		if !strings.Contains(err.Error(), want) {
+			t.Errorf("message %q lacks %q", err, want)
+		}
+	}
+	grey, err := png.DecodeConfig(bytes.NewReader(pngHeader(14000, 14000, 8, 0)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := checkSize("grey.png", grey.Width, grey.Height, modelBytes(grey.ColorModel), LoadOptions{}); err != nil {
+		t.Errorf("8-bit grey of the same size refused: %v", err)
+	}
+	// TIFF: 16 bits a sample, 3 samples (TIFF 6.0 tags 258, 277) decodes to
+	// RGBA64 in x/image/tiff, 8 bytes a pixel; 8-bit grey to 1.
+	if got := tiffBytes(16, 3); got != 8 {
+		t.Errorf("tiffBytes(16,3) = %d, want 8", got)
+	}
+	if got := tiffBytes(8, 1); got != 1 {
+		t.Errorf("tiffBytes(8,1) = %d, want 1", got)
+	}
+}

@@ -151,7 +151,7 @@ func decodePDF(data []byte, name string, opt LoadOptions, pg *Page) error {
 		dpi = pdfResolution(wpt, hpt)
 	}
 	wpx, hpx := int(wpt/72*float64(dpi)+1), int(hpt/72*float64(dpi)+1)
-	if err := checkSize(name, wpx, hpx, opt); err != nil {
+	if err := checkSize(name, wpx, hpx, 4, opt); err != nil {
 		return err
 	}
 	out := filepath.Join(dir, "page")

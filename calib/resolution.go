@@ -99,7 +99,7 @@ func squarePixels(pg *Page, name string, opt LoadOptions) error {
 	} else {
 		nw = int(math.Round(float64(w) / ratio))
 	}
-	if err := checkSize(name, nw, nh, opt); err != nil {
+	if err := checkSize(name, nw, nh, 4, opt); err != nil {
 		return err
 	}
 	pg.Image = stretch(pg.Image, nw, nh)
