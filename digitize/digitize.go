@@ -300,6 +300,22 @@ func fitRows(rows []rowInfo, n int) []rowInfo {
 	if len(rows) < n {
 		return nil
 	}
+	// Rows that span (nearly) the whole trace width are lead rows; a
+	// rhythm strip sits below them (common practice), so of those the top
+	// n are kept. Only when too few rows are that wide, the n longest.
+	long := 0.0
+	for _, r := range rows {
+		long = math.Max(long, float64(r.x1-r.x0))
+	}
+	var full []rowInfo
+	for _, r := range rows {
+		if float64(r.x1-r.x0) >= 0.9*long {
+			full = append(full, r)
+		}
+	}
+	if len(full) >= n {
+		return append([]rowInfo(nil), full[:n]...)
+	}
 	// Keep the n rows whose spans are longest.
 	idx := make([]int, len(rows))
 	for i := range idx {

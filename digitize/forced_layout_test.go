@@ -2,6 +2,7 @@ package digitize
 
 import (
 	"context"
+	"math"
 	"errors"
 	"strings"
 	"testing"
@@ -62,5 +63,48 @@ func TestForcedLayoutMisfitWords(t *testing.T) {
 	}
 	if !strings.Contains(msg, "4 rows") || !strings.Contains(msg, "6x2 has 6") {
 		t.Errorf("%q does not name the 4 rows found and the 6 of 6x2", msg)
+	}
+}
+
+// TestFitRowsKeepsLeadRowsAboveTheStrip: a 3x4+1 page forced to 3x4 (three
+// rows, record.Layout) keeps the three lead rows and drops the rhythm strip
+// below them (common practice: the strip is printed under the 3x4 grid),
+// even when the strip's ink runs a pixel longer than the first row's, as
+// on the clean demo page, where the longest-first rule dropped row one and
+// named every row after the one below it.
+func TestFitRowsKeepsLeadRowsAboveTheStrip(t *testing.T) {
+	rows := []rowInfo{{base: 500, x0: 272, x1: 3224}, {base: 1050, x0: 272, x1: 3225}, {base: 1590, x0: 273, x1: 3225}, {base: 2130, x0: 272, x1: 3226}}
+	got := fitRows(rows, 3)
+	if len(got) != 3 || got[0].base != 500 || got[2].base != 1590 {
+		t.Fatalf("kept %+v, want the three rows above the strip", got)
+	}
+	// A short row (a text line, a half-width strip) still gives way.
+	rows[0].x1 = 1500
+	got = fitRows(rows, 3)
+	if len(got) != 3 || got[0].base != 1050 {
+		t.Fatalf("kept %+v, want the short row dropped", got)
+	}
+}
+
+// TestForced3x4OnStripPageKeepsLeads forces 3x4 on a rendered 3x4+1 page:
+// each lead's box must lie on the same row as in the page's own reading.
+func TestForced3x4OnStripPageKeepsLeads(t *testing.T) {
+	st := samples.DefaultStyle()
+	st.Layout = samples.Layout3x4R1
+	p := render(t, dipoleRecord(3), st)
+	auto := runOn(t, truthCal(p), Options{})
+	forced := runOn(t, truthCal(p), Options{Layout: "3x4"})
+	at := map[string]float64{}
+	for _, pn := range auto.Panels {
+		if !pn.Rhythm {
+			at[pn.Lead] = (pn.Box[1] + pn.Box[3]) / 2
+		}
+	}
+	for _, pn := range forced.Panels {
+		y, ok := at[pn.Lead]
+		c := (pn.Box[1] + pn.Box[3]) / 2
+		if !ok || math.Abs(c-y) > (pn.Box[3]-pn.Box[1])/4 {
+			t.Errorf("%s forced at y %.0f, read at %.0f", pn.Lead, c, y)
+		}
 	}
 }
