@@ -97,6 +97,20 @@ var (
 	ErrLayout  = errors.New("digitize: the rows found do not match the layout; give the layout by hand")
 )
 
+// forcedLayoutError is ErrLayout for a layout the user chose: it names the
+// rows the page shows and the rows the chosen layout needs, and does not ask
+// for the layout by hand, since that is what was given.
+type forcedLayoutError struct {
+	layout      string
+	found, want int
+}
+
+func (e forcedLayoutError) Error() string {
+	return fmt.Sprintf("digitize: the page shows %d rows of traces, the chosen layout %s has %d", e.found, e.layout, e.want)
+}
+
+func (e forcedLayoutError) Unwrap() error { return ErrLayout }
+
 // Run finds the layout, traces every panel and assembles the signals.
 //
 // Run may correct cal in place, and then says so in cal.Warnings: when
@@ -181,11 +195,14 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if opt.Layout != "" && layoutRows(opt.Layout) != len(rows) {
 		rows = fitRows(rows, layoutRows(opt.Layout))
 		if rows == nil {
-			return nil, fmt.Errorf("%w (found %d rows, %s has %d)", ErrLayout, len(findRows(g, p, cal.GainMMPerMV)), opt.Layout, layoutRows(opt.Layout))
+			return nil, forcedLayoutError{layout: opt.Layout, found: len(findRows(g, p, cal.GainMMPerMV)), want: layoutRows(opt.Layout)}
 		}
 	}
 	hyps := candidates(len(rows), opt)
 	if len(hyps) == 0 {
+		if opt.Layout != "" {
+			return nil, forcedLayoutError{layout: opt.Layout, found: len(rows), want: layoutRows(opt.Layout)}
+		}
 		return nil, fmt.Errorf("%w (found %d rows)", ErrLayout, len(rows))
 	}
 	pg := newPage(g, rows, cal)
@@ -282,6 +299,22 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 func fitRows(rows []rowInfo, n int) []rowInfo {
 	if len(rows) < n {
 		return nil
+	}
+	// Rows that span (nearly) the whole trace width are lead rows; a
+	// rhythm strip sits below them (common practice), so of those the top
+	// n are kept. Only when too few rows are that wide, the n longest.
+	long := 0.0
+	for _, r := range rows {
+		long = math.Max(long, float64(r.x1-r.x0))
+	}
+	var full []rowInfo
+	for _, r := range rows {
+		if float64(r.x1-r.x0) >= 0.9*long {
+			full = append(full, r)
+		}
+	}
+	if len(full) >= n {
+		return append([]rowInfo(nil), full[:n]...)
 	}
 	// Keep the n rows whose spans are longest.
 	idx := make([]int, len(rows))
