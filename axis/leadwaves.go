@@ -43,17 +43,7 @@ func (m *measurer) waveAmps(x []float64, fd fid) LeadMeasure {
 		lm.R, lm.Q, lm.S = 0, Num(math.Min(0, mn)), 0
 	} else {
 		lm.R = Num(rv)
-		qv, sv := 0.0, 0.0
-		for k := on; k < ri; k++ {
-			if v := x[k] - base; v < qv {
-				qv = v
-			}
-		}
-		for k := ri + 1; k <= off; k++ {
-			if v := x[k] - base; v < sv {
-				sv = v
-			}
-		}
+		qv, sv := QSAround(x, on, ri, off, base)
 		lm.Q, lm.S = Num(qv), Num(sv)
 	}
 	if j := int(math.Round(fd.off + 0.060*tplHz)); j < len(x) && !math.IsNaN(x[j]) {
@@ -92,6 +82,23 @@ func (m *measurer) waveAmps(x []float64, fd fid) LeadMeasure {
 		lm.PArea, lm.P = Num(pa), Num(pv)
 	}
 	return lm
+}
+
+// QSAround returns Q and S of a QRS complex on [on, off] whose R peak is
+// at ri: the deepest dip below base before ri and after it (0 where the
+// trace does not dip). Samples that are NaN are passed over.
+func QSAround(x []float64, on, ri, off int, base float64) (q, s float64) {
+	for k := on; k < ri; k++ {
+		if v := x[k] - base; v < q {
+			q = v
+		}
+	}
+	for k := ri + 1; k <= off; k++ {
+		if v := x[k] - base; v < s {
+			s = v
+		}
+	}
+	return q, s
 }
 
 // netQRS returns a beat's net QRS area with the global fiducials.

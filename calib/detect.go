@@ -113,22 +113,32 @@ func sheetGrid(wk *work) (gridModel, bool) {
 	if !ok {
 		return gridModel{}, false
 	}
-	dmin, err1 := warpPlane(wk.dmin, wk.w, wk.h, M, W, H)
-	dmax, err2 := warpPlane(wk.dmax, wk.w, wk.h, M, W, H)
-	if err1 != nil || err2 != nil {
-		return gridModel{}, false
-	}
-	flat := &work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}
-	g, ok := measureGrid(flat, 0)
+	g, ok := measureFlat(wk, M, W, H)
 	if dbgGrid != nil {
 		dbgGrid("sheet grid: %d×%d flat, grid found %v, rms %.3f mm on %d tiles", W, H, ok, g.rmsMM, g.tiles)
 	}
 	if !ok {
 		return gridModel{}, false
 	}
+	g.sheet = &q
+	return g, true
+}
+
+// measureFlat measures the grid on the work image resampled through M
+// (flat px → work px) at W×H and returns the model composed with M, so
+// that it maps mm to work px.
+func measureFlat(wk *work, M mat3, W, H int) (gridModel, bool) {
+	dmin, err1 := warpPlane(wk.dmin, wk.w, wk.h, M, W, H)
+	dmax, err2 := warpPlane(wk.dmax, wk.w, wk.h, M, W, H)
+	if err1 != nil || err2 != nil {
+		return gridModel{}, false
+	}
+	g, ok := measureGrid(&work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}, 0)
+	if !ok {
+		return g, false
+	}
 	g.H = M.mul(g.H)
 	g.perspTerms = math.Hypot(g.H[6]*(g.X1-g.X0), g.H[7]*(g.Y1-g.Y0))
-	g.sheet = &q
 	return g, true
 }
 
@@ -187,17 +197,10 @@ func secondPass(wk *work, gm gridModel) gridModel {
 // M (flat px → work px), where the grid's lines should run straight, and
 // keeps that model when it fits better than gm and confirms its scale.
 func remeasure(wk *work, gm gridModel, M mat3, W, H int) gridModel {
-	dmin, err1 := warpPlane(wk.dmin, wk.w, wk.h, M, W, H)
-	dmax, err2 := warpPlane(wk.dmax, wk.w, wk.h, M, W, H)
-	if err1 != nil || err2 != nil {
-		return gm
-	}
-	flat := &work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}
-	g2, ok := measureGrid(flat, 0)
+	g2, ok := measureFlat(wk, M, W, H)
 	if !ok || g2.quality() <= gm.quality() {
 		return gm
 	}
-	g2.H = M.mul(g2.H)
 	// The flattened frame must confirm the first scale (a 1 mm / 5 mm mix-up
 	// fits as well as the truth).
 	fx, fy := jacobian(g2.H, (g2.X0+g2.X1)/2, (g2.Y0+g2.Y1)/2)
@@ -217,7 +220,6 @@ func remeasure(wk *work, gm gridModel, M mat3, W, H int) gridModel {
 	if !agree(rx) || !agree(ry) {
 		return gm
 	}
-	g2.perspTerms = math.Hypot(g2.H[6]*(g2.X1-g2.X0), g2.H[7]*(g2.Y1-g2.Y0))
 	return g2
 }
 

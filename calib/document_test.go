@@ -11,8 +11,6 @@ import (
 	"strings"
 	"testing"
 
-	"tracelift/record"
-	"tracelift/record/wfdb"
 	"tracelift/samples"
 )
 
@@ -20,16 +18,12 @@ import (
 // as a 3x4+1 printout at dpi.
 func ptbPage(t testing.TB, dpi float64, style ...func(*samples.Style)) *samples.Printout {
 	t.Helper()
-	rec, err := wfdb.ReadRecord("../../shared/data/ptb-s0010_re/s0010_re.hea")
-	if err != nil {
-		t.Fatal(err)
-	}
 	st := samples.DefaultStyle()
 	st.DPI = dpi
 	for _, f := range style {
 		f(&st)
 	}
-	p, err := samples.Render(rec.Window(record.Standard12, 500, 2, 10), st)
+	p, err := samples.RenderRecordFile("../../shared/data/ptb-s0010_re/s0010_re.hea", 2, 10, st)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -98,17 +98,7 @@ func measureWaves(x []float64, fd beatFid) waveSet {
 		w.q = math.Min(0, mn)
 	} else {
 		w.r = rv
-		qv, sv := 0.0, 0.0
-		for k := on; k < ri; k++ {
-			if v := x[k] - base; v < qv {
-				qv = v
-			}
-		}
-		for k := ri + 1; k <= off; k++ {
-			if v := x[k] - base; v < sv {
-				sv = v
-			}
-		}
+		qv, sv := axis.QSAround(x, on, ri, off, base)
 		w.q, w.s = qv, sv
 		if rv >= qsR {
 			end = ri

@@ -15,7 +15,6 @@ import (
 
 	"tracelift/calib"
 	"tracelift/record"
-	"tracelift/record/wfdb"
 	"tracelift/samples"
 )
 
@@ -23,13 +22,9 @@ import (
 // as a 3x4+1 printout at dpi.
 func ptbPrintout(t *testing.T, dpi float64) *samples.Printout {
 	t.Helper()
-	rec, err := wfdb.ReadRecord("../../shared/data/ptb-s0010_re/s0010_re.hea")
-	if err != nil {
-		t.Fatal(err)
-	}
 	st := samples.DefaultStyle()
 	st.DPI = dpi
-	p, err := samples.Render(rec.Window(record.Standard12, 500, 2, 10), st)
+	p, err := samples.RenderRecordFile("../../shared/data/ptb-s0010_re/s0010_re.hea", 2, 10, st)
 	if err != nil {
 		t.Fatal(err)
 	}
