@@ -174,6 +174,14 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 			return nil, ErrNoTrace
 		}
 	}
+	// A page of printed text has rows too, and its even lines and letters
+	// can pass for a faint grid: unless the user gave the scale or a
+	// calibration pulse was read, the rows must look like traces, and
+	// without a grid they must be no more than a layout draws.
+	if cal.Source != "user" && cal.Source != "pulse" && (textOnly(g, rows, p) ||
+		(cal.Source != "grid" && len(rows) > maxLayoutRows)) {
+		return nil, fmt.Errorf("digitize: no ECG found: the lines across the page are broken like printed text, not drawn as traces; check that the file shows an ECG printout: %w", calib.ErrNotECG)
+	}
 	if opt.Layout == "" {
 		rows = trimRows(rows)
 		rows = dropTextRows(g, rows, rowPitch(rows, g, p))

@@ -2,8 +2,8 @@ package digitize
 
 import (
 	"context"
-	"math"
 	"errors"
+	"math"
 	"strings"
 	"testing"
 

@@ -558,3 +558,108 @@ func dropTextRows(g *gray, rows []rowInfo, pitch float64) []rowInfo {
 	}
 	return rows
 }
+
+// Text against traces. A trace is the graph of a function drawn with one
+// pen: along the paper it runs as one line, unbroken over millimetres (a
+// fax's drop-outs break it every 5–10 mm at worst), and a column crosses
+// it once. A line of printed text is a row of letters: its strokes are a
+// few tenths of a millimetre to two millimetres wide, and a column through
+// an e, an o or an s crosses two or three strokes. traceScore weighs the
+// two: the share of the row's inked columns covered by a line at least
+// 3 mm long (two pixels of step allowed per column, for a noisy pen) less
+// half the share of inked columns crossed more than once (crossings closer
+// than 0.15 mm count as one: a ragged line). See traceRowMin for what it
+// gives.
+func traceScore(g *gray, r rowInfo, pitch, pxPerMM float64) float64 {
+	ya, yb := max(0, int(r.base-0.45*pitch)), min(g.h, int(r.base+0.45*pitch)+1)
+	x0, x1 := max(0, r.x0), min(g.w, r.x1)
+	if x1-x0 < 8 || yb-ya < 3 {
+		return 0
+	}
+	w, hb := x1-x0, yb-ya
+	on := func(x, y int) bool { return g.pix[(ya+y)*g.w+x] >= inkOn }
+	const step = 2
+	// run[y] is the length of the longest line of ink ending at (x, y)
+	// that moves at most step pixels up or down per column.
+	run, prev := make([]int, hb), make([]int, hb)
+	covered := make([]int, w+1) // difference array of covered columns
+	minLen := max(4, int(3*pxPerMM))
+	gap := max(1, int(math.Round(0.15*pxPerMM)))
+	inked, multi := 0, 0
+	for x := x0; x < x1; x++ {
+		runs, last := 0, -gap-2
+		for y := 0; y < hb; y++ {
+			if !on(x, y) {
+				run[y] = 0
+				continue
+			}
+			if y-last > gap+1 {
+				runs++
+			}
+			last = y
+			best := 0
+			for d := -step; d <= step; d++ {
+				if yy := y + d; yy >= 0 && yy < hb {
+					best = max(best, prev[yy])
+				}
+			}
+			run[y] = best + 1
+			if run[y] == minLen {
+				covered[x-x0-minLen+1]++
+				covered[x-x0+1]--
+			} else if run[y] > minLen {
+				covered[x-x0]++
+				covered[x-x0+1]--
+			}
+		}
+		if runs > 0 {
+			inked++
+			if runs >= 2 {
+				multi++
+			}
+		}
+		run, prev = prev, run
+	}
+	if inked == 0 {
+		return 0
+	}
+	c, long := 0, 0
+	for x := 0; x < w; x++ {
+		c += covered[x]
+		if c > 0 && colMax(g, x0+x, ya, yb) >= inkOn {
+			long++
+		}
+	}
+	return float64(long)/float64(inked) - 0.5*float64(multi)/float64(inked)
+}
+
+// traceRowMin is the score a row must reach to count as a trace (see
+// traceScore). Measured: the trace rows of bench pages of seed 1 (faxes
+// with drop-outs, speckle and dashed grid lines, photocopies, photos, fax
+// pages after a cover sheet) and of the six outside pages score 0.47 and
+// up, most above 0.7 (the lowest: a noisy fax of PTB s0010_re at 200 dpi
+// with no grid, 0.47–0.60, and a fax whose trace is a dotted hairline,
+// read from its pulse and exempt); rows of printed text (6–16 pt, sans,
+// serif and monospaced, with rules between the lines) and fax cover
+// sheets score −0.5 to 0 in most fonts and 0.44–0.49 in a 16 pt serif,
+// whose feet touch along the line. Pages of many lines of text also have
+// more rows than any layout (maxLayoutRows).
+const traceRowMin = 0.5
+
+// maxLayoutRows is more rows than any layout prints (12x1 and a rhythm
+// strip or three).
+const maxLayoutRows = 16
+
+// textOnly reports a page whose rows of ink are lines of text, not traces:
+// fewer than a third of them (and none on a page of one or two rows) score
+// as a trace.
+func textOnly(g *gray, rows []rowInfo, pxPerMM float64) bool {
+	pitch := rowPitch(rows, g, pxPerMM)
+	traces := 0
+	for _, r := range rows {
+		if traceScore(g, r, pitch, pxPerMM) >= traceRowMin {
+			traces++
+		}
+	}
+	return 3*traces < len(rows) || traces == 0
+}

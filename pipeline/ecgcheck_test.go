@@ -4,13 +4,22 @@ import (
 	"bytes"
 	"context"
 	"errors"
+	"fmt"
 	"image"
 	"image/color"
+	"image/draw"
 	"image/png"
 	"math"
 	"math/rand"
 	"os"
 	"testing"
+
+	xfont "golang.org/x/image/font"
+	"golang.org/x/image/font/gofont/gobold"
+	"golang.org/x/image/font/gofont/gomono"
+	"golang.org/x/image/font/gofont/goregular"
+	"golang.org/x/image/font/opentype"
+	"golang.org/x/image/math/fixed"
 
 	"tracelift/calib"
 	"tracelift/samples"
@@ -105,6 +114,74 @@ func TestECGPagesNotRefused(t *testing.T) {
 		}
 		if err := checkLooksLikeECG(cal, Options{}); err != nil {
 			t.Errorf("%s refused: %v (source %s, confidence %.2f, rotation %.1f°)", p.name, err, cal.Source, cal.Confidence, cal.RotationDeg)
+		}
+	}
+}
+
+// textPage draws lines of printed prose on a white A4 sheet at 300 dpi in
+// one of Go's own faces (golang.org/x/image/font/gofont) at size pt.
+func textPage(t *testing.T, face []byte, pt float64, ruled bool) []byte {
+	t.Helper()
+	f, err := opentype.Parse(face)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fc, err := opentype.NewFace(f, &opentype.FaceOptions{Size: pt, DPI: 300, Hinting: xfont.HintingNone})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fc.Close()
+	const w, h = 2480, 3508
+	m := image.NewGray(image.Rect(0, 0, w, h))
+	draw.Draw(m, m.Bounds(), image.White, image.Point{}, draw.Src)
+	d := &xfont.Drawer{Dst: m, Src: image.Black, Face: fc}
+	lh := int(pt * 300 / 72 * 1.4)
+	for i, y := 0, 250; y < h-250; i, y = i+1, y+lh {
+		d.Dot = fixed.P(180, y)
+		d.DrawString(fmt.Sprintf("%d. The rota for the second week lists the night shifts, the stock of gauze, gloves and paper rolls.", i+1))
+		if ruled {
+			for x := 180; x < w-180; x++ {
+				m.SetGray(x, y+lh/3, color.Gray{0})
+			}
+		}
+	}
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, m); err != nil {
+		t.Fatal(err)
+	}
+	return buf.Bytes()
+}
+
+// A page of printed text has rows of ink but no grid, no pulse and no
+// trace: it fails as "no ECG found" (it used to be read as a 12x1 page
+// with a rate of 177 bpm and a QTc of 777 ms, exit 0).
+func TestTextPageRefused(t *testing.T) {
+	if testing.Short() {
+		t.Skip("reads several pages")
+	}
+	for _, c := range []struct {
+		name  string
+		face  []byte
+		pt    float64
+		ruled bool
+	}{
+		{"sans 11 pt", goregular.TTF, 11, false},
+		{"sans 7 pt", goregular.TTF, 7, false},
+		{"bold 16 pt", gobold.TTF, 16, false},
+		{"mono 10 pt", gomono.TTF, 10, false},
+		{"sans 12 pt on ruled lines", goregular.TTF, 12, true},
+	} {
+		pg, err := calib.Decode(textPage(t, c.face, c.pt, c.ruled), "letter.png", calib.LoadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		o, err := ProcessPage(context.Background(), pg, Options{})
+		if !errors.Is(err, calib.ErrNotECG) {
+			var brief string
+			if o != nil && o.Calib != nil && o.Digitized != nil {
+				brief = o.Brief()
+			}
+			t.Errorf("%s: %v, want a wrapped calib.ErrNotECG\n%s", c.name, err, brief)
 		}
 	}
 }
