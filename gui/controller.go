@@ -297,6 +297,9 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 				c.newFileShown()
 			}
 			msg := fmt.Sprintf("%s: %d panels, layout %s, scale from %s.", name, len(a.Panels), a.Layout, a.ScaleSource)
+			if a.LayoutNote != "" {
+				msg = fmt.Sprintf("%s: %d panels read as %s, but %s.", name, len(a.Panels), a.Layout, a.LayoutNote)
+			}
 			if n := len(corrs); n > 0 {
 				msg += fmt.Sprintf(" %d corrections restored.", n)
 			}

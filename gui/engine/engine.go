@@ -130,11 +130,12 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 		GainMMPerMV: cal.GainMMPerMV, SpeedMMPerS: cal.SpeedMMPerS,
 		ScaleSource: cal.Source, ScaleConf: cal.Confidence,
 		Layout: dr.Layout, Layouts: Layouts,
-		Quality:   map[string]float64{},
-		Raw:       dr.Record,
-		Warnings:  cal.Warnings,
-		PageCount: max(pg.PageCount, 1),
-		Handle:    &state{o: o},
+		Quality:    map[string]float64{},
+		Raw:        dr.Record,
+		Warnings:   cal.Warnings,
+		LayoutNote: dr.Misfit,
+		PageCount:  max(pg.PageCount, 1),
+		Handle:     &state{o: o},
 	}
 	b.mu.Lock()
 	b.last = a.Handle.(*state)

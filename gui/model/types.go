@@ -72,8 +72,11 @@ type Analysis struct {
 	Quality      map[string]float64 // per printed lead, 0..1
 	Raw          *record.Record
 	Warnings     []string
-	PageCount    int // pages in the file (1 for a plain image)
-	Handle       any // backend's own state
+	// LayoutNote says in plain words why the layout given by hand does
+	// not match what the page shows ("" when it does or was found).
+	LayoutNote string
+	PageCount  int // pages in the file (1 for a plain image)
+	Handle     any // backend's own state
 }
 
 // Progress reports the stage being worked on and the fraction done (0..1).
