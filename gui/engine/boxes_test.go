@@ -2,9 +2,12 @@ package engine
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"math"
+	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"sync"
 	"testing"
@@ -185,6 +188,35 @@ func TestDrawnPanelTracesMissingLead(t *testing.T) {
 	}
 	if mentions(reasons(), "11 of the 12") {
 		t.Fatalf("the measurements still miss a lead: %q", reasons())
+	}
+	// Exported as the screen shows it: the drawn panel among the layout's
+	// panels, V3 among the recorded leads (the JSON of DEVELOPERS.md).
+	files, err := b.Export(a, m.ExportJob(dir, "page", []string{"json"}))
+	if err != nil || len(files) != 1 {
+		t.Fatalf("export: %v %v", files, err)
+	}
+	data, err := os.ReadFile(files[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Layout struct {
+			Panels []struct {
+				Lead string     `json:"lead"`
+				Box  [4]float64 `json:"box"`
+			} `json:"panels"`
+		} `json:"layout"`
+		RecordedLeads []string `json:"recorded_leads"`
+	}
+	if err := json.Unmarshal(data, &doc); err != nil {
+		t.Fatal(err)
+	}
+	inPanels := false
+	for _, p := range doc.Layout.Panels {
+		inPanels = inPanels || (p.Lead == "V3" && p.Box == box)
+	}
+	if !inPanels || !slices.Contains(doc.RecordedLeads, "V3") {
+		t.Fatalf("exported panels %+v, leads %v", doc.Layout.Panels, doc.RecordedLeads)
 	}
 	// A second V3 is refused now.
 	if err := m.AddPanel(box, "V3"); !errors.Is(err, model.ErrLeadShown) {

@@ -227,17 +227,14 @@ func (m *Model) AddPanel(box [4]float64, lead string) error {
 	}
 	for _, v := range m.views {
 		if v.Lead == name {
-			return fmt.Errorf("%w: %s has its panel at %.1f–%.1f s; the leads not on the page are %s", ErrLeadShown, name, v.T0S, v.T1S, leadList(m.MissingLeads()))
+			rest := "every standard lead has a panel already"
+			if ls := m.MissingLeads(); len(ls) > 0 {
+				rest = "the leads without one are " + strings.Join(ls, ", ")
+			}
+			return fmt.Errorf("%w: %s has its panel at %.1f–%.1f s; %s", ErrLeadShown, name, v.T0S, v.T1S, rest)
 		}
 	}
 	return m.Edit(record.Correction{Kind: record.CorrDrawnPanel, Lead: sign + name, Box: box[:]})
-}
-
-func leadList(ls []string) string {
-	if len(ls) == 0 {
-		return "none"
-	}
-	return strings.Join(ls, ", ")
 }
 
 // Erased returns the stretches of panel i that an Erase correction made
