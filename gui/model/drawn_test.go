@@ -108,3 +108,16 @@ func TestDrawnPanelNamesAndUndo(t *testing.T) {
 		t.Fatalf("redo all: %+v", v)
 	}
 }
+
+// Cabrera's inverted aVR (common practice on Cabrera printouts) can be
+// drawn by hand as "-aVR": the panel shows aVR turned over.
+func TestDrawnPanelInvertedAVR(t *testing.T) {
+	m := openWithout(t, "aVR", "")
+	if err := m.AddPanel([4]float64{675, 50, 1300, 350}, "−aVR"); err != nil {
+		t.Fatal(err)
+	}
+	v := m.Panels()[len(m.Panels())-1]
+	if v.Lead != "aVR" || v.Sign != -1 || !v.Drawn {
+		t.Fatalf("drawn -aVR: %+v", v)
+	}
+}
