@@ -108,3 +108,44 @@ func TestForced3x4OnStripPageKeepsLeads(t *testing.T) {
 		}
 	}
 }
+
+// TestForcedLayoutMisfitSaysSo forces layouts that do not match a
+// rendered 6x2 page (six rows, limb leads left, record.Layout): 3x4 reads
+// three of the six rows and 3x4+3, which has six rows too, names them
+// after another grid. Both readings go ahead as asked, and both say in
+// plain words (in Misfit and cal.Warnings) that the page shows something
+// else; the page's own layout, forced or found, says nothing.
+func TestForcedLayoutMisfitSaysSo(t *testing.T) {
+	st := samples.DefaultStyle()
+	st.Layout = samples.Layout6x2
+	p := render(t, dipoleRecord(3), st)
+	for _, c := range []struct {
+		layout string
+		words  []string // "" = no note
+	}{
+		{"3x4", []string{"6 rows", "3x4 reads 3", "the other 3 are left out", "named wrongly"}},
+		{"3x4+3", []string{"far better read as 6x2", "named wrongly"}},
+		{"6x2", nil},
+		{"", nil},
+	} {
+		cal := truthCal(p)
+		res, err := Run(context.Background(), cal, Options{Layout: c.layout})
+		if err != nil {
+			t.Fatalf("%q: %v", c.layout, err)
+		}
+		if len(c.words) == 0 {
+			if res.Misfit != "" {
+				t.Errorf("%q on its own page: %q", c.layout, res.Misfit)
+			}
+			continue
+		}
+		for _, w := range c.words {
+			if !strings.Contains(res.Misfit, w) {
+				t.Errorf("forced %s: %q lacks %q", c.layout, res.Misfit, w)
+			}
+		}
+		if strings.Contains(res.Misfit, "digitize") || !strings.Contains(strings.Join(cal.Warnings, "\n"), res.Misfit) {
+			t.Errorf("forced %s: note %q, warnings %q", c.layout, res.Misfit, cal.Warnings)
+		}
+	}
+}

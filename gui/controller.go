@@ -59,6 +59,9 @@ type Controller struct {
 	Ask func(title, msg string, answer func(bool))
 	// AskScale replaces the Scale tool's dialog (tests).
 	AskScale func(a, b [2]float64)
+	// AskLead replaces the dialog that names a panel drawn with the New
+	// panel tool (tests); answer with "" to cancel.
+	AskLead func(box [4]float64, missing []string, answer func(lead string))
 	// Failure replaces the dialog of a reading that failed (tests); retry
 	// reads the file again with the settings given.
 	Failure func(name string, ex engine.Explanation, retry func(model.Settings))
@@ -147,8 +150,9 @@ var toolHelp = []string{
 	"Redraw: draw the trace freehand along the panel; it replaces what is under the stroke.",
 	"Erase: drag across a stretch; it becomes a gap.",
 	"Baseline: drag in a panel up or down to move its zero line.",
-	"Box: drag a panel to move its box; its signal is read again.",
+	"Box: drag a panel to move its box, or a handle on its edge or corner to resize it; its signal is read again.",
 	"Scale: click two grid lines a known distance apart.",
+	"New panel: drag a box around a lead's trace that has no box, then name the lead; it is traced and measured.",
 }
 
 func (c *Controller) setStatus(s string) { c.status.SetText(s) }
@@ -297,6 +301,9 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 				c.newFileShown()
 			}
 			msg := fmt.Sprintf("%s: %d panels, layout %s, scale from %s.", name, len(a.Panels), a.Layout, a.ScaleSource)
+			if a.LayoutNote != "" {
+				msg = fmt.Sprintf("%s: %d panels read as %s, but %s.", name, len(a.Panels), a.Layout, a.LayoutNote)
+			}
 			if n := len(corrs); n > 0 {
 				msg += fmt.Sprintf(" %d corrections restored.", n)
 			}
@@ -443,6 +450,80 @@ func (c *Controller) boxDragged(i int, box [4]float64) {
 				return
 			}
 			c.edited(c.m.MoveBox(i, box))
+		})
+}
+
+// panelDrawn asks which lead the box drawn with the New panel tool holds
+// (the leads not on the page are offered), warns when it covers a panel,
+// and adds it.
+func (c *Controller) panelDrawn(box [4]float64) {
+	if !c.m.Loaded() {
+		return
+	}
+	if a := c.m.Analysis(); box[2]-box[0] < 2*a.PxPerMM || box[3]-box[1] < 2*a.PxPerMM {
+		c.setStatus("New panel: drag a box around the lead's trace, from its first column to its last.")
+		c.view.Refresh()
+		return
+	}
+	missing := c.m.MissingLeads()
+	if len(missing) == 0 {
+		c.setStatus("Every standard lead has its panel already; to name a panel again, use the Reading tab.")
+		c.view.Refresh()
+		return
+	}
+	answer := func(lead string) {
+		if strings.TrimSpace(lead) == "" {
+			c.setStatus("No panel added.")
+			c.view.Refresh()
+			return
+		}
+		c.addPanel(box, lead)
+	}
+	if c.AskLead != nil {
+		c.AskLead(box, missing, answer)
+		return
+	}
+	choice := widget.NewSelectEntry(missing)
+	choice.SetText(missing[0])
+	dialog.ShowForm("New panel", "Add", "Cancel",
+		[]*widget.FormItem{widget.NewFormItem("Lead in the box", choice)},
+		func(ok bool) {
+			if !ok {
+				answer("")
+				return
+			}
+			answer(choice.Text)
+		}, c.win)
+}
+
+// addPanel adds the drawn panel, asking first when it covers a neighbour.
+func (c *Controller) addPanel(box [4]float64, lead string) {
+	add := func() {
+		if err := c.m.AddPanel(box, lead); err != nil {
+			c.setStatus("New panel: " + engine.Plain(err))
+			c.view.Refresh()
+			return
+		}
+		c.edited(nil)
+	}
+	over := c.m.Overlaps(-1, box)
+	if len(over) == 0 {
+		add()
+		return
+	}
+	var names []string
+	for _, o := range over {
+		names = append(names, fmt.Sprintf("%s (%.0f%% of its box)", o.Lead, 100*o.Share))
+	}
+	c.ask("Box over a neighbour",
+		fmt.Sprintf("The box drawn for %s covers %s.\nThe trace there would be read into both leads.\nAdd it anyway?", strings.TrimSpace(lead), strings.Join(names, ", ")),
+		func(yes bool) {
+			if !yes {
+				c.setStatus("No panel added.")
+				c.view.Refresh()
+				return
+			}
+			add()
 		})
 }
 

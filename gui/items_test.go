@@ -297,3 +297,123 @@ func TestSingleLeadNoAxisWheel(t *testing.T) {
 		t.Fatal("the axis wheel is hidden on a 12-lead page")
 	}
 }
+
+// noV3 reads every source without V3's panel (row 3, column 3 of the
+// fake's 3×4 page: x 1300–1925, y 650–950), as if the reader had missed it.
+type noV3 struct{ *fakeBackend }
+
+func (o noV3) Analyze(ctx context.Context, src model.Source, s model.Settings, p model.Progress) (*model.Analysis, error) {
+	a, err := o.fakeBackend.Analyze(ctx, src, s, p)
+	if err != nil {
+		return nil, err
+	}
+	var ps []model.Panel
+	for _, pn := range a.Panels {
+		if pn.Lead != "V3" {
+			ps = append(ps, pn)
+		}
+	}
+	a.Panels = ps
+	var sg []record.Signal
+	for _, sig := range a.Raw.Signals {
+		if sig.Lead != "V3" {
+			sg = append(sg, sig)
+		}
+	}
+	a.Raw.Signals = sg
+	return a, nil
+}
+
+func drag(v *printView, from, to [2]float64) {
+	a, b := screenAt(v, from[0], from[1]), screenAt(v, to[0], to[1])
+	mid := fyne.NewPos((a.X+b.X)/2, (a.Y+b.Y)/2)
+	v.Dragged(&fyne.DragEvent{PointEvent: fyne.PointEvent{Position: mid}, Dragged: fyne.Delta{DX: mid.X - a.X, DY: mid.Y - a.Y}})
+	v.Dragged(&fyne.DragEvent{PointEvent: fyne.PointEvent{Position: b}, Dragged: fyne.Delta{DX: b.X - mid.X, DY: b.Y - mid.Y}})
+	v.DragEnd()
+}
+
+// The New panel tool: a box dragged on the page is offered the leads not
+// on it; a lead already shown is refused with words that say so, the
+// missing one is added as a drawn_panel correction and drawn as such,
+// a box over a neighbour asks first, and undo takes the panel away.
+func TestNewPanelTool(t *testing.T) {
+	a := test.NewTempApp(t)
+	c := NewController(a, noV3{newFake(t)}, model.Source{Name: "demo", Data: []byte{1}})
+	c.win.Resize(fyne.NewSize(1200, 800))
+	c.ShowDemo()
+	c.Wait()
+	m := c.Model()
+	var offered []string
+	name := "V4"
+	c.AskLead = func(box [4]float64, missing []string, answer func(string)) {
+		offered = missing
+		answer(name)
+	}
+	c.toolBar.SetSelected("New panel")
+	v := c.view
+	drag(v, [2]float64{1310, 660}, [2]float64{1915, 940})
+	if len(offered) != 1 || offered[0] != "V3" {
+		t.Fatalf("offered %v, want V3", offered)
+	}
+	if len(m.Corrections()) != 0 || !strings.Contains(c.status.Text, "on the page already") {
+		t.Fatalf("V4 again: status %q, %d corrections", c.status.Text, len(m.Corrections()))
+	}
+	name = "V3"
+	drag(v, [2]float64{1310, 660}, [2]float64{1915, 940})
+	cs := m.Corrections()
+	if len(cs) != 1 || cs[0].Kind != record.CorrDrawnPanel || cs[0].Lead != "V3" {
+		t.Fatalf("corrections %+v (status %q)", cs, c.status.Text)
+	}
+	last := m.Panels()[len(m.Panels())-1]
+	if !last.Drawn || last.Lead != "V3" || math.Abs(last.Box[0]-1310) > 1 || math.Abs(last.Box[3]-940) > 1 {
+		t.Fatalf("drawn panel %+v", last)
+	}
+	if n := len(m.MissingLeads()); n != 0 {
+		t.Fatalf("%d leads still missing", n)
+	}
+	// Every lead has its panel now: nothing is offered.
+	offered = nil
+	drag(v, [2]float64{100, 100}, [2]float64{300, 300})
+	if offered != nil || len(m.Corrections()) != 1 {
+		t.Fatalf("offered %v with every lead shown", offered)
+	}
+	m.Undo()
+	// A box over aVF's panel asks first.
+	var asked []string
+	c.Ask = func(title, msg string, f func(bool)) { asked = append(asked, msg); f(false) }
+	drag(v, [2]float64{1000, 660}, [2]float64{1915, 940})
+	if len(asked) != 1 || !strings.Contains(asked[0], "aVF") || len(m.Corrections()) != 0 {
+		t.Fatalf("asked %q, %d corrections", asked, len(m.Corrections()))
+	}
+}
+
+// In the Box tool a drag that starts on a box's edge handle resizes the
+// box (the other edges stay), one that starts inside moves it.
+func TestBoxHandleResizes(t *testing.T) {
+	c := shown(t)
+	m := c.Model()
+	c.toolBar.SetSelected("Box")
+	v := c.view
+	b := m.Panels()[0].Box // lead I, x 50–675, y 50–350
+	drag(v, [2]float64{b[2], 200}, [2]float64{b[2] - 100, 230})
+	cs := m.Corrections()
+	if len(cs) != 1 || cs[0].Kind != record.CorrBox {
+		t.Fatalf("corrections %+v", cs)
+	}
+	got := m.Panels()[0].Box
+	if math.Abs(got[2]-(b[2]-100)) > 1 || got[0] != b[0] || got[1] != b[1] || got[3] != b[3] {
+		t.Fatalf("resized box %v from %v", got, b)
+	}
+	// Its window narrows with it: 100 px at 10 px/mm and 25 mm/s.
+	if p := m.Panels()[0]; math.Abs(p.T1S-(2.5-0.4)) > 0.01 || p.T0S != 0 {
+		t.Fatalf("window %.3f–%.3f s", p.T0S, p.T1S)
+	}
+	m.Undo()
+	if m.Panels()[0].Box != b {
+		t.Fatal("undo left the box resized")
+	}
+	drag(v, [2]float64{300, 200}, [2]float64{310, 200})
+	if got := m.Panels()[0].Box; math.Abs(got[0]-(b[0]+10)) > 1 || math.Abs((got[2]-got[0])-(b[2]-b[0])) > 1e-6 {
+		t.Fatalf("moved box %v from %v", got, b)
+	}
+}

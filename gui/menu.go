@@ -57,7 +57,7 @@ func (c *Controller) menu() *fyne.MainMenu {
 const keysHelp = `Ctrl+O open   Ctrl+E export   Ctrl+P print summary
 Ctrl+Z undo   Ctrl+Shift+Z (or Ctrl+Y) redo
 + / − zoom   0 whole page   arrow keys pan
-1 Look  2 Shift  3 Redraw  4 Erase  5 Baseline  6 Box  7 Scale
+1 Look  2 Shift  3 Redraw  4 Erase  5 Baseline  6 Box  7 Scale  8 New panel
 Esc cancels the gesture under way`
 
 func (c *Controller) shortcuts() {
@@ -90,7 +90,7 @@ func (c *Controller) typedRune(r rune) {
 		c.view.fit = true
 		c.view.Refresh()
 	}
-	if r >= '1' && r <= '7' {
+	if r >= '1' && int(r-'1') < len(toolNames) {
 		c.toolBar.SetSelected(toolNames[r-'1'])
 	}
 }

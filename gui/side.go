@@ -250,7 +250,9 @@ func describe(c record.Correction) string {
 	case record.CorrAssign:
 		return fmt.Sprintf("%s is really %s", c.Lead, c.NewLead)
 	case record.CorrBox:
-		return fmt.Sprintf("%s box moved", c.Lead)
+		return fmt.Sprintf("%s box moved or resized", c.Lead)
+	case record.CorrDrawnPanel:
+		return fmt.Sprintf("%s panel drawn by hand", c.Lead)
 	}
 	return c.Kind
 }

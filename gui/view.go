@@ -27,9 +27,10 @@ const (
 	ToolBaseline             // drag a panel's zero line up or down
 	ToolBox                  // drag a panel's box to a new place
 	ToolScale                // click two grid lines a known distance apart
+	ToolPanel                // draw a box around a lead the reader missed
 )
 
-var toolNames = []string{"Look", "Shift", "Redraw", "Erase", "Baseline", "Box", "Scale"}
+var toolNames = []string{"Look", "Shift", "Redraw", "Erase", "Baseline", "Box", "Scale", "New panel"}
 
 // printView shows the printout with its overlays and turns pointer input
 // into edits. Its state is the view transform and the gesture under way;
@@ -79,6 +80,38 @@ func gripAt(box [4]float64, p [2]float64, tol float64) [4]bool {
 		math.Abs(p[0]-box[0]) <= tx, math.Abs(p[1]-box[1]) <= ty,
 		math.Abs(p[0]-box[2]) <= tx, math.Abs(p[1]-box[3]) <= ty,
 	}
+}
+
+// gripped returns the panel whose edge or corner handle lies under p (within
+// gripPx screen units, inside or outside its box) and the edges it takes;
+// -1 when none does. The selected panel is tried first, then the others.
+func (v *printView) gripped(p [2]float64) (int, [4]bool) {
+	views := v.ctl.m.Panels()
+	tol := gripPx / v.zoom
+	order := make([]int, 0, len(views)+1)
+	if v.selected >= 0 && v.selected < len(views) {
+		order = append(order, v.selected)
+	}
+	for i := range views {
+		order = append(order, i)
+	}
+	for _, i := range order {
+		b := views[i].Box
+		if p[0] < b[0]-tol || p[0] > b[2]+tol || p[1] < b[1]-tol || p[1] > b[3]+tol {
+			continue
+		}
+		if g := gripAt(b, p, tol); g != [4]bool{} {
+			return i, g
+		}
+	}
+	return -1, [4]bool{}
+}
+
+// drawnBox is the box the New panel drag under way spans, corners in any
+// order.
+func (v *printView) drawnBox() [4]float64 {
+	a, b := v.pressAt, [2]float64{v.pressAt[0] + v.moveDX, v.pressAt[1] + v.moveDY}
+	return [4]float64{math.Min(a[0], b[0]), math.Min(a[1], b[1]), math.Max(a[0], b[0]), math.Max(a[1], b[1])}
 }
 
 // boxAfterDrag is panel p's box moved or resized by the drag under way.
@@ -264,8 +297,10 @@ func (v *printView) Dragged(e *fyne.DragEvent) {
 			v.stroke = [][2]float64{start}
 		case ToolBox:
 			v.grip = [4]bool{}
-			if v.selPanel >= 0 {
-				v.grip = gripAt(m.Panels()[v.selPanel].Box, start, gripPx/v.zoom)
+			// A drag starting on a box's edge or corner, inside or just
+			// outside it, resizes that box.
+			if p, g := v.gripped(start); p >= 0 {
+				v.selPanel, v.grip = p, g
 			}
 		}
 	}
@@ -284,7 +319,7 @@ func (v *printView) Dragged(e *fyne.DragEvent) {
 		v.selX1 = at[0]
 	case ToolRedraw:
 		v.stroke = append(v.stroke, at)
-	case ToolBaseline, ToolBox:
+	case ToolBaseline, ToolBox, ToolPanel:
 		v.moveDX, v.moveDY = at[0]-v.pressAt[0], at[1]-v.pressAt[1]
 	}
 	v.lastAt = at
@@ -329,6 +364,9 @@ func (v *printView) DragEnd() {
 		if p >= 0 && math.Hypot(v.moveDX, v.moveDY) >= 0.5 {
 			v.ctl.boxDragged(p, v.boxAfterDrag(p))
 		}
+	case ToolPanel:
+		edit = false // panelDrawn asks for the lead, then reports
+		v.ctl.panelDrawn(v.drawnBox())
 	default:
 		edit = false
 	}
@@ -429,7 +467,9 @@ func (r *viewRenderer) placeLabels() {
 		if pv.Sign < 0 {
 			name = "−" + name
 		}
-		if printedLead(pv.Printed) != pv.Lead {
+		if pv.Drawn {
+			name += " (drawn by hand)"
+		} else if printedLead(pv.Printed) != pv.Lead {
 			name += " (read as " + pv.Printed + ")"
 		}
 		t.Text = name
@@ -456,6 +496,7 @@ var (
 	plate      = color.NRGBA{0xff, 0xff, 0xff, 0xd8}
 	erasedBand = color.NRGBA{0x90, 0x90, 0x90, 0x48}
 	erasedCol  = color.NRGBA{0xb0, 0x20, 0x20, 0xe0}
+	handleCol  = color.NRGBA{0xff, 0xff, 0xff, 0xff}
 )
 
 // confidenceColor: sure green, doubtful amber, poor red; unknown grey.
@@ -511,7 +552,27 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 			c = selColor
 		}
 		rect(dst, x0, y0, x1, y1, math.Max(1, dev)+2*dev, halo)
-		rect(dst, x0, y0, x1, y1, math.Max(1, dev), c)
+		if pv.Drawn {
+			dashed(dst, x0, y0, x1, y0, math.Max(1, dev)*2, c)
+			dashed(dst, x0, y1, x1, y1, math.Max(1, dev)*2, c)
+			rect(dst, x0, y0, x1, y1, math.Max(1, dev), c)
+		} else {
+			rect(dst, x0, y0, x1, y1, math.Max(1, dev), c)
+		}
+		if v.tool == ToolBox {
+			// Handles at the corners and the middles of the edges: a drag
+			// that starts on one resizes the box.
+			hs := 3 * dev
+			for _, hx := range []float64{x0, (x0 + x1) / 2, x1} {
+				for _, hy := range []float64{y0, (y0 + y1) / 2, y1} {
+					if hx == (x0+x1)/2 && hy == (y0+y1)/2 {
+						continue
+					}
+					fill(dst, hx-hs-dev, hy-hs-dev, hx+hs+dev, hy+hs+dev, halo)
+					fill(dst, hx-hs, hy-hs, hx+hs, hy+hs, handleCol)
+				}
+			}
+		}
 		bdy := dy
 		if v.dragging && i == v.selPanel && v.tool == ToolBaseline {
 			bdy = v.moveDY
@@ -562,6 +623,15 @@ func (r *viewRenderer) draw(w, h int) image.Image {
 		x0, y0 := toDev([2]float64{math.Min(v.selX0, v.selX1), b[1]})
 		x1, y1 := toDev([2]float64{math.Max(v.selX0, v.selX1), b[3]})
 		fill(dst, x0, y0, x1, y1, selBand)
+	}
+	// the box of a New panel drag under way
+	if v.tool == ToolPanel && v.dragging {
+		b := v.drawnBox()
+		x0, y0 := toDev([2]float64{b[0], b[1]})
+		x1, y1 := toDev([2]float64{b[2], b[3]})
+		fill(dst, x0, y0, x1, y1, selBand)
+		rect(dst, x0, y0, x1, y1, math.Max(1, dev)+2*dev, halo)
+		rect(dst, x0, y0, x1, y1, math.Max(1, dev), strokeCol)
 	}
 	for j := 1; j < len(v.stroke); j++ {
 		ax, ay := toDev(v.stroke[j-1])

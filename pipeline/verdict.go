@@ -124,6 +124,12 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 		add(Care, "time_zero_unsure", "check where the traces start after the calibration pulse",
 			"the calibration pulse is printed joined to the traces and the page is not a standard 10 s page: time 0 is taken at the pulse's falling stroke and may be off by the pulse's lead-out")
 	}
+	// A layout given by hand that the page does not show (digitize says
+	// why): the leads may be named after the wrong rows.
+	if dr.Misfit != "" {
+		add(Care, "layout_not_shown", "choose the layout the page shows, or let it be found",
+			"%s", dr.Misfit)
+	}
 	// Layout fit: the limb-lead laws over each column of simultaneous leads.
 	worst, worstLead := worstLaw(dr)
 	switch {

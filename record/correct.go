@@ -1,9 +1,11 @@
 package record
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 )
 
 // Apply returns a copy of raw with the hand corrections applied in order;
@@ -24,9 +26,13 @@ import (
 //   - assign: the lead is renamed NewLead; when NewLead already exists the
 //     two leads swap names (the usual case: two panels read the wrong way
 //     round).
-//   - box: a panel's box moved in the image. Only the digitizer can act on
-//     it (it re-derives the signals from the pixel traces before Apply), so
-//     Apply checks and records it and leaves the samples alone.
+//   - box: a panel's box moved or resized in the image. Only the digitizer
+//     can act on it (it re-derives the signals from the pixel traces before
+//     Apply), so Apply checks and records it and leaves the samples alone.
+//   - drawn_panel: a panel the reader did not find, drawn by hand (Box,
+//     and Lead its name, one of the twelve standard leads, "-aVR" for an
+//     inverted one). The digitizer traces it before Apply; Apply checks
+//     and records it.
 //
 // The corrections are appended to the result's Corrections. A correction
 // that names a missing lead or carries a bad number is an error naming its
@@ -79,8 +85,15 @@ func CheckCorrection(c *Correction) error {
 			return fmt.Errorf("no new lead name given")
 		}
 	case CorrBox:
-		if len(c.Box) != 4 || !finite(c.Box...) || !(c.Box[2] > c.Box[0]) || !(c.Box[3] > c.Box[1]) {
-			return fmt.Errorf("a box needs x0 < x1 and y0 < y1 in image px, got %v", c.Box)
+		if err := checkBox(c.Box); err != nil {
+			return err
+		}
+	case CorrDrawnPanel:
+		if err := checkBox(c.Box); err != nil {
+			return err
+		}
+		if !IsStandard(CanonicalLead(strings.TrimLeft(strings.TrimSpace(c.Lead), "-−"))) {
+			return fmt.Errorf("%w: %q (want one of %s)", ErrNotLead, c.Lead, strings.Join(Standard12, ", "))
 		}
 	default:
 		return fmt.Errorf("unknown kind %q", c.Kind)
@@ -91,11 +104,25 @@ func CheckCorrection(c *Correction) error {
 	return nil
 }
 
+// ErrNotLead is returned for a drawn panel named by no standard lead.
+var ErrNotLead = errors.New("not a lead name")
+
+func checkBox(b []float64) error {
+	ok := len(b) == 4
+	for _, v := range b {
+		ok = ok && !math.IsNaN(v) && !math.IsInf(v, 0)
+	}
+	if !ok || !(b[2] > b[0]) || !(b[3] > b[1]) {
+		return fmt.Errorf("a box needs x0 < x1 and y0 < y1 in image px, got %v", b)
+	}
+	return nil
+}
+
 func applyOne(r *Record, c *Correction) error {
 	if err := CheckCorrection(c); err != nil {
 		return err
 	}
-	if c.Kind == CorrBox {
+	if c.Kind == CorrBox || c.Kind == CorrDrawnPanel {
 		return nil
 	}
 	s := r.Lead(c.Lead)

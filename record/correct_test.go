@@ -1,6 +1,7 @@
 package record_test
 
 import (
+	"errors"
 	"math"
 	"testing"
 
@@ -159,11 +160,29 @@ func TestApplyRejectsBadCorrections(t *testing.T) {
 		{Kind: record.CorrAssign, Lead: "I", NewLead: " "},
 		{Kind: record.CorrBox, Lead: "I", Box: []float64{5, 5, 1, 9}},
 		{Kind: record.CorrErase, Lead: "", StartS: 0, EndS: 1},
+		{Kind: record.CorrDrawnPanel, Lead: "V7", Box: []float64{1, 1, 9, 9}},
+		{Kind: record.CorrDrawnPanel, Lead: "II", Box: []float64{1, 1, 9}},
+		{Kind: record.CorrDrawnPanel, Lead: "II", Box: []float64{1, 1, 9, math.Inf(1)}},
+		{Kind: record.CorrDrawnPanel, Lead: "", Box: []float64{1, 1, 9, 9}},
 	}
 	for _, c := range bad {
 		if _, err := record.Apply(raw, []record.Correction{c}); err == nil {
 			t.Errorf("%+v: no error", c)
 		}
+	}
+	// A drawn panel's lead names one of the twelve (Cabrera's -aVR too,
+	// common practice); the samples are the digitizer's business.
+	for _, l := range []string{"V3", "avl", "-aVR"} {
+		out, err := record.Apply(raw, []record.Correction{{Kind: record.CorrDrawnPanel, Lead: l, Box: []float64{1, 1, 9, 9}}})
+		if err != nil {
+			t.Fatalf("drawn panel %s: %v", l, err)
+		}
+		if out.Lead("V3").MV[10] != raw.Lead("V3").MV[10] || len(out.Corrections) != 1 {
+			t.Fatal("a drawn panel changed the samples or was not recorded")
+		}
+	}
+	if err := record.CheckCorrection(&record.Correction{Kind: record.CorrDrawnPanel, Lead: "V7", Box: []float64{1, 1, 9, 9}}); !errors.Is(err, record.ErrNotLead) {
+		t.Fatalf("V7: %v", err)
 	}
 	// Far outside the signal is clipped, not a crash.
 	if _, err := record.Apply(raw, []record.Correction{{Kind: record.CorrErase, Lead: "I", StartS: -1e300, EndS: 1e300}}); err != nil {

@@ -120,7 +120,10 @@ const (
 	CorrErase    = "erase"    // a stretch set to a gap
 	CorrBaseline = "baseline" // a lead's baseline moved by OffsetMV
 	CorrAssign   = "assign"   // a lead renamed (Lead -> NewLead)
-	CorrBox      = "box"      // a panel's box moved (handled by the digitizer)
+	CorrBox      = "box"      // a panel's box moved or resized (handled by the digitizer)
+	// CorrDrawnPanel is a panel the reader missed, drawn by hand: Box is
+	// where its trace lies, Lead its name. The digitizer traces it.
+	CorrDrawnPanel = "drawn_panel"
 )
 
 // Correction is one hand edit. Applying the list in order to the raw

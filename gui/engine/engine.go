@@ -47,6 +47,29 @@ type Backend struct {
 // state is what the model carries opaquely for us.
 type state struct {
 	o *pipeline.Outcome // as read, before any correction
+
+	once  sync.Once
+	bt    *digitize.BoxTracer // prepared on the first box to trace
+	btErr error
+}
+
+// tracer returns the page's box tracer, prepared once.
+func (st *state) tracer(cal *calib.Result) boxTracer {
+	st.once.Do(func() { st.bt, st.btErr = digitize.NewBoxTracer(cal) })
+	if st.btErr != nil {
+		return failedTracer{st.btErr}
+	}
+	return st.bt
+}
+
+type boxTracer interface {
+	Trace(box [4]float64) (digitize.Trace, float64, error)
+}
+
+type failedTracer struct{ err error }
+
+func (f failedTracer) Trace([4]float64) (digitize.Trace, float64, error) {
+	return digitize.Trace{}, 0, f.err
 }
 
 // Demo returns the default embedded demo printout as a source.
@@ -107,11 +130,12 @@ func (b *Backend) Analyze(ctx context.Context, src model.Source, s model.Setting
 		GainMMPerMV: cal.GainMMPerMV, SpeedMMPerS: cal.SpeedMMPerS,
 		ScaleSource: cal.Source, ScaleConf: cal.Confidence,
 		Layout: dr.Layout, Layouts: Layouts,
-		Quality:   map[string]float64{},
-		Raw:       dr.Record,
-		Warnings:  cal.Warnings,
-		PageCount: max(pg.PageCount, 1),
-		Handle:    &state{o: o},
+		Quality:    map[string]float64{},
+		Raw:        dr.Record,
+		Warnings:   cal.Warnings,
+		LayoutNote: dr.Misfit,
+		PageCount:  max(pg.PageCount, 1),
+		Handle:     &state{o: o},
 	}
 	b.mu.Lock()
 	b.last = a.Handle.(*state)
@@ -173,46 +197,154 @@ func trimSign(s string) string {
 	return s
 }
 
-// Resignal re-derives the signals with the moved panels: each trace is
-// cut to its panel's new box (columns outside become gaps, points above
-// or below the box too) and turned into mV again by digitize.Signals.
+// Resignal re-derives the signals with the panels where the user put
+// them. A moved box cuts its trace to the box's new time span (columns
+// outside become gaps). A resized box (its width changed; the model moves
+// its time window with its edges) also reads the columns it was widened
+// over, traced inside the new box. Panels beyond the reading's own are
+// drawn by hand (model.Panel.Drawn): each is traced inside its box, timed
+// on the page's clock from the reading's panel nearest to it in height,
+// and gets its baseline from its trace. Everything is then turned into mV
+// again by digitize.Signals.
 func (b *Backend) Resignal(a *model.Analysis, panels []model.Panel) (*record.Record, []model.Panel, error) {
 	st, ok := a.Handle.(*state)
 	if !ok || st == nil {
 		return nil, nil, errors.New("engine: the reading is incomplete")
 	}
 	dr, cal := st.o.Digitized, st.o.Calib
-	if len(panels) != len(dr.Panels) {
+	if len(panels) < len(dr.Panels) {
 		return nil, nil, fmt.Errorf("engine: %d panels given, the reading has %d", len(panels), len(dr.Panels))
 	}
+	out := append([]model.Panel(nil), panels...)
 	dp := make([]digitize.Panel, len(panels))
-	for i, p := range panels {
+	for i, p := range panels[:len(dr.Panels)] {
 		dp[i] = dr.Panels[i]
 		dp[i].Box, dp[i].BaselineY = p.Box, p.BaselineY
+		dp[i].T0S, dp[i].T1S = p.T0S, p.T1S
 	}
-	trs := make([]digitize.Trace, len(dr.Traces))
-	for i, tr := range dr.Traces {
+	trs := make([]digitize.Trace, 0, len(panels))
+	for _, tr := range dr.Traces {
 		c := tr
 		c.Y = append([]float64(nil), tr.Y...)
-		// A moved box cuts its trace to the box's new time span. The
-		// trace may stray above or below its box (printers let it), so
-		// only x is cut; an unmoved box keeps the digitizer's trace as is.
-		if tr.Panel >= 0 && tr.Panel < len(dp) && dp[tr.Panel].Box != dr.Panels[tr.Panel].Box {
-			box := dp[tr.Panel].Box
-			for k := range c.Y {
-				x := float64(tr.X0+k) + 0.5
-				if x < box[0] || x >= box[2] {
-					c.Y[k] = math.NaN()
-				}
+		c.Conf = append([]float32(nil), tr.Conf...)
+		i := tr.Panel
+		if i < 0 || i >= len(dr.Panels) || dp[i].Box == dr.Panels[i].Box {
+			trs = append(trs, c)
+			continue
+		}
+		box, was := dp[i].Box, dr.Panels[i].Box
+		if resized(box, was) {
+			// Read the columns the box now covers beyond the trace.
+			ext, _, err := st.tracer(cal).Trace(box)
+			if err != nil && !errors.Is(err, digitize.ErrNoTraceInBox) {
+				return nil, nil, err
+			}
+			if err == nil {
+				c = widen(c, ext)
 			}
 		}
-		trs[i] = c
+		// The trace may stray above or below its box (printers let it),
+		// so only x is cut.
+		for k := range c.Y {
+			x := float64(c.X0+k) + 0.5
+			if x < box[0] || x >= box[2] {
+				c.Y[k] = math.NaN()
+			}
+		}
+		trs = append(trs, c)
+	}
+	pxPerS := cal.PxPerMM * cal.SpeedMMPerS
+	for i := len(dr.Panels); i < len(panels); i++ {
+		p := panels[i]
+		tr, base, err := st.tracer(cal).Trace(p.Box)
+		if err != nil {
+			return nil, nil, fmt.Errorf("engine: the panel drawn for %s: %w", p.Lead, err)
+		}
+		near := nearestRow(dr.Panels, base)
+		org := near.Box[0] - near.T0S*pxPerS // time 0 of that row on the page
+		t0 := (p.Box[0] - org) / pxPerS
+		dp[i] = digitize.Panel{Lead: p.Lead, Row: near.Row, Col: nearestCol(dr.Panels, p.Box),
+			Box: p.Box, BaselineY: base, T0S: t0, T1S: t0 + (p.Box[2]-p.Box[0])/pxPerS}
+		dp[i].Rhythm = dp[i].T1S-dp[i].T0S > 0.5*pageSpanS(dr.Panels)
+		tr.Lead, tr.Panel = p.Lead, i
+		trs = append(trs, tr)
+		out[i].Row, out[i].Col, out[i].Rhythm = dp[i].Row, dp[i].Col, dp[i].Rhythm
+		out[i].BaselineY, out[i].T0S, out[i].T1S = base, dp[i].T0S, dp[i].T1S
+		out[i].Drawn = true
 	}
 	rate := b.Options.Digitize.RateHz
 	rec := digitize.Signals(cal, dp, trs, rate)
 	rec.Name = dr.Record.Name
 	rec.Provenance = dr.Record.Provenance
-	return rec, panels, nil
+	return rec, out, nil
+}
+
+// resized reports whether a box's width changed (a move keeps it; the
+// view moves both edges by the same amount).
+func resized(box, was [4]float64) bool {
+	return math.Abs((box[2]-box[0])-(was[2]-was[0])) > 1e-6
+}
+
+// widen returns tr with the columns of ext that lie outside tr's own
+// columns added (the trace's own columns are kept as the reading traced
+// them).
+func widen(tr, ext digitize.Trace) digitize.Trace {
+	lo := min(tr.X0, ext.X0)
+	hi := max(tr.X0+len(tr.Y), ext.X0+len(ext.Y))
+	out := tr
+	out.X0 = lo
+	out.Y = make([]float64, hi-lo)
+	out.Conf = make([]float32, hi-lo)
+	for k := range out.Y {
+		x := lo + k
+		switch {
+		case x >= tr.X0 && x < tr.X0+len(tr.Y):
+			out.Y[k], out.Conf[k] = tr.Y[x-tr.X0], tr.Conf[x-tr.X0]
+		case x >= ext.X0 && x < ext.X0+len(ext.Y):
+			out.Y[k], out.Conf[k] = ext.Y[x-ext.X0], ext.Conf[x-ext.X0]
+		default:
+			out.Y[k] = math.NaN()
+		}
+	}
+	return out
+}
+
+// nearestRow is the reading's panel whose baseline is nearest to y (its
+// row carries the page's clock there; rows may start at slightly
+// different x on a page that was turned).
+func nearestRow(ps []digitize.Panel, y float64) digitize.Panel {
+	best, bestD := ps[0], math.Inf(1)
+	for _, p := range ps {
+		if d := math.Abs(p.BaselineY - y); d < bestD {
+			best, bestD = p, d
+		}
+	}
+	return best
+}
+
+// nearestCol is the grid column of the reading's panel whose centre is
+// nearest to the box's across the page.
+func nearestCol(ps []digitize.Panel, box [4]float64) int {
+	col, bestD := 0, math.Inf(1)
+	cx := (box[0] + box[2]) / 2
+	for _, p := range ps {
+		if p.Rhythm {
+			continue
+		}
+		if d := math.Abs((p.Box[0]+p.Box[2])/2 - cx); d < bestD {
+			col, bestD = p.Col, d
+		}
+	}
+	return col
+}
+
+// pageSpanS is the longest time window of the reading's panels.
+func pageSpanS(ps []digitize.Panel) float64 {
+	s := 0.0
+	for _, p := range ps {
+		s = math.Max(s, p.T1S)
+	}
+	return s
 }
 
 // Measure runs the measurement engine and puts its findings into the
@@ -346,10 +478,15 @@ func (b *Backend) Outcome(a *model.Analysis, job model.ExportJob) (*pipeline.Out
 	o := *st.o
 	dr := *o.Digitized
 	dr.Record = job.Record
-	if len(job.Panels) == len(dr.Panels) {
+	if len(job.Panels) >= len(dr.Panels) {
+		n := len(dr.Panels)
 		dr.Panels = append([]digitize.Panel(nil), dr.Panels...)
 		for i, p := range job.Panels {
+			if i >= n { // drawn by hand
+				dr.Panels = append(dr.Panels, digitize.Panel{Lead: p.Lead, Row: p.Row, Col: p.Col, Rhythm: p.Rhythm})
+			}
 			dr.Panels[i].Box, dr.Panels[i].BaselineY = p.Box, p.BaselineY
+			dr.Panels[i].T0S, dr.Panels[i].T1S = p.T0S, p.T1S
 		}
 	}
 	o.Digitized = &dr

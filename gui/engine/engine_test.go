@@ -218,8 +218,9 @@ func cmpLead(t *testing.T, what string, want, got *record.Signal) {
 }
 
 // Moving a panel's box through the model re-derives that lead with the
-// real digitizer: narrowing the box to its left half leaves the right half
-// of the panel's window as a gap, and undo gives the reading back exactly.
+// real digitizer: narrowing the box to its left half leaves the lead with
+// values over the left half of the panel's window only (its window
+// narrows with the box), and undo gives the reading back exactly.
 func TestBoxMoveRederives(t *testing.T) {
 	if testing.Short() {
 		t.Skip("reads a 300-dpi page")
@@ -245,31 +246,31 @@ func TestBoxMoveRederives(t *testing.T) {
 		t.Skip("the demo reading has no plain panel")
 	}
 	p := m.Panels()[i]
-	gaps := func() int {
+	valued := func() int {
 		s := m.Record().Lead(p.Lead)
 		n := 0
 		for _, v := range s.MV {
-			if math.IsNaN(v) {
+			if !math.IsNaN(v) {
 				n++
 			}
 		}
 		return n
 	}
-	before := gaps()
+	before := valued()
 	box := p.Box
 	box[2] = (box[0] + box[2]) / 2
 	if err := m.MoveBox(i, box); err != nil {
 		t.Fatal(err)
 	}
-	after := gaps()
+	after := valued()
 	// Half the panel's window at the record's rate is lost (give or take
 	// the trace's own ends).
 	half := int((p.T1S - p.T0S) / 2 * m.Record().Lead(p.Lead).RateHz)
-	if after-before < half*8/10 {
-		t.Fatalf("lead %s: gaps %d -> %d, want about %d more", p.Lead, before, after, half)
+	if before-after < half*8/10 {
+		t.Fatalf("lead %s: samples with a value %d -> %d, want about %d fewer", p.Lead, before, after, half)
 	}
 	m.Undo()
-	if gaps() != before {
-		t.Fatalf("undo: %d gaps, want %d", gaps(), before)
+	if valued() != before {
+		t.Fatalf("undo: %d samples with a value, want %d", valued(), before)
 	}
 }

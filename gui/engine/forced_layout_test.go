@@ -3,9 +3,11 @@ package engine
 import (
 	"context"
 	"math"
+	"strings"
 	"testing"
 
 	"tracelift/gui/model"
+	"tracelift/samples"
 )
 
 // TestForced3x4KeepsBoxesOnTheirLeads forces 3x4 on the clean demo page
@@ -39,6 +41,48 @@ func TestForced3x4KeepsBoxesOnTheirLeads(t *testing.T) {
 		b, ok := at[p.Lead]
 		if !ok || math.Abs((p.Box[1]+p.Box[3])/2-(b[1]+b[3])/2) > (b[3]-b[1])/4 || math.Abs((p.Box[0]+p.Box[2])/2-(b[0]+b[2])/2) > (b[2]-b[0])/4 {
 			t.Errorf("%s forced at %.0f, read at %.0f", p.Lead, p.Box, b)
+		}
+	}
+}
+
+// Forcing 3x4 on the 6x2 demo page (northfield, printed 6x2 in Cabrera
+// order: samples' demo truth) reads it as asked but says in the reading's
+// note and in the findings' reasons that the page shows six rows, so the
+// status does not show boxes as if they fitted.
+func TestForced3x4On6x2PageWarns(t *testing.T) {
+	if testing.Short() {
+		t.Skip("reads a demo page")
+	}
+	var src model.Source
+	for _, d := range samples.Demo() {
+		if d.Name == "northfield_6x2_cabrera_200dpi.jpg" {
+			src = model.Source{Name: d.Name, Data: d.Data}
+		}
+	}
+	if src.Data == nil {
+		t.Fatal("no 6x2 demo page")
+	}
+	b := &Backend{}
+	for _, l := range []string{"3x4", ""} {
+		a, err := b.Analyze(context.Background(), src, model.Settings{Layout: l}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		m := model.New(b)
+		if err := m.Install(src, a, model.Settings{Layout: l}, nil, ""); err != nil {
+			t.Fatal(err)
+		}
+		if l == "" {
+			if a.LayoutNote != "" || a.Layout != "6x2" {
+				t.Fatalf("found %s with note %q", a.Layout, a.LayoutNote)
+			}
+			continue
+		}
+		if !strings.Contains(a.LayoutNote, "6 rows") || !strings.Contains(a.LayoutNote, "named wrongly") {
+			t.Fatalf("forced 3x4 on 6x2: note %q", a.LayoutNote)
+		}
+		if s := m.Summary(); s == nil || s.VerdictLevel == "ready" || !strings.Contains(strings.Join(s.VerdictReasons, "\n"), "6 rows") {
+			t.Fatalf("forced 3x4 on 6x2: verdict %+v", s)
 		}
 	}
 }

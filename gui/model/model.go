@@ -255,19 +255,35 @@ func (m *Model) recompute() {
 	panels := append([]Panel(nil), a.Panels...)
 	labels, _ := panelLabels(panels)
 
-	// Box moves first: they change which pixels make the signals.
+	// Box moves and panels drawn by hand first: they change which pixels
+	// make the signals.
 	var boxKey strings.Builder
 	moved := false
+	pxPerS := a.PxPerMM * a.SpeedMMPerS
 	walk(m.corrs, labels, func(c *record.Correction, cur []string) {
-		if c.Kind != record.CorrBox {
-			return
-		}
-		if i := nearestPanel(panels, cur, c.Lead, c.Box); i >= 0 {
-			// The zero line stays where it was (the Baseline tool moves
-			// it): a box move changes which pixels are read, not their mV.
-			copy(panels[i].Box[:], c.Box)
+		switch c.Kind {
+		case record.CorrBox:
+			if i := nearestPanel(panels, cur, c.Lead, c.Box); i >= 0 {
+				// The zero line stays where it was (the Baseline tool
+				// moves it): a box move changes which pixels are read,
+				// not their mV. A resize (the width changed) moves the
+				// time window with the edges: the page's clock stays, so
+				// a column keeps its time.
+				was := panels[i].Box
+				copy(panels[i].Box[:], c.Box)
+				if w := (c.Box[2] - c.Box[0]) - (was[2] - was[0]); math.Abs(w) > 1e-6 && pxPerS > 0 {
+					panels[i].T0S += (c.Box[0] - was[0]) / pxPerS
+					panels[i].T1S += (c.Box[2] - was[2]) / pxPerS
+				}
+				moved = true
+				fmt.Fprintf(&boxKey, "%d:%v;", i, c.Box)
+			}
+		case record.CorrDrawnPanel:
+			p := Panel{Lead: strings.TrimSpace(c.Lead), Drawn: true, Row: -1, Col: -1}
+			copy(p.Box[:], c.Box)
+			panels = append(panels, p)
 			moved = true
-			fmt.Fprintf(&boxKey, "%d:%v;", i, c.Box)
+			fmt.Fprintf(&boxKey, "+%s:%v;", c.Lead, c.Box)
 		}
 	})
 	key := boxKey.String()
@@ -276,7 +292,7 @@ func (m *Model) recompute() {
 	} else if m.base == nil || key != m.baseKey {
 		rec, ps, err := m.b.Resignal(a, panels)
 		if err != nil {
-			m.applyErr = fmt.Errorf("model: moving a box: %w", err)
+			m.applyErr = fmt.Errorf("model: %w", err)
 			rec, ps = a.Raw, a.Panels
 		}
 		m.base, m.basePanels, m.baseKey = rec, ps, key
@@ -303,25 +319,29 @@ func (m *Model) recompute() {
 	for i, p := range m.basePanels {
 		views[i] = PanelView{Panel: p, Printed: p.Lead, Sign: bs[i], Confidence: math.NaN()}
 		views[i].Lead = bl[i]
-		if q, ok := a.Quality[p.Lead]; ok {
+		if q, ok := a.Quality[p.Lead]; ok && !p.Drawn {
 			views[i].Confidence = q
 		}
 	}
 	pxPerMV := a.PxPerMM * a.GainMMPerMV
-	final := append([]string(nil), bl...) // walked to the names after every reassignment
-	walk(m.corrs, final, func(c *record.Correction, cur []string) {
+	// walked to the names after every reassignment, from the reading's
+	// panels (the drawn ones join as their corrections come)
+	final, _ := panelLabels(a.Panels)
+	final = walk(m.corrs, final, func(c *record.Correction, cur []string) {
 		if c.Kind != record.CorrBaseline {
 			return
 		}
 		lead := record.CanonicalLead(c.Lead)
 		for i := range views {
-			if cur[i] == lead {
+			if i < len(cur) && cur[i] == lead {
 				views[i].BaselineY -= views[i].Sign * c.OffsetMV * pxPerMV
 			}
 		}
 	})
 	for i := range views {
-		views[i].Lead = final[i]
+		if i < len(final) {
+			views[i].Lead = final[i]
+		}
 	}
 	m.views = views
 
@@ -359,25 +379,30 @@ func panelLabels(ps []Panel) ([]string, []float64) {
 
 // walk visits the corrections in order with the panels' current lead
 // names, renaming them at each reassignment the way record.Apply renames
-// the signals (a swap when the new name is taken). labels is updated in
-// place.
-func walk(corrs []record.Correction, labels []string, visit func(c *record.Correction, cur []string)) {
+// the signals (a swap when the new name is taken), and adding the name of
+// each panel drawn by hand after its correction. labels is updated in
+// place; the list with the drawn panels added is returned.
+func walk(corrs []record.Correction, labels []string, visit func(c *record.Correction, cur []string)) []string {
 	for k := range corrs {
 		c := &corrs[k]
 		visit(c, labels)
-		if c.Kind != record.CorrAssign {
-			continue
-		}
-		from, to := record.CanonicalLead(c.Lead), record.CanonicalLead(c.NewLead)
-		for i, l := range labels {
-			switch l {
-			case from:
-				labels[i] = to
-			case to:
-				labels[i] = from
+		switch c.Kind {
+		case record.CorrDrawnPanel:
+			l, _ := panelLabels([]Panel{{Lead: c.Lead}})
+			labels = append(labels, l[0])
+		case record.CorrAssign:
+			from, to := record.CanonicalLead(c.Lead), record.CanonicalLead(c.NewLead)
+			for i, l := range labels {
+				switch l {
+				case from:
+					labels[i] = to
+				case to:
+					labels[i] = from
+				}
 			}
 		}
 	}
+	return labels
 }
 
 // nearestPanel finds the panel named lead whose box centre is nearest to

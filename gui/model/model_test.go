@@ -89,8 +89,20 @@ func (f *fakeBackend) Resignal(a *Analysis, ps []Panel) (*record.Record, []Panel
 	f.resignals++
 	rec := a.Raw.Clone()
 	orig := f.panels()
+	at := map[string]Panel{}
+	for _, p := range orig {
+		at[p.Lead] = p
+	}
+	ps = append([]Panel(nil), ps...)
 	for i, p := range ps {
-		dx := p.Box[0] - orig[i].Box[0]
+		if p.Drawn { // traced as the record's own lead, timed from the page's left edge (x 50)
+			if rec.Lead(p.Lead) == nil && f.raw.Lead(p.Lead) != nil {
+				rec.Signals = append(rec.Signals, *f.raw.Clone().Lead(p.Lead))
+			}
+			ps[i].T0S, ps[i].T1S = (p.Box[0]-50)/250, (p.Box[2]-50)/250
+			continue
+		}
+		dx := p.Box[0] - at[p.Lead].Box[0]
 		n := int(math.Round(dx / 250 * 500))
 		s := rec.Lead(p.Lead)
 		mv := make([]float64, len(s.MV))

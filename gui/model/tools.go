@@ -6,6 +6,7 @@ import (
 	"math"
 	"sort"
 	"strconv"
+	"strings"
 
 	"tracelift/record"
 )
@@ -183,6 +184,59 @@ func (m *Model) MoveBox(i int, box [4]float64) error {
 		Note: "panel " + strconv.Itoa(i)})
 }
 
+// Errors of AddPanel.
+var (
+	ErrNotLead   = errors.New("model: not a lead name")
+	ErrLeadShown = errors.New("model: that lead is on the page already")
+)
+
+// MissingLeads returns the standard leads no panel shows now, in the
+// standard order: the names a panel drawn by hand may take.
+func (m *Model) MissingLeads() []string {
+	on := map[string]bool{}
+	for _, v := range m.views {
+		on[v.Lead] = true
+	}
+	var out []string
+	for _, l := range record.Standard12 {
+		if !on[l] {
+			out = append(out, l)
+		}
+	}
+	return out
+}
+
+// AddPanel says the trace of lead lies in box (x0, y0, x1, y1, rectified
+// px): a panel the reader did not find. The lead is traced inside the box
+// and joins the record and the measurements. A name that is no standard
+// lead, or a lead a panel already shows, is refused and changes nothing;
+// "-aVR" names an inverted aVR panel (Cabrera).
+func (m *Model) AddPanel(box [4]float64, lead string) error {
+	if m.a == nil {
+		return errors.New("model: nothing is open")
+	}
+	name := strings.TrimSpace(lead)
+	sign := ""
+	if strings.HasPrefix(name, "-") || strings.HasPrefix(name, "−") {
+		name = strings.TrimPrefix(strings.TrimPrefix(name, "-"), "−")
+		sign = "-"
+	}
+	name = record.CanonicalLead(strings.TrimSpace(name))
+	if !record.IsStandard(name) || (sign != "" && name != record.AVR) {
+		return fmt.Errorf("%w: %q; name one of %s (or -aVR for an inverted aVR)", ErrNotLead, strings.TrimSpace(lead), strings.Join(record.Standard12, ", "))
+	}
+	for _, v := range m.views {
+		if v.Lead == name {
+			rest := "every standard lead has a panel already"
+			if ls := m.MissingLeads(); len(ls) > 0 {
+				rest = "the leads without one are " + strings.Join(ls, ", ")
+			}
+			return fmt.Errorf("%w: %s has its panel at %.1f–%.1f s; %s", ErrLeadShown, name, v.T0S, v.T1S, rest)
+		}
+	}
+	return m.Edit(record.Correction{Kind: record.CorrDrawnPanel, Lead: sign + name, Box: box[:]})
+}
+
 // Erased returns the stretches of panel i that an Erase correction made
 // gaps, as column ranges [x0, x1] in image px within the panel, so the
 // view can draw them as erased rather than as missing ink.
@@ -190,11 +244,11 @@ func (m *Model) Erased(i int) [][2]float64 {
 	if m.a == nil || i < 0 || i >= len(m.views) {
 		return nil
 	}
-	labels, _ := panelLabels(m.basePanels)
+	labels, _ := panelLabels(m.a.Panels)
 	var out [][2]float64
 	v := m.views[i]
 	walk(m.corrs, labels, func(c *record.Correction, cur []string) {
-		if c.Kind != record.CorrErase || cur[i] != record.CanonicalLead(c.Lead) {
+		if c.Kind != record.CorrErase || i >= len(cur) || cur[i] != record.CanonicalLead(c.Lead) {
 			return
 		}
 		t0, t1 := math.Max(c.StartS, v.T0S), math.Min(c.EndS, v.T1S)
@@ -215,12 +269,16 @@ type Overlap struct {
 // Overlaps lists the panels other than i that box would cover by at least
 // a tenth of their area more than panel i's box covers them now (boxes of
 // a printout may touch or overlap a little as printed). The trace under a
-// covered stretch would be read into both leads.
+// covered stretch would be read into both leads. i = -1 stands for a
+// panel about to be drawn (AddPanel): every tenth it covers counts.
 func (m *Model) Overlaps(i int, box [4]float64) []Overlap {
-	if i < 0 || i >= len(m.views) {
+	if i < -1 || i >= len(m.views) {
 		return nil
 	}
-	cur := m.views[i].Box
+	var cur [4]float64
+	if i >= 0 {
+		cur = m.views[i].Box
+	}
 	var out []Overlap
 	for j, v := range m.views {
 		if j == i {

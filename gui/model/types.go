@@ -48,6 +48,7 @@ type Panel struct {
 	Box       [4]float64 // x0, y0, x1, y1 in rectified px
 	BaselineY float64    // y of 0 mV in rectified px
 	T0S, T1S  float64    // time window the panel shows
+	Drawn     bool       // drawn by hand (a drawn_panel correction), not found by the reader
 }
 
 // Analysis is what reading a printout gives: the picture, its scale, the
@@ -71,8 +72,11 @@ type Analysis struct {
 	Quality      map[string]float64 // per printed lead, 0..1
 	Raw          *record.Record
 	Warnings     []string
-	PageCount    int // pages in the file (1 for a plain image)
-	Handle       any // backend's own state
+	// LayoutNote says in plain words why the layout given by hand does
+	// not match what the page shows ("" when it does or was found).
+	LayoutNote string
+	PageCount  int // pages in the file (1 for a plain image)
+	Handle     any // backend's own state
 }
 
 // Progress reports the stage being worked on and the fraction done (0..1).
@@ -84,8 +88,10 @@ type Backend interface {
 	// Analyze reads the source with the given settings. It honours ctx.
 	Analyze(ctx context.Context, src Source, s Settings, p Progress) (*Analysis, error)
 	// Resignal re-derives the raw record from the pixel traces after
-	// panels were moved; it returns the record and the panels as the
-	// digitizer reads them.
+	// panels were moved or resized; panels beyond the analysis's own are
+	// drawn by hand and traced inside their boxes. It returns the record
+	// and the panels as the digitizer reads them (a drawn panel with its
+	// time window and baseline).
 	Resignal(a *Analysis, panels []Panel) (*record.Record, []Panel, error)
 	// Measure measures a record. quality holds per-lead confidences.
 	Measure(rec *record.Record, quality map[string]float64) (*Summary, error)
