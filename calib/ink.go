@@ -382,6 +382,7 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 	type segLine struct {
 		c, a0, a1 int
 		lv        int
+		cls       int // the line's place in its 5 mm block (lineClass)
 	}
 	var segs []segLine
 	var hist [256]int
@@ -417,26 +418,28 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 			for _, v := range line {
 				hist[v] = 0 // clear only what was counted
 			}
-			segs = append(segs, segLine{best, a0, a1, lv})
+			segs = append(segs, segLine{best, a0, a1, lv, lineClass(n)})
 		}
 	}
 	if len(segs) == 0 {
 		return
 	}
-	lvs := make([]float64, len(segs))
+	cls := make([]int, len(segs))
+	lvs := make([]int, len(segs))
 	for i, sg := range segs {
-		lvs[i] = float64(sg.lv)
+		cls[i], lvs[i] = sg.cls, sg.lv
 	}
-	usual := median(lvs)
-	if usual < 8 {
-		return
-	}
+	usual := usualLevels(cls, lvs)
 	var luts levelLUTs
 	var carry [seg]uint8
 	for _, sg := range segs {
+		u := usual[sg.cls]
+		if u < minLineLevel {
+			continue // no line of this kind on the page
+		}
 		l := sg.lv
-		if float64(l) > 1.3*usual+15 {
-			l = int(usual)
+		if float64(l) > 1.3*u+15 {
+			l = int(u)
 		}
 		tab := luts.get(l)
 		lo, hi := max(sg.c-hw, 0), min(sg.c+hw, across-1)
@@ -469,6 +472,41 @@ func suppressLines(g *image.Gray, gl gridLines, vertical bool) {
 	}
 }
 
+// lineClass is the place of line n (counted in millimetres) in its 5 mm
+// block, 0..4. One of the five places holds the heavier 5 mm lines; on a
+// fax or a plain print only those may show at all.
+func lineClass(n int) int { return ((n % 5) + 5) % 5 }
+
+// usualLevels returns, per line class, what a line of that kind looks like
+// on this page: the median level of all segments when the 1 mm lines show
+// (a heavier 5 mm segment is then taken for a trace along the line and
+// only the usual level comes out of it), else the median of each class.
+// Taken over all lines at once, the median of a grid that prints only its
+// 5 mm lines (a fax, a plain print) is the blank paper of the four missing
+// lines, and its 5 mm lines stayed in the ink as if they were traces.
+func usualLevels(cls, lv []int) [5]float64 {
+	all := make([]float64, len(lv))
+	var by [5][]float64
+	for i, c := range cls {
+		all[i] = float64(lv[i])
+		by[c] = append(by[c], float64(lv[i]))
+	}
+	var u [5]float64
+	if m := median(all); m >= minLineLevel {
+		return [5]float64{m, m, m, m, m}
+	}
+	for c := range by {
+		if len(by[c]) > 0 {
+			u[c] = median(by[c])
+		}
+	}
+	return u
+}
+
+// minLineLevel is the least median ink level of a family of grid lines
+// that is taken out of the ink; below it the lines are paper.
+const minLineLevel = 8
+
 // levelLUTs caches, per line level l, the table v ↦ (v − l)·255/(256 − l)
 // clamped to 0..255 (what a line pixel keeps once the line is taken out).
 type levelLUTs [256]*[256]uint8
@@ -491,11 +529,12 @@ func (t *levelLUTs) get(l int) *[256]uint8 {
 func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 	w, h := g.Rect.Dx(), g.Rect.Dy()
 	st, pix := g.Stride, g.Pix
-	var c0s []int
+	var c0s, lcls []int
 	for n := -1; n <= int(float64(w)/gl.s)+2; n++ {
 		c := int(math.Round((float64(n) + gl.offX) * gl.s))
 		if c >= 0 && c < w {
 			c0s = append(c0s, c)
+			lcls = append(lcls, lineClass(n))
 		}
 	}
 	nl := len(c0s)
@@ -552,23 +591,22 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 			lv[bi*nl+li] = m
 		}
 	}
-	all := make([]float64, len(lv))
-	for i, v := range lv {
-		all[i] = float64(v)
+	cls := make([]int, len(lv))
+	for i := range lv {
+		cls[i] = lcls[i%nl]
 	}
-	usual := median(all)
-	if usual < 8 {
-		return
-	}
-	for i, v := range lv {
-		if float64(v) > 1.3*usual+15 {
-			lv[i] = int(usual)
-		}
-	}
+	usual := usualLevels(cls, lv)
 	var luts levelLUTs
 	tabs := make([]*[256]uint8, len(lv))
-	for i, l := range lv {
-		tabs[i] = luts.get(l)
+	for i, v := range lv {
+		u := usual[cls[i]]
+		switch {
+		case u < minLineLevel:
+			continue // no line of this kind on the page: left as it is
+		case float64(v) > 1.3*u+15:
+			v = int(u)
+		}
+		tabs[i] = luts.get(v)
 	}
 	for y := 0; y < h; y++ {
 		bi := y / seg
@@ -576,6 +614,9 @@ func suppressVertical(g *image.Gray, gl gridLines, hw int) {
 		for li := 0; li < nl; li++ {
 			c := best[bi*nl+li]
 			tab := tabs[bi*nl+li]
+			if tab == nil {
+				continue
+			}
 			lo, hi := max(c-hw, 0), min(c+hw, w-1)
 			var vl, vr uint8
 			if c-hw-1 >= 0 {

@@ -3,6 +3,8 @@ package calib
 import (
 	"image"
 	"image/color"
+	"image/draw"
+	"math"
 	"testing"
 )
 
@@ -74,5 +76,68 @@ func TestInkKeepsCloseStrokesApart(t *testing.T) {
 	}
 	if lost > 0 {
 		t.Errorf("the crossing trace lost its ink on %d of 38 grid lines", lost)
+	}
+}
+
+// A grid printed with its 5 mm lines only (a fax, a plain laser print; the
+// 1 mm lines do not show at all) is taken out of the ink as a full grid
+// is, and the trace is kept. The four blank places of every 5 mm block
+// used to set the grid's usual level to paper, so the 5 mm lines were all
+// kept as ink and read as rows of traces (outside05, a fax, read in the
+// wrong layout).
+func TestInkMapRemovesMajorOnlyGrid(t *testing.T) {
+	const w, h, s = 900, 500, 8.0
+	img := image.NewNRGBA(image.Rect(0, 0, w, h))
+	draw.Draw(img, img.Bounds(), image.White, image.Point{}, draw.Src)
+	black := color.NRGBA{0, 0, 0, 255}
+	line := func(x, y int) bool { return (x%40 == 0 || x%40 == 1) || (y%40 == 0 || y%40 == 1) }
+	trace := func(x int) float64 { return 250 + 60*math.Sin(float64(x)/23) }
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			if line(x, y) {
+				img.SetNRGBA(x, y, black)
+			}
+		}
+	}
+	for x := 0; x < w; x++ {
+		y0, y1 := trace(x), trace(x+1)
+		for y := int(math.Min(y0, y1)) - 1; y <= int(math.Max(y0, y1))+1; y++ {
+			img.SetNRGBA(x, y, black)
+		}
+	}
+	ink, _ := inkMap(img, gridLines{known: true, s: s})
+	var lineN, lineKept int
+	for y := 10; y < h-10; y++ {
+		for x := 10; x < w-10; x++ {
+			if line(x, y) && math.Abs(float64(y)-trace(x)) >= 12 {
+				lineN++
+				if ink.GrayAt(x, y).Y > 128 {
+					lineKept++
+				}
+			}
+		}
+	}
+	if f := float64(lineKept) / float64(lineN); f > 0.05 {
+		t.Errorf("%.0f %% of the 5 mm lines' pixels kept as ink, want under 5 %%", 100*f)
+	}
+	// Where the trace crosses a line at a slant, the line's band is taken
+	// out with it; the tracer bridges such gaps when they are short.
+	cols, gap, longest := 0, 0, 0
+	for x := 10; x < w-10; x++ {
+		y0 := int(math.Round(trace(x)))
+		kept := false
+		for y := y0 - 2; y <= y0+2; y++ {
+			kept = kept || ink.GrayAt(x, y).Y > 128
+		}
+		if kept {
+			cols++
+			gap = 0
+			continue
+		}
+		gap++
+		longest = max(longest, gap)
+	}
+	if f := float64(cols) / float64(w-20); f < 0.8 || longest > s {
+		t.Errorf("the trace keeps ink in %.0f %% of its columns, longest gap %d px; want 80 %% and gaps up to 1 mm (%v px)", 100*f, longest, s)
 	}
 }
