@@ -660,7 +660,8 @@ func lighten(c color.NRGBA, f float64) color.NRGBA {
 	return color.NRGBA{l(c.R), l(c.G), l(c.B), 255}
 }
 
-// drawGrid prints the 1 mm and 5 mm grid inside the grid rectangle.
+// drawGrid prints the 1 mm and 5 mm grid (or the 5 mm lines alone) inside
+// the grid rectangle.
 func drawGrid(img *image.NRGBA, st Style, g geom) {
 	if st.Grid == GridNone {
 		return
@@ -691,6 +692,9 @@ func drawGrid(img *image.NRGBA, st Style, g geom) {
 	}
 	mxs, Mxs := lines(g.gridOX, g.gridX0, g.gridX1)
 	mys, Mys := lines(g.gridOY, g.gridY0, g.gridY1)
+	if st.Grid == GridMajor {
+		mxs, mys = nil, nil
+	}
 	if st.Grid == GridDots {
 		rMinor := math.Max(st.MinorLineMM*px*0.8, 0.6)
 		rMajor := math.Max(st.MajorLineMM*px*0.8, rMinor+0.3)

@@ -33,6 +33,7 @@ const (
 	GridLines GridKind = iota // 1 mm and 5 mm lines
 	GridDots                  // dots at 1 mm, larger dots at 5 mm crossings
 	GridNone                  // plain paper
+	GridMajor                 // 5 mm lines only (plain prints, many faxes)
 )
 
 // Font choices for labels and header.
@@ -443,6 +444,11 @@ func WidenStyle(st Style, rng *rand.Rand) Style {
 	}
 	st.GridBorder = rng.Float64() < 0.3
 	st.Seed = rng.Int63()
+	// One lined grid in six prints only its 5 mm lines. Taken from the
+	// seed, not a new draw, so the rest of every case stays as it was.
+	if st.Grid == GridLines && st.Seed%6 == 0 {
+		st.Grid = GridMajor
+	}
 	if st.Layout == Layout1x1 {
 		if rng.Float64() < 0.4 {
 			st.RhythmLeads = []string{[]string{"II", "III", "aVF", "V1", "V2", "V5", "V6", "I", "aVL"}[rng.Intn(9)]}
