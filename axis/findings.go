@@ -214,9 +214,14 @@ type Findings struct {
 	// SpreadSD is the engine's own share in the intervals: the standard
 	// error over beats, the delineation's threshold sensitivity and the
 	// 2 ms grid step (one standard deviation), keyed like PictureSD.
-	SpreadSD  map[string]Num `json:"spread_sd,omitempty"`
-	Caution   string         `json:"caution"`
-	Templates []Template     `json:"-"`
+	SpreadSD map[string]Num `json:"spread_sd,omitempty"`
+	// PictureUnitSD is each PictureSD at a model size of 1 and a factor
+	// of 1 (before the axes' 180° limit), and MeanLeadConfidence the mean
+	// lead confidence the factor used: for refitting the picture model.
+	PictureUnitSD      map[string]Num `json:"-"`
+	MeanLeadConfidence float64        `json:"-"`
+	Caution            string         `json:"caution"`
+	Templates          []Template     `json:"-"`
 }
 
 // Lead returns the measures of the named lead, or nil.
