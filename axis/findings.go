@@ -190,6 +190,12 @@ type Findings struct {
 	RRMeanS       Num    `json:"rr_mean_s"`
 	RRSDS         Num    `json:"rr_sd_s"`
 	Rhythm        string `json:"rhythm"` // "regular", "irregular", "undetermined"
+	// TimeScaleDoubt is true when, on a digitized record, the rate and
+	// intervals look like a heart's drawn at another paper speed than the
+	// one read (see TimeScaleRatio); their intervals then hold the
+	// reading at the other speed too. TimeScaleRatio is the ratio.
+	TimeScaleDoubt bool    `json:"time_scale_doubt,omitempty"`
+	TimeScaleRatio float64 `json:"-"`
 	// RhythmNote says why the rhythm call is unsure, "" when it is not.
 	RhythmNote   string        `json:"rhythm_note,omitempty"`
 	BeatLead     string        `json:"beat_lead"`

@@ -45,7 +45,39 @@ func TestPageFactsWidenOnlyWhatTheyWeigh(t *testing.T) {
 		t.Errorf("PR interval %.2f ms wide on the page-scaled page, %.2f on the grid page", wb, wa)
 	}
 	// A record read from a file has no picture error at all.
-	if k := (Picture{ScaleSource: "page", PulseAssumed: true}).Factor("qrs", 0.2); k != 0 {
+	if k := (Picture{ScaleSource: "page", PulseAssumed: true}).Factor("qrs", 0.2, Doubts{TimeRatio: 0.5}); k != 0 {
 		t.Errorf("factor %v for a record not digitized", k)
+	}
+}
+
+// A page whose QRS (200 ms) and QT (760 ms) at 40 bpm are a normal
+// heart's at twice the paper speed read has its intervals stretched to
+// hold the readings at the other speed: QRS 100 ms, rate 80 bpm, QTc
+// times √0.5 (Bazett: QT·r / √(RR·r)). Worked by hand.
+func TestTimeScaleWidening(t *testing.T) {
+	t.Parallel()
+	if r := TimeScaleRatio(40, 200, 760); r != 0.5 {
+		t.Fatalf("ratio %v, want 0.5", r)
+	}
+	if r := TimeScaleRatio(72, 100, 400); r != 1 {
+		t.Fatalf("ratio %v for a normal beat, want 1", r)
+	}
+	if r := TimeScaleRatio(150, 45, 200); r != 2 {
+		t.Fatalf("ratio %v for a halved beat, want 2", r)
+	}
+	for _, c := range []struct {
+		name           string
+		v, lo, hi      float64
+		wantLo, wantHi float64
+	}{
+		{"qrs", 200, 190, 210, 95, 210},
+		{"heart_rate_bpm", 40, 38, 42, 38, 84},
+		{"qtc_bazett", 600, 590, 610, 600*math.Sqrt(0.5) - 10*math.Sqrt(0.5), 610},
+		{"qrs_deg", 60, 50, 70, 50, 70},
+	} {
+		lo, hi := WidenForTimeScale(c.name, c.v, c.lo, c.hi, 0.5)
+		if math.Abs(lo-c.wantLo) > 1e-9 || math.Abs(hi-c.wantHi) > 1e-9 {
+			t.Errorf("%s: [%v, %v], want [%v, %v]", c.name, lo, hi, c.wantLo, c.wantHi)
+		}
 	}
 }

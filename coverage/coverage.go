@@ -74,6 +74,9 @@ type Case struct {
 	// inputs of each measurement's picture factor.
 	Page     axis.Picture
 	MeanConf float64
+	// Doubts are what the measurements said against themselves
+	// (axis.Findings.TimeScaleRatio, axis.RateDisagrees).
+	Doubts axis.Doubts
 }
 
 // Run draws and measures cases [from, from+n) of the suite for seed.
@@ -127,6 +130,7 @@ func runCase(seed int64, i int, conds []string, real *record.Record, model *axis
 		return c
 	}
 	c.Page, c.MeanConf = pipeline.PictureFacts(o.Calib, o.Digitized), o.Findings.MeanLeadConfidence
+	c.Doubts = axis.Doubts{TimeRatio: o.Findings.TimeScaleRatio, Rate: axis.RateDisagrees(o.Findings)}
 	truth, err := axis.Measure(sc.Record, axis.Options{})
 	if err != nil {
 		c.Err = "truth: " + err.Error()
@@ -173,10 +177,13 @@ func Compare(est, truth *axis.Findings) map[string]Meas {
 }
 
 // covered reports whether the interval holds the truth (on the circle
-// for the axis).
+// for the axis, whose intervals are symmetric).
 func covered(measure string, m Meas) bool {
-	h := (m.Hi - m.Lo) / 2
-	return math.Abs(m.Err(measure)) <= h+1e-9
+	if isAngle(measure) {
+		h := (m.Hi - m.Lo) / 2
+		return math.Abs(m.Err(measure)) <= h+1e-9
+	}
+	return m.Lo-1e-9 <= m.Truth && m.Truth <= m.Hi+1e-9
 }
 
 // Exact returns the cases with the truth replaced by the engine's

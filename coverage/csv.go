@@ -15,11 +15,11 @@ import (
 // The columns: the case, what the pipeline knew of its page (the inputs
 // of the picture factor), then one measurement.
 var csvHeader = []string{"case", "condition", "source", "layout", "error", "verdict", "reasons",
-	"scale_source", "scale_conf", "law_uv", "pulse_assumed", "t0_unsure", "faint_share", "gappy_share", "bilevel", "mean_conf",
+	"scale_source", "scale_conf", "law_uv", "pulse_assumed", "t0_unsure", "faint_share", "gappy_share", "bilevel", "mean_conf", "time_ratio", "rate_doubt",
 	"measure", "est", "lo", "hi", "truth", "exact", "engine_sd", "picture_sd", "unit_sd"}
 
 const (
-	colMeasure = 16 // index of "measure"
+	colMeasure = 18 // index of "measure"
 	numCols    = 8  // numbers after it
 )
 
@@ -35,7 +35,7 @@ func WriteCSV(w io.Writer, cases []Case) error {
 	for _, c := range cases {
 		p := c.Page
 		head := []string{strconv.Itoa(c.N), c.Condition, c.Source, c.Layout, c.Err, string(c.Verdict), strings.Join(c.Reasons, " "),
-			p.ScaleSource, g(p.ScaleConfidence), g(p.LawResidualUV), b(p.PulseAssumed), b(p.TimeZeroUnsure), g(p.FaintShare), g(p.GappyShare), b(p.Bilevel), g(c.MeanConf)}
+			p.ScaleSource, g(p.ScaleConfidence), g(p.LawResidualUV), b(p.PulseAssumed), b(p.TimeZeroUnsure), g(p.FaintShare), g(p.GappyShare), b(p.Bilevel), g(c.MeanConf), g(c.Doubts.TimeRatio), b(c.Doubts.Rate)}
 		if !p.Digitized {
 			// No facts: the page was not traced.
 			for k := 7; k < colMeasure; k++ {
@@ -105,6 +105,7 @@ func ReadCSV(r io.Reader) ([]Case, error) {
 				c.Page = axis.Picture{Digitized: true, ScaleSource: rec[7], ScaleConfidence: num(rec[8]), LawResidualUV: num(rec[9]),
 					PulseAssumed: flag(rec[10]), TimeZeroUnsure: flag(rec[11]), FaintShare: num(rec[12]), GappyShare: num(rec[13]), Bilevel: flag(rec[14])}
 				c.MeanConf = num(rec[15])
+				c.Doubts = axis.Doubts{TimeRatio: num(rec[16]), Rate: flag(rec[17])}
 			}
 			if bad != nil {
 				return nil, fmt.Errorf("coverage: line %d: %w", line+2, bad)

@@ -20,10 +20,12 @@ func TestCSVKeepsPageFacts(t *testing.T) {
 	model := axis.DefaultPictureModel
 	m := Meas{Est: 96, Truth: 92, Exact: 93, EngineSD: 1.5, Unit: 1}
 	c := Case{N: 7, Condition: "fax", Source: "dipole", Layout: "3x4+1", Verdict: pipeline.Care, Reasons: []string{"scale_guessed", "no_pulse"},
-		Page: pic, MeanConf: 0.71, Meas: map[string]Meas{"qrs": m}, GeneratorAxisDeg: math.NaN()}
-	h := half("qrs", m, c, model)
-	m.Lo, m.Hi = m.Est-h, m.Est+h
-	m.PictureSD = pic.Factor("qrs", c.MeanConf) * model.QRSMS
+		Page: pic, MeanConf: 0.71, Doubts: axis.Doubts{TimeRatio: 0.5}, Meas: map[string]Meas{"qrs": m}, GeneratorAxisDeg: math.NaN()}
+	m.Lo, m.Hi = bounds("qrs", m, c, model)
+	if !(m.Lo < m.Est/2 && m.Hi > m.Est) {
+		t.Fatalf("interval [%v, %v] of a page whose time scale is in doubt does not hold half the value read, %v", m.Lo, m.Hi, m.Est/2)
+	}
+	m.PictureSD = pic.Factor("qrs", c.MeanConf, c.Doubts) * model.QRSMS
 	c.Meas["qrs"] = m
 	failed := Case{N: 8, Condition: "rotated", Err: "no grid", Verdict: pipeline.NotReadable, GeneratorAxisDeg: math.NaN()}
 	var b bytes.Buffer
@@ -38,7 +40,7 @@ func TestCSVKeepsPageFacts(t *testing.T) {
 		t.Fatalf("%d cases read back, want 2", len(back))
 	}
 	got := back[0]
-	if !reflect.DeepEqual(got.Page, pic) || got.MeanConf != c.MeanConf || !reflect.DeepEqual(got.Meas, c.Meas) || !reflect.DeepEqual(got.Reasons, c.Reasons) {
+	if !reflect.DeepEqual(got.Page, pic) || got.MeanConf != c.MeanConf || got.Doubts != c.Doubts || !reflect.DeepEqual(got.Meas, c.Meas) || !reflect.DeepEqual(got.Reasons, c.Reasons) {
 		t.Errorf("read back %+v\nwant %+v", got, c)
 	}
 	if back[1].Page.Digitized || back[1].Err != "no grid" || len(back[1].Meas) != 0 {

@@ -28,21 +28,31 @@ func size(model axis.PictureModel, measure string) float64 {
 	return model.QRSAreaMVMS
 }
 
-// half is the half-width of the 90 % interval the pipeline states for m
-// on the page of c under model (axis.Measure's arithmetic, from the
-// shares recorded in m).
-func half(measure string, m Meas, c Case, model axis.PictureModel) float64 {
-	pic := c.Page
-	pic.Model = &model
-	p := pic.Factor(measure, c.MeanConf) * size(model, measure) * m.Unit
-	if isAngle(measure) {
-		p = math.Min(180, p)
-	}
+// bounds is the 90 % interval the pipeline states for m on the page of
+// c under model (axis.Measure's arithmetic, from the shares recorded in
+// m): symmetric about the value, stretched to hold the reading at the
+// other time scale when that is in doubt (axis.WidenForTimeScale).
+func bounds(measure string, m Meas, c Case, model axis.PictureModel) (lo, hi float64) {
+	p := pictureSD(measure, m, c, model)
 	h := axis.Z90 * math.Hypot(m.EngineSD, p)
 	if isAngle(measure) && h > 180 {
 		h = 180
 	}
-	return h
+	lo, hi = m.Est-h, m.Est+h
+	if c.Doubts.TimeScale() {
+		lo, hi = axis.WidenForTimeScale(measure, m.Est, lo, hi, c.Doubts.TimeRatio)
+	}
+	return lo, hi
+}
+
+func pictureSD(measure string, m Meas, c Case, model axis.PictureModel) float64 {
+	pic := c.Page
+	pic.Model = &model
+	p := pic.Factor(measure, c.MeanConf, c.Doubts) * size(model, measure) * m.Unit
+	if isAngle(measure) {
+		p = math.Min(180, p)
+	}
+	return p
 }
 
 // Restate returns the cases with every interval (and picture share)
@@ -53,20 +63,30 @@ func Restate(cases []Case, model axis.PictureModel) []Case {
 	for i, c := range cases {
 		c.Meas = map[string]Meas{}
 		for name, m := range cases[i].Meas {
-			h := half(name, m, c, model)
-			m.Lo, m.Hi = m.Est-h, m.Est+h
-			pic := c.Page
-			pic.Model = &model
-			m.PictureSD = pic.Factor(name, c.MeanConf) * size(model, name) * m.Unit
-			if isAngle(name) {
-				m.PictureSD = math.Min(180, m.PictureSD)
-			}
+			m.Lo, m.Hi = bounds(name, m, c, model)
+			m.PictureSD = pictureSD(name, m, c, model)
 			c.Meas[name] = m
 		}
 		out[i] = c
 	}
 	return out
 }
+
+// score is the interval score of [lo, hi] for the truth of m (on the
+// circle for an angle, whose intervals are symmetric).
+func score(measure string, m Meas, lo, hi float64) float64 {
+	if isAngle(measure) {
+		h := (hi - lo) / 2
+		return 2*h + 20*math.Max(0, math.Abs(m.Err(measure))-h)
+	}
+	return hi - lo + 20*(math.Max(0, lo-m.Truth)+math.Max(0, m.Truth-hi))
+}
+
+// FactPenalty charges the width a page's facts add once more, on top of
+// the interval score's own charge, so that a fact must pay for itself
+// over more pages before it earns a weight (shrinkage against fitting
+// the few pages of one seed).
+var FactPenalty = 0.0
 
 // fitGroups are the measures fitted together: each sets one size and one
 // set of weights (QTc takes QT's).
@@ -124,30 +144,40 @@ func FitPage(cases []Case, model axis.PictureModel, share float64) axis.PictureM
 			}
 			return math.Exp(x[0]), axis.WeightsFrom(w)
 		}
-		score := func(x []float64) float64 {
+		mean := func(x []float64) float64 {
 			md := out
 			s, w := decode(x)
 			set(&md, s, w)
 			var sum float64
 			for _, r := range rows {
-				h := half(r.name, r.m, r.c, md)
-				e := math.Abs(r.m.Err(r.name))
-				sum += 2*h + 20*math.Max(0, e-h)
+				lo, hi := bounds(r.name, r.m, r.c, md)
+				sum += score(r.name, r.m, lo, hi)
+				if FactPenalty > 0 {
+					pic := r.c.Page
+					pic.Model = &md
+					sum += FactPenalty * 2 * axis.Z90 * (pic.Factor(r.name, r.c.MeanConf, r.c.Doubts) - 1) * s * r.m.Unit
+				}
 			}
 			return sum / float64(len(rows))
 		}
-		// Two starts: the model's own weights, and none.
-		start := func(w axis.PageWeights) []float64 {
-			x := []float64{math.Log(math.Max(1e-3, size(out, g[0])))}
+		// Starts: the model's own weights and none, each at the model's
+		// size and at an eighth to twice it (the score has local minima
+		// where a small size and large weights trade against a large size
+		// and small ones).
+		start := func(s float64, w axis.PageWeights) []float64 {
+			x := []float64{math.Log(math.Max(1e-3, s))}
 			for _, v := range w.Slice() {
 				x = append(x, math.Sqrt(math.Max(0, v)))
 			}
 			return x
 		}
-		best, bestF := start(out.Weights(g[0])), math.Inf(1)
-		for _, x0 := range [][]float64{start(out.Weights(g[0])), start(axis.PageWeights{})} {
-			if x, f := patternSearch(score, x0); f < bestF {
-				best, bestF = x, f
+		s0 := size(out, g[0])
+		best, bestF := start(s0, out.Weights(g[0])), math.Inf(1)
+		for _, sm := range []float64{0.125, 0.25, 0.5, 1, 2} {
+			for _, w := range []axis.PageWeights{out.Weights(g[0]), {}} {
+				if x, f := patternSearch(mean, start(sm*s0, w)); f < bestF {
+					best, bestF = x, f
+				}
 			}
 		}
 		s, w := decode(best)
@@ -158,7 +188,9 @@ func FitPage(cases []Case, model axis.PictureModel, share float64) axis.PictureM
 			set(&md, s, w)
 			n := 0
 			for _, r := range rows {
-				if math.Abs(r.m.Err(r.name)) <= half(r.name, r.m, r.c, md)+1e-9 {
+				m := r.m
+				m.Lo, m.Hi = bounds(r.name, r.m, r.c, md)
+				if covered(r.name, m) {
 					n++
 				}
 			}
@@ -217,7 +249,7 @@ func HalfWidths(w io.Writer, cases []Case, conds []string) {
 func patternSearch(f func([]float64) float64, x0 []float64) ([]float64, float64) {
 	x := append([]float64(nil), x0...)
 	fx := f(x)
-	for step := 0.5; step > 1e-3; {
+	for step := 1.0; step > 1e-3; {
 		moved := false
 		for i := range x {
 			for _, d := range []float64{step, -step} {
