@@ -190,6 +190,12 @@ type Findings struct {
 	RRMeanS       Num    `json:"rr_mean_s"`
 	RRSDS         Num    `json:"rr_sd_s"`
 	Rhythm        string `json:"rhythm"` // "regular", "irregular", "undetermined"
+	// TimeScaleDoubt is true when, on a digitized record, the rate and
+	// intervals look like a heart's drawn at another paper speed than the
+	// one read (see TimeScaleRatio); their intervals then hold the
+	// reading at the other speed too. TimeScaleRatio is the ratio.
+	TimeScaleDoubt bool    `json:"time_scale_doubt,omitempty"`
+	TimeScaleRatio float64 `json:"-"`
 	// RhythmNote says why the rhythm call is unsure, "" when it is not.
 	RhythmNote   string        `json:"rhythm_note,omitempty"`
 	BeatLead     string        `json:"beat_lead"`
@@ -214,9 +220,14 @@ type Findings struct {
 	// SpreadSD is the engine's own share in the intervals: the standard
 	// error over beats, the delineation's threshold sensitivity and the
 	// 2 ms grid step (one standard deviation), keyed like PictureSD.
-	SpreadSD  map[string]Num `json:"spread_sd,omitempty"`
-	Caution   string         `json:"caution"`
-	Templates []Template     `json:"-"`
+	SpreadSD map[string]Num `json:"spread_sd,omitempty"`
+	// PictureUnitSD is each PictureSD at a model size of 1 and a factor
+	// of 1 (before the axes' 180° limit), and MeanLeadConfidence the mean
+	// lead confidence the factor used: for refitting the picture model.
+	PictureUnitSD      map[string]Num `json:"-"`
+	MeanLeadConfidence float64        `json:"-"`
+	Caution            string         `json:"caution"`
+	Templates          []Template     `json:"-"`
 }
 
 // Lead returns the measures of the named lead, or nil.

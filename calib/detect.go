@@ -84,7 +84,7 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 		}
 	}
 	if found {
-		return fromGrid(ctx, pg, wk, gm, opt)
+		return looked(pg)(fromGrid(ctx, pg, wk, gm, opt))
 	}
 	// No grid: the traces' own direction deskews the page (their long
 	// baselines stand out in the 2-D spectrum as a grid's lines do).
@@ -99,7 +99,19 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	if dbgGrid != nil {
 		dbgGrid("no grid: theta %.3f° coherence %.2f", theta*180/math.Pi, coh)
 	}
-	return withoutGrid(ctx, pg, wk, theta, opt)
+	return looked(pg)(withoutGrid(ctx, pg, wk, theta, opt))
+}
+
+// looked returns a function that marks a result whose picture is bilevel
+// (a fax: nearly every pixel black or white), for the uncertainty of the
+// measurements taken from it.
+func looked(pg *Page) func(*Result, error) (*Result, error) {
+	return func(res *Result, err error) (*Result, error) {
+		if res != nil {
+			res.Bilevel, _ = pageLook(pg.Image)
+		}
+		return res, err
+	}
 }
 
 // sheetGrid finds the grid on the work image flattened by the sheet's

@@ -60,6 +60,10 @@ type Result struct {
 	Source      string  // "grid", "pulse", "user", "file" (no grid or pulse; the file's stated dpi) or "page" (a fax with no grid or pulse; the sheet's size): where the scale came from
 	Confidence  float64 // 0..1
 	Pulses      []Pulse
+	// Bilevel is true when nearly every pixel of the picture is black or
+	// white (a fax, a thresholded scan): thin strokes there lose or gain
+	// a pixel at every edge.
+	Bilevel bool
 
 	// RectToImage maps rectified px (x, y, 1) to original image px
 	// (row-major 3×3 homography), for drawing overlays on the source.

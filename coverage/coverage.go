@@ -40,6 +40,9 @@ type Meas struct {
 	Exact     float64
 	EngineSD  float64 // the engine's own share (axis.Findings.SpreadSD)
 	PictureSD float64 // the picture's share, at the model in use
+	// Unit is the picture's share at a model size of 1 and a factor of 1
+	// (axis.Findings.PictureUnitSD), for refitting the model.
+	Unit float64
 }
 
 // Err is est − truth (wrapped to ±180° for angles).
@@ -66,6 +69,14 @@ type Case struct {
 	// GeneratorAxisDeg is the dipole's own QRS axis (NaN for a real
 	// record), for a second look at the axis's coverage.
 	GeneratorAxisDeg float64
+	// Page is what the pipeline knew of the page (pipeline.PictureFacts)
+	// and MeanConf the mean lead confidence the measurements used: the
+	// inputs of each measurement's picture factor.
+	Page     axis.Picture
+	MeanConf float64
+	// Doubts are what the measurements said against themselves
+	// (axis.Findings.TimeScaleRatio, axis.RateDisagrees).
+	Doubts axis.Doubts
 }
 
 // Run draws and measures cases [from, from+n) of the suite for seed.
@@ -118,6 +129,8 @@ func runCase(seed int64, i int, conds []string, real *record.Record, model *axis
 	if o.Findings == nil {
 		return c
 	}
+	c.Page, c.MeanConf = pipeline.PictureFacts(o.Calib, o.Digitized), o.Findings.MeanLeadConfidence
+	c.Doubts = axis.Doubts{TimeRatio: o.Findings.TimeScaleRatio, Rate: axis.RateDisagrees(o.Findings)}
 	truth, err := axis.Measure(sc.Record, axis.Options{})
 	if err != nil {
 		c.Err = "truth: " + err.Error()
@@ -144,9 +157,12 @@ func Compare(est, truth *axis.Findings) map[string]Meas {
 			return
 		}
 		m := Meas{Est: float64(v), Lo: float64(ci[0]), Hi: float64(ci[1]), Truth: float64(tv), Exact: float64(tv),
-			EngineSD: float64(est.SpreadSD[name]), PictureSD: float64(est.PictureSD[name])}
+			EngineSD: float64(est.SpreadSD[name]), PictureSD: float64(est.PictureSD[name]), Unit: float64(est.PictureUnitSD[name])}
 		if !est.SpreadSD[name].OK() {
 			m.EngineSD = 0
+		}
+		if !est.PictureUnitSD[name].OK() {
+			m.Unit = 0
 		}
 		out[name] = m
 	}
@@ -161,10 +177,13 @@ func Compare(est, truth *axis.Findings) map[string]Meas {
 }
 
 // covered reports whether the interval holds the truth (on the circle
-// for the axis).
+// for the axis, whose intervals are symmetric).
 func covered(measure string, m Meas) bool {
-	h := (m.Hi - m.Lo) / 2
-	return math.Abs(m.Err(measure)) <= h+1e-9
+	if isAngle(measure) {
+		h := (m.Hi - m.Lo) / 2
+		return math.Abs(m.Err(measure)) <= h+1e-9
+	}
+	return m.Lo-1e-9 <= m.Truth && m.Truth <= m.Hi+1e-9
 }
 
 // Exact returns the cases with the truth replaced by the engine's
@@ -223,6 +242,8 @@ func Table(w io.Writer, cases []Case, conds []string) {
 	CoverageTable(w, cases, conds, "the true value: the generator's for dipole records, the engine on the exact signals for real ones")
 	fmt.Fprintln(w)
 	CoverageTable(w, Exact(cases), conds, "the engine's reading of the exact signals (the picture's error alone)")
+	fmt.Fprintln(w)
+	HalfWidths(w, cases, conds)
 	Verdicts(w, cases, conds)
 }
 
@@ -288,53 +309,4 @@ func Verdicts(w io.Writer, cases []Case, conds []string) {
 		parts = append(parts, fmt.Sprintf("%s %d", k, count[k]))
 	}
 	fmt.Fprintf(w, "reasons: %s\n", strings.Join(parts, ", "))
-}
-
-// Fit returns the picture model under which each measure's intervals
-// hold the truth in share of the readable cases, given the cases measured
-// under model (their PictureSD scale with the model's sizes).
-func Fit(cases []Case, model axis.PictureModel, share float64) axis.PictureModel {
-	size := map[string]*float64{
-		"heart_rate_bpm": &model.HRPercent, "pr": &model.PRMS, "qrs": &model.QRSMS,
-		"qt": &model.QTMS, "qrs_deg": &model.QRSAreaMVMS,
-	}
-	for name, p := range size {
-		old := *p
-		if old <= 0 {
-			continue
-		}
-		var es, sds, units []float64
-		for _, c := range cases {
-			m, ok := c.Meas[name]
-			if !Readable(c) || !ok {
-				continue
-			}
-			es = append(es, math.Abs(m.Err(name)))
-			sds = append(sds, m.EngineSD)
-			units = append(units, m.PictureSD/old)
-		}
-		if len(es) == 0 {
-			continue
-		}
-		cover := func(b float64) float64 {
-			n := 0
-			for i := range es {
-				if es[i] <= axis.Z90*math.Hypot(sds[i], math.Min(180, b*units[i])) {
-					n++
-				}
-			}
-			return float64(n) / float64(len(es))
-		}
-		lo, hi := 0.0, 1000*old
-		for k := 0; k < 60; k++ {
-			mid := (lo + hi) / 2
-			if cover(mid) < share {
-				lo = mid
-			} else {
-				hi = mid
-			}
-		}
-		*p = hi
-	}
-	return model
 }

@@ -91,6 +91,8 @@ func Outside(dir string) ([]Case, error) {
 			continue
 		}
 		c.Meas = Compare(o.Findings, truth)
+		c.Page, c.MeanConf = pipeline.PictureFacts(o.Calib, o.Digitized), o.Findings.MeanLeadConfidence
+		c.Doubts = axis.Doubts{TimeRatio: o.Findings.TimeScaleRatio, Rate: axis.RateDisagrees(o.Findings)}
 		if s := tr.Synthetic; s != nil {
 			c.GeneratorAxisDeg = s.QRSAxisNetDeg
 			for k, m := range c.Meas {

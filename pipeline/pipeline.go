@@ -131,8 +131,9 @@ func (o *Outcome) Remeasure(opt axis.Options) {
 		}
 	}
 	if !opt.Picture.Digitized && o.Calib != nil {
-		law, _ := worstLaw(o.Digitized)
-		opt.Picture = axis.Picture{Digitized: true, ScaleConfidence: o.Calib.Confidence, LawResidualUV: law, Model: opt.Picture.Model}
+		model := opt.Picture.Model
+		opt.Picture = PictureFacts(o.Calib, o.Digitized)
+		opt.Picture.Model = model
 	}
 	f, err := axis.Measure(o.Digitized.Record, opt)
 	o.Timings.Measure = time.Since(t)
@@ -141,6 +142,43 @@ func (o *Outcome) Remeasure(opt axis.Options) {
 	if o.Verdict.Level == NotReadable {
 		withhold(f)
 	}
+}
+
+// PictureFacts gathers what the calibration and the tracing know of the
+// page for the picture's share of the measurements' uncertainty: the
+// scale's source and confidence, whether a pulse was read, whether time 0
+// is sure, the limb-law residual, the share of faint and gappy leads
+// (the limits the verdict uses), and whether the picture is black and
+// white.
+func PictureFacts(cal *calib.Result, dr *digitize.Result) axis.Picture {
+	p := axis.Picture{Digitized: true}
+	if cal != nil {
+		p.ScaleConfidence = cal.Confidence
+		p.ScaleSource = cal.Source
+		p.PulseAssumed = len(cal.Pulses) == 0
+		p.Bilevel = cal.Bilevel
+	}
+	if dr == nil || dr.Record == nil {
+		return p
+	}
+	p.LawResidualUV, _ = worstLaw(dr)
+	p.TimeZeroUnsure = dr.TimeZero == digitize.T0Fall
+	leads := dr.Record.Leads()
+	var faint, gappy int
+	for _, l := range leads {
+		q := dr.Quality[l]
+		if q.Confidence < leadCare {
+			faint++
+		}
+		if q.Coverage < 0.8 {
+			gappy++
+		}
+	}
+	if n := len(leads); n > 0 {
+		p.FaintShare = float64(faint) / float64(n)
+		p.GappyShare = float64(gappy) / float64(n)
+	}
+	return p
 }
 
 // FillProvenance records in rec where it came from: the image, its scale and

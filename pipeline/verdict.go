@@ -85,8 +85,8 @@ const (
 	rrSpreadBad = 0.35
 	// A rate more than this share away from the one the beats' median
 	// interval gives carries a stray interval (a pulse taken for a beat,
-	// say).
-	rateDisagree = 0.06
+	// say); the measurements' own doubt uses the same limit.
+	rateDisagree = axis.RateDisagreeShare
 	// A QRS axis interval wider than this (half-width, degrees) says
 	// nothing about the axis.
 	axisHalfCare = 30
@@ -189,6 +189,10 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 	} else if hr := f.HeartRateBPM; len(rrs) >= 3 && hr.OK() && math.Abs(float64(hr)-60/med) > rateDisagree*60/med {
 		add(Care, "rate_disagrees", "count the beats on the paper",
 			"the rate (%.0f bpm) disagrees with the beats found across the page (%.0f bpm from their median interval)", float64(hr), 60/med)
+	}
+	if f.TimeScaleDoubt {
+		add(Care, "time_scale_doubt", "check the paper speed printed on the page (25 or 50 mm/s) and give it by hand",
+			"the QRS (%.0f ms) and QT (%.0f ms) are what a heart shows at another paper speed than the %g mm/s read: the speed was probably misread, and every interval and the rate with it", float64(f.IntervalsMS.QRS), float64(f.IntervalsMS.QT), cal.SpeedMMPerS)
 	}
 	if f.RhythmNote != "" {
 		add(Care, "rhythm_unsure", "count the beats on the paper", "%s", f.RhythmNote)

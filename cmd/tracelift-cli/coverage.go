@@ -25,7 +25,10 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 	seed := fs.Int64("seed", 1, "seed of the suite (the bench's suite)")
 	conds := fs.String("conditions", "clean,rotated,photocopy,photo,fax", "conditions to cycle through")
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
-	fit := fs.Bool("fit", false, "also fit the picture-error model to 90 % coverage on these cases and print it")
+	fit := fs.Bool("fit", false, "also fit the picture-error model (sizes and the weights of the page's facts) to these cases, print it and the table under it")
+	share := fs.Float64("share", 0.90, "with --fit, the share of cases the fitted intervals are to hold")
+	penalty := fs.Float64("penalty", coverage.FactPenalty, "with --fit, the extra charge on the width the page's facts add (shrinkage)")
+	restate := fs.Bool("restate", false, "state the intervals under this build's picture model before the table (for cases read with --from-csv that another build measured)")
 	csvOut := fs.String("csv", "", "also write one row per case and measurement to this CSV file")
 	csvIn := fs.String("from-csv", "", "read the cases from a CSV file written by --csv instead of rendering them")
 	outside := fs.String("outside", "", "check the outside pages in this folder (outsideNN.json beside each picture) instead of the rendered suite")
@@ -88,6 +91,9 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 	} else {
 		cases = coverage.Run(*seed, *from, *n, condList, real, nil, stderr)
 	}
+	if *restate {
+		cases = coverage.Restate(cases, axis.DefaultPictureModel)
+	}
 	if *csvOut != "" {
 		err := atomic.WriteFile(*csvOut, func(w io.Writer) error { return coverage.WriteCSV(w, cases) }, 0o644)
 		if err != nil {
@@ -97,8 +103,13 @@ func cmdCoverage(args []string, stdout, stderr io.Writer) int {
 	}
 	coverage.Table(stdout, cases, condList)
 	if *fit {
-		m := coverage.Fit(cases, axis.DefaultPictureModel, 0.90)
-		fmt.Fprintf(stdout, "\nfitted picture model (90 %% on these cases): %+v\n", m)
+		if !(*share > 0 && *share < 1) {
+			return usageError(stderr, "coverage", "--share must lie between 0 and 1")
+		}
+		coverage.FactPenalty = *penalty
+		m := coverage.FitPage(cases, axis.DefaultPictureModel, *share)
+		fmt.Fprintf(stdout, "\nfitted picture model (%.0f %% on these cases):\n%#v\n\nunder it:\n", 100**share, m)
+		coverage.Table(stdout, coverage.Restate(cases, m), condList)
 	}
 	return 0
 }

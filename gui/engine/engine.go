@@ -394,17 +394,17 @@ func Summarize(f *axis.Findings) *model.Summary {
 	iv := f.IntervalsMS
 	s := &model.Summary{
 		Values: []model.Value{
-			{Key: "heart_rate_bpm", Label: "Heart rate", Unit: "bpm", V: n(f.HeartRateBPM), SD: half(f.HeartRateCI90, f.HeartRateSD)},
-			{Key: "pr", Label: "PR", Unit: "ms", V: n(iv.PR), SD: half(iv.PRCI90, iv.PRSD)},
-			{Key: "qrs", Label: "QRS", Unit: "ms", V: n(iv.QRS), SD: half(iv.QRSCI90, iv.QRSSD)},
-			{Key: "qt", Label: "QT", Unit: "ms", V: n(iv.QT), SD: half(iv.QTCI90, iv.QTSD)},
-			{Key: "qtc_bazett", Label: "QTc Bazett", Unit: "ms", V: n(iv.QTcBazett), SD: half(iv.QTcBazettCI90, iv.QTcSD)},
+			{Key: "heart_rate_bpm", Label: "Heart rate", Unit: "bpm", V: n(f.HeartRateBPM), SD: half(f.HeartRateBPM, f.HeartRateCI90, f.HeartRateSD)},
+			{Key: "pr", Label: "PR", Unit: "ms", V: n(iv.PR), SD: half(iv.PR, iv.PRCI90, iv.PRSD)},
+			{Key: "qrs", Label: "QRS", Unit: "ms", V: n(iv.QRS), SD: half(iv.QRS, iv.QRSCI90, iv.QRSSD)},
+			{Key: "qt", Label: "QT", Unit: "ms", V: n(iv.QT), SD: half(iv.QT, iv.QTCI90, iv.QTSD)},
+			{Key: "qtc_bazett", Label: "QTc Bazett", Unit: "ms", V: n(iv.QTcBazett), SD: half(iv.QTcBazett, iv.QTcBazettCI90, iv.QTcSD)},
 			{Key: "qtc_fridericia", Label: "QTc Fridericia", Unit: "ms", V: n(iv.QTcFridericia), SD: math.NaN()},
 			{Key: "qtc_framingham", Label: "QTc Framingham", Unit: "ms", V: n(iv.QTcFramingham), SD: math.NaN()},
 			{Key: "qtc_hodges", Label: "QTc Hodges", Unit: "ms", V: n(iv.QTcHodges), SD: math.NaN()},
-			{Key: "qrs_deg", Label: "QRS axis", Unit: "°", V: n(f.Axis.QRSDeg), SD: half(f.Axis.QRSDegCI90, f.Axis.QRSDegSD)},
-			{Key: "p_deg", Label: "P axis", Unit: "°", V: n(f.Axis.PDeg), SD: half(f.Axis.PDegCI90, f.Axis.PDegSD)},
-			{Key: "t_deg", Label: "T axis", Unit: "°", V: n(f.Axis.TDeg), SD: half(f.Axis.TDegCI90, f.Axis.TDegSD)},
+			{Key: "qrs_deg", Label: "QRS axis", Unit: "°", V: n(f.Axis.QRSDeg), SD: half(f.Axis.QRSDeg, f.Axis.QRSDegCI90, f.Axis.QRSDegSD)},
+			{Key: "p_deg", Label: "P axis", Unit: "°", V: n(f.Axis.PDeg), SD: half(f.Axis.PDeg, f.Axis.PDegCI90, f.Axis.PDegSD)},
+			{Key: "t_deg", Label: "T axis", Unit: "°", V: n(f.Axis.TDeg), SD: half(f.Axis.TDeg, f.Axis.TDegCI90, f.Axis.TDegSD)},
 		},
 		QRSAxisDeg: n(f.Axis.QRSDeg), PAxisDeg: n(f.Axis.PDeg), TAxisDeg: n(f.Axis.TDeg),
 		AxisClass:  axisClass(f.Axis),
@@ -437,9 +437,14 @@ func axisClass(a axis.Axes) string {
 	return a.QRSCategory
 }
 
-// half returns the half-width of a 90 % interval, or sd when there is none.
-func half(ci [2]axis.Num, sd axis.Num) float64 {
+// half returns the half-width of a 90 % interval about v (its wider side
+// when the interval is stretched to one side, as on a page whose time
+// scale is in doubt), or sd when there is none.
+func half(v axis.Num, ci [2]axis.Num, sd axis.Num) float64 {
 	if ci[0].OK() && ci[1].OK() {
+		if v.OK() {
+			return math.Max(float64(v-ci[0]), float64(ci[1]-v))
+		}
 		return float64(ci[1]-ci[0]) / 2
 	}
 	if sd.OK() {
