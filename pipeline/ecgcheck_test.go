@@ -12,6 +12,8 @@ import (
 	"math"
 	"math/rand"
 	"os"
+	"path/filepath"
+	"strings"
 	"testing"
 
 	xfont "golang.org/x/image/font"
@@ -183,5 +185,37 @@ func TestTextPageRefused(t *testing.T) {
 			}
 			t.Errorf("%s: %v, want a wrapped calib.ErrNotECG\n%s", c.name, err, brief)
 		}
+	}
+}
+
+// The pictures kept in testdata/not-ecg (see its README) are refused:
+// "no ECG found", or "no scale" where nothing on the page gives one, and
+// never read.
+func TestNotECGCorpus(t *testing.T) {
+	if testing.Short() {
+		t.Skip("reads several pages")
+	}
+	files, err := filepath.Glob("testdata/not-ecg/*.*")
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := 0
+	for _, f := range files {
+		if strings.HasSuffix(f, ".md") {
+			continue
+		}
+		n++
+		o, err := Process(context.Background(), f, Options{})
+		if errors.Is(err, calib.ErrNotECG) || errors.Is(err, calib.ErrNoScale) {
+			continue
+		}
+		var brief string
+		if err == nil && o != nil {
+			brief = o.Brief()
+		}
+		t.Errorf("%s: %v, want no ECG found\n%s", f, err, brief)
+	}
+	if n < 6 {
+		t.Errorf("only %d pictures in testdata/not-ecg", n)
 	}
 }
