@@ -79,3 +79,41 @@ func TestPagePrior(t *testing.T) {
 		t.Errorf("a 4:3 photo frame is no sheet: %v", s)
 	}
 }
+
+// The printed settings may stand in wherever the gain and speed were
+// assumed: with no pulse found, and with only a candidate of no standard
+// height (kept in the list of pulses); not where a pulse of a standard
+// height (10 mm for 1 mV at 10 mm/mV, common practice) was read or the
+// user gave the scale. Decided from the pulses, not from the wording of
+// the warnings.
+func TestSettingsAssumed(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		r    *Result
+		want bool
+	}{
+		{"candidate", &Result{Source: "grid", Pulses: []Pulse{{HeightMM: 3.14}}}, true},
+		{"none", &Result{Source: "grid"}, true},
+		{"measured", &Result{Source: "grid", Pulses: []Pulse{{HeightMM: 10}}}, false},
+		{"measured at 5 mm/mV", &Result{Source: "pulse", Pulses: []Pulse{{HeightMM: 5.1}}}, false},
+		{"user", &Result{Source: "user"}, false},
+	} {
+		if got := c.r.SettingsAssumed(); got != c.want {
+			t.Errorf("%s: SettingsAssumed %v, want %v", c.name, got, c.want)
+		}
+	}
+}
+
+// Candidates of two standard heights mixed on one page (text boxes near
+// 2.5 mm, pulses near 20 mm) give a median of no standard gain: the
+// settings are assumed, as settleSettings says in its warning.
+func TestSettingsAssumedMixedCandidates(t *testing.T) {
+	r := &Result{Source: "grid"}
+	for _, h := range []float64{2.35, 2.18, 1.88, 2.66, 2.49, 2.32, 19.89, 19.72, 19.6, 19.6} {
+		r.Pulses = append(r.Pulses, Pulse{HeightMM: h, WidthMM: 5})
+	}
+	_, _, warn := settleSettings(r.Pulses, Options{})
+	if !r.SettingsAssumed() || len(warn) == 0 {
+		t.Errorf("SettingsAssumed %v with warnings %q", r.SettingsAssumed(), warn)
+	}
+}

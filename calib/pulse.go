@@ -339,6 +339,30 @@ func snap(v float64, std []float64, tol float64) (float64, bool) {
 	return v, false
 }
 
+// pulseGain reads the gain from pulse candidates: the median height hm and
+// width wm of those of a standard height (they speak for the page; the
+// others are boxes of text or lead-switch marks), or of all when none is,
+// and the standard gain g that hm is, ok false when it is none.
+func pulseGain(ps []Pulse) (hm, wm, g float64, ok bool) {
+	var std []Pulse
+	for _, p := range ps {
+		if _, ok := snap(p.HeightMM/pulseMV, stdGains, 0.1); ok {
+			std = append(std, p)
+		}
+	}
+	if len(std) > 0 {
+		ps = std
+	}
+	hs := make([]float64, len(ps))
+	ws := make([]float64, len(ps))
+	for i, p := range ps {
+		hs[i], ws[i] = p.HeightMM, p.WidthMM
+	}
+	hm, wm = median(hs), median(ws)
+	g, ok = snap(hm/pulseMV, stdGains, 0.1)
+	return hm, wm, g, ok
+}
+
 // settleSettings turns pulse sizes (mm) into gain and speed, compares with
 // what was stated, and says what it did.
 func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string) {
@@ -354,24 +378,7 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 		warn = append(warn, fmt.Sprintf("no calibration pulse found: gain %.4g mm/mV and speed %.4g mm/s are assumed, not measured", gain, speed))
 		return
 	}
-	// Candidates of a standard height speak for the page; the others are
-	// boxes of text or lead-switch marks.
-	var std []Pulse
-	for _, p := range ps {
-		if _, ok := snap(p.HeightMM/pulseMV, stdGains, 0.1); ok {
-			std = append(std, p)
-		}
-	}
-	if len(std) > 0 {
-		ps = std
-	}
-	hs := make([]float64, len(ps))
-	ws := make([]float64, len(ps))
-	for i, p := range ps {
-		hs[i], ws[i] = p.HeightMM, p.WidthMM
-	}
-	hm, wm := median(hs), median(ws)
-	g, okG := snap(hm/pulseMV, stdGains, 0.1)
+	hm, wm, g, okG := pulseGain(ps)
 	gain = g
 	if !okG {
 		// What looked like a pulse is no standard one: neither its height

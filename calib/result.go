@@ -83,3 +83,20 @@ var (
 	ErrTooBig  = errors.New("calib: image exceeds the pixel budget")
 	ErrFormat  = errors.New("calib: unsupported or damaged image file")
 )
+
+// SettingsAssumed reports that the gain and speed were not measured: no
+// calibration pulse of a standard height was read (none was found, or
+// the candidates' height is no standard gain; see pulseGain, which
+// settleSettings decides by), and the user did not give
+// the scale. GainMMPerMV and SpeedMMPerS are then the stated or usual
+// values, and the page's printed settings may stand in for them.
+func (r *Result) SettingsAssumed() bool {
+	if r == nil || r.Source == "user" {
+		return false
+	}
+	if len(r.Pulses) == 0 {
+		return true
+	}
+	_, _, _, ok := pulseGain(r.Pulses)
+	return !ok
+}

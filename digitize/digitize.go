@@ -203,7 +203,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: %.3g mm/mV is not a standard gain and no calibration pulse leads the rows; 10 mm/mV is assumed", cal.GainMMPerMV))
 		cal.GainMMPerMV = 10
 	}
-	if gn == 0 && noPulse(cal) {
+	if gn == 0 && cal.SettingsAssumed() {
 		readSettings(g, rows, pitch, cal)
 	}
 	misfit := ""

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strings"
 
 	"tracelift/calib"
 )
@@ -317,21 +316,6 @@ func printedSettings(g *gray, rows []rowInfo, pitch, pxPerMM float64) (speed, ga
 		}
 	}
 	return speed, gain
-}
-
-// noPulse says whether calib assumed the common settings: it found no
-// calibration pulse, or only a candidate of no standard height.
-func noPulse(cal *calib.Result) bool {
-	if cal.Source == "user" {
-		return false
-	}
-	for _, w := range cal.Warnings {
-		if strings.HasPrefix(w, "no calibration pulse found") && len(cal.Pulses) == 0 ||
-			strings.HasPrefix(w, "a calibration pulse candidate") && strings.HasSuffix(w, "are assumed, not measured") {
-			return true
-		}
-	}
-	return false
 }
 
 // readSettings takes the speed and gain printed on a page without

@@ -5,7 +5,6 @@ import (
 	"strings"
 	"testing"
 
-	"tracelift/calib"
 	"tracelift/samples"
 )
 
@@ -114,23 +113,3 @@ func TestStripLabelUnreadWarns(t *testing.T) {
 	}
 }
 
-// The printed settings stand in wherever calib assumed the common ones:
-// with no pulse found, and with only a candidate of no standard height
-// (which calib keeps in its list of pulses); not where a pulse was
-// measured or the user gave the settings.
-func TestNoPulse(t *testing.T) {
-	cand := &calib.Result{Source: "grid", Pulses: []calib.Pulse{{HeightMM: 3.14}},
-		Warnings: []string{"a calibration pulse candidate is 3.14 mm tall, which is no standard gain; 10 mm/mV and 25 mm/s are assumed, not measured"}}
-	none := &calib.Result{Source: "grid", Warnings: []string{"no calibration pulse found: gain 10 mm/mV and speed 25 mm/s are assumed, not measured"}}
-	measured := &calib.Result{Source: "grid", Pulses: []calib.Pulse{{HeightMM: 10}}}
-	user := &calib.Result{Source: "user", Warnings: none.Warnings}
-	for _, c := range []struct {
-		name string
-		cal  *calib.Result
-		want bool
-	}{{"candidate", cand, true}, {"none", none, true}, {"measured", measured, false}, {"user", user, false}} {
-		if got := noPulse(c.cal); got != c.want {
-			t.Errorf("%s: noPulse %v, want %v", c.name, got, c.want)
-		}
-	}
-}
