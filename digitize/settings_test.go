@@ -112,4 +112,3 @@ func TestStripLabelUnreadWarns(t *testing.T) {
 		t.Errorf("no warning that the label went unread: %q", cal.Warnings)
 	}
 }
-
