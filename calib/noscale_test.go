@@ -104,9 +104,10 @@ func TestSettingsAssumed(t *testing.T) {
 	}
 }
 
-// Candidates of two standard heights mixed on one page (text boxes near
-// 2.5 mm, pulses near 20 mm) give a median of no standard gain: the
-// settings are assumed, as settleSettings says in its warning.
+// Candidates of two standard heights and the same standard width mixed on
+// one page (boxes near 2.5 mm, pulses near 20 mm, all 5 mm wide) give a
+// median of no standard gain: the settings are assumed, as settleSettings
+// says in its warning.
 func TestSettingsAssumedMixedCandidates(t *testing.T) {
 	r := &Result{Source: "grid"}
 	for _, h := range []float64{2.35, 2.18, 1.88, 2.66, 2.49, 2.32, 19.89, 19.72, 19.6, 19.6} {
@@ -115,5 +116,27 @@ func TestSettingsAssumedMixedCandidates(t *testing.T) {
 	_, _, warn := settleSettings(r.Pulses, Options{})
 	if !r.SettingsAssumed() || len(warn) == 0 {
 		t.Errorf("SettingsAssumed %v with warnings %q", r.SettingsAssumed(), warn)
+	}
+}
+
+// The pulses of a page printed at the rows' right ends (bench seed 1 case
+// 88: 20 mm/mV, 200 ms at 25 mm/s, so 20 mm tall and 5 mm wide) beside
+// label boxes near 2.5 mm tall and 8 mm wide: the boxes are of a standard
+// height by chance but of no standard width, and the gain is read from
+// the pulses (common practice: the pulse is 1 mV for 200 ms).
+func TestPulseGainPrefersStandardWidth(t *testing.T) {
+	var ps []Pulse
+	for _, h := range []float64{2.35, 2.18, 1.88, 2.66, 1.93, 1.99, 2.49, 2.32} {
+		ps = append(ps, Pulse{HeightMM: h, WidthMM: 8.2})
+	}
+	for _, h := range []float64{19.89, 19.72, 19.6, 19.6} {
+		ps = append(ps, Pulse{HeightMM: h, WidthMM: 4.9})
+	}
+	g, sp, warn := settleSettings(ps, Options{})
+	if g != 20 || sp != 25 || len(warn) != 0 {
+		t.Errorf("read %g mm/mV, %g mm/s, warnings %q; want 20 and 25, none", g, sp, warn)
+	}
+	if (&Result{Source: "grid", Pulses: ps}).SettingsAssumed() {
+		t.Error("settings taken as assumed")
 	}
 }

@@ -341,7 +341,8 @@ func snap(v float64, std []float64, tol float64) (float64, bool) {
 
 // pulseGain reads the gain from pulse candidates: the median height hm and
 // width wm of those of a standard height (they speak for the page; the
-// others are boxes of text or lead-switch marks), or of all when none is,
+// others are boxes of text or lead-switch marks), and of these of the
+// ones also of a standard width when some are, or of all when none is,
 // and the standard gain g that hm is, ok false when it is none.
 func pulseGain(ps []Pulse) (hm, wm, g float64, ok bool) {
 	var std []Pulse
@@ -352,6 +353,18 @@ func pulseGain(ps []Pulse) (hm, wm, g float64, ok bool) {
 	}
 	if len(std) > 0 {
 		ps = std
+	}
+	// Of those, the ones also as wide as 200 ms at a standard speed are
+	// pulses; boxes around text can be of a standard height by chance (a
+	// page's label boxes 2.5 mm tall beside its 20 mm pulses).
+	var both []Pulse
+	for _, p := range ps {
+		if _, ok := snap(p.WidthMM/pulseS, stdSpeeds, 0.15); ok && len(std) > 0 {
+			both = append(both, p)
+		}
+	}
+	if len(both) > 0 && len(both) < len(ps) {
+		ps = both
 	}
 	hs := make([]float64, len(ps))
 	ws := make([]float64, len(ps))
