@@ -1,7 +1,6 @@
 package digitize
 
 import (
-	"fmt"
 	"math"
 	"sort"
 
@@ -318,19 +317,12 @@ func printedSettings(g *gray, rows []rowInfo, pitch, pxPerMM float64) (speed, ga
 	return speed, gain
 }
 
-// readSettings takes the speed and gain printed on a page without
-// calibration pulses in place of the assumed 25 mm/s and 10 mm/mV,
-// with a warning.
-func readSettings(g *gray, rows []rowInfo, pitch float64, cal *calib.Result) {
+// readSettings reads the speed and gain printed on the page and hands
+// them to calib, whose rule (calib.Result.TakePrinted) decides what is
+// used; pulseAssumed says that no calibration pulse gave the gain.
+func readSettings(g *gray, rows []rowInfo, pitch float64, cal *calib.Result, pulseAssumed bool) {
 	speed, gain := printedSettings(g, rows, pitch, cal.PxPerMM)
-	if gain > 0 && gain != cal.GainMMPerMV && cal.GainMMPerMV == 10 {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: no calibration pulse; the page's text reads %g mm/mV, which is used (check it)", gain))
-		cal.GainMMPerMV = gain
-	}
-	if speed > 0 && speed != cal.SpeedMMPerS && cal.SpeedMMPerS == 25 {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: no calibration pulse; the page's text reads %g mm/s, which is used (check it)", speed))
-		cal.SpeedMMPerS = speed
-	}
+	cal.TakePrinted(speed, gain, pulseAssumed)
 }
 
 // Reading a single strip's lead name. A page holding one strip names
