@@ -5,9 +5,8 @@ import "testing"
 // The printed speed against the pulse's width (Result.TakePrinted). A
 // pulse is read as the common 200 ms, and carts draw narrower ones, so the
 // printed speed (common practice: a 12-lead page prints it) wins over a
-// pulse that disagrees; a speed given by the caller or by hand stays; with
-// no grid the millimetres themselves came from the pulse, so the text
-// does not move the speed alone. The printed gain stands in only where
+// pulse that disagrees, also where the scale came from the pulse and the
+// sheet; a speed given by the caller or by hand stays. The printed gain stands in only where
 // no pulse gave one.
 func TestTakePrinted(t *testing.T) {
 	for _, c := range []struct {
@@ -25,7 +24,7 @@ func TestTakePrinted(t *testing.T) {
 		{"pulse gain kept", Result{Source: "grid", SpeedMMPerS: 25, SpeedFrom: SpeedPulse, GainMMPerMV: 10}, 0, 20, false, 25, 10, SpeedPulse},
 		{"stated speed kept", Result{Source: "grid", SpeedMMPerS: 25, SpeedFrom: SpeedStated, GainMMPerMV: 10}, 50, 0, true, 25, 10, SpeedStated},
 		{"by hand kept", Result{Source: "user", SpeedMMPerS: 25, SpeedFrom: SpeedAssumed, GainMMPerMV: 10}, 50, 5, true, 25, 10, SpeedAssumed},
-		{"scale from the pulse", Result{Source: "pulse", SpeedMMPerS: 25, SpeedFrom: SpeedPulse, GainMMPerMV: 10}, 50, 0, false, 25, 10, SpeedPulse},
+		{"scale from the pulse", Result{Source: "pulse", SpeedMMPerS: 25, SpeedFrom: SpeedPulse, GainMMPerMV: 10}, 50, 0, false, 50, 10, SpeedPrinted},
 		{"nothing read", Result{Source: "grid", SpeedMMPerS: 25, SpeedFrom: SpeedAssumed, GainMMPerMV: 10}, 0, 0, true, 25, 10, SpeedAssumed},
 	} {
 		t.Run(c.name, func(t *testing.T) {

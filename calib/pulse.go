@@ -447,7 +447,9 @@ const (
 // several makes), so a 5 mm pulse is 25 mm/s or 50 mm/s with a 100 ms
 // pulse; the printed speed is what the cart says it ran at, and wins over
 // the pulse (common practice: the speed is printed on every 12-lead page).
-// A speed given by the caller is kept. The gain: the pulse's height does
+// A speed given by the caller is kept. With no grid the millimetres
+// came from the pulse and the sheet's size together (Detect's fit), and
+// they stand: the text changes only the pulse's duration taken. The gain: the pulse's height does
 // not share that doubt (a 1 mV pulse, common practice), so the printed
 // gain is taken only where no pulse was read (pulseAssumed) and 10 mm/mV
 // was assumed.
@@ -460,13 +462,6 @@ func (r *Result) TakePrinted(speed, gain float64, pulseAssumed bool) {
 		r.GainMMPerMV = gain
 	}
 	if !(speed > 0) || r.SpeedFrom == SpeedStated {
-		return
-	}
-	if r.Source == "pulse" && speed != r.SpeedMMPerS {
-		// No grid: the millimetres themselves were read from the pulse at
-		// the speed that best explains it, so the text cannot correct the
-		// speed alone.
-		r.Warnings = append(r.Warnings, fmt.Sprintf("the page's text reads %g mm/s, but the scale and the speed (%g mm/s) come from the calibration pulse; check the speed", speed, r.SpeedMMPerS))
 		return
 	}
 	switch {

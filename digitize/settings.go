@@ -243,9 +243,10 @@ func (gl glyph) digit() int {
 }
 
 // mLike says whether a glyph could be a lower-case m: short (at most
-// 80 % of the line's tallest glyph) and at least 3/4 as wide as tall.
+// 80 % of the line's tallest glyph) and at least 3/5 as wide as tall (a
+// condensed face's m is about 2/3).
 func (gl glyph) mLike(lineH int) bool {
-	return float64(gl.h()) <= 0.8*float64(lineH) && 4*gl.w() >= 3*gl.h()
+	return float64(gl.h()) <= 0.8*float64(lineH) && 5*gl.w() >= 3*gl.h()
 }
 
 // printedSettings reads "… mm/s" and "… mm/mV" from the page's text
@@ -293,7 +294,10 @@ func printedSettings(g *gray, rows []rowInfo, pitch, pxPerMM float64) (speed, ga
 			}
 			first := num[0].digit()
 			// Gain when a letter pair (the "mV") follows the slash.
-			isGain := i+2 < len(line) && line[i+1].mLike(lineH) && line[i+2].x0-line[i+1].x1 < lineH/2
+			// The V is a capital, near the line's height: a speck after
+			// the "s" of "mm/s" is none.
+			isGain := i+2 < len(line) && line[i+1].mLike(lineH) && line[i+2].x0-line[i+1].x1 < lineH/2 &&
+				float64(line[i+2].h()) >= 0.7*float64(lineH)
 			switch {
 			case isGain && gain == 0:
 				switch {
