@@ -458,7 +458,7 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		ps[i].WidthMM /= s
 	}
 	res.Pulses = ps
-	res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, ps, opt)
+	res.GainMMPerMV, res.SpeedMMPerS, res.SpeedFrom, res.Warnings = appendSettings(res.Warnings, ps, opt)
 	checkHint(pg, res)
 	return res, nil
 }
@@ -495,9 +495,9 @@ func cropExtent(Hf mat3, gm gridModel, ix0, ix1, iy0, iy1 float64) (X0, X1, Y0, 
 	return
 }
 
-func appendSettings(w []string, ps []Pulse, opt Options) (float64, float64, []string) {
-	g, sp, ws := settleSettings(ps, opt)
-	return g, sp, append(w, ws...)
+func appendSettings(w []string, ps []Pulse, opt Options) (float64, float64, string, []string) {
+	g, sp, from, ws := settleSettings(ps, opt)
+	return g, sp, from, append(w, ws...)
 }
 
 // checkHint compares the file's stated resolution with the grid's.
@@ -829,9 +829,9 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 	res.Pulses = ps
 	if res.Source == "pulse" {
 		// The pulse's settings came with the scale.
-		res.GainMMPerMV, res.SpeedMMPerS = fit.gain, fit.spd
+		res.GainMMPerMV, res.SpeedMMPerS, res.SpeedFrom = fit.gain, fit.spd, SpeedPulse
 	} else {
-		res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, ps, opt)
+		res.GainMMPerMV, res.SpeedMMPerS, res.SpeedFrom, res.Warnings = appendSettings(res.Warnings, ps, opt)
 	}
 	return res, nil
 }

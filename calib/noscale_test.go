@@ -48,14 +48,14 @@ func TestFaxScaleFromSheet(t *testing.T) {
 // Kligfield et al. 2007) is not taken as a gain: 10 mm/mV, the standard,
 // is assumed with a warning.
 func TestNonStandardPulseGain(t *testing.T) {
-	g, sp, warn := settleSettings([]Pulse{{HeightMM: 3.05, WidthMM: 5}}, Options{})
+	g, sp, _, warn := settleSettings([]Pulse{{HeightMM: 3.05, WidthMM: 5}}, Options{})
 	if g != 10 || sp != 25 {
 		t.Errorf("gain %v speed %v, want 10 and 25", g, sp)
 	}
 	if len(warn) == 0 || !strings.Contains(warn[0], "assumed") {
 		t.Errorf("warnings %q", warn)
 	}
-	g, _, _ = settleSettings([]Pulse{{HeightMM: 3.05, WidthMM: 5}}, Options{StatedGainMMPerMV: 20})
+	g, _, _, _ = settleSettings([]Pulse{{HeightMM: 3.05, WidthMM: 5}}, Options{StatedGainMMPerMV: 20})
 	if g != 20 {
 		t.Errorf("stated 20 mm/mV, got %v", g)
 	}
@@ -113,7 +113,7 @@ func TestSettingsAssumedMixedCandidates(t *testing.T) {
 	for _, h := range []float64{2.35, 2.18, 1.88, 2.66, 2.49, 2.32, 19.89, 19.72, 19.6, 19.6} {
 		r.Pulses = append(r.Pulses, Pulse{HeightMM: h, WidthMM: 5})
 	}
-	_, _, warn := settleSettings(r.Pulses, Options{})
+	_, _, _, warn := settleSettings(r.Pulses, Options{})
 	if !r.SettingsAssumed() || len(warn) == 0 {
 		t.Errorf("SettingsAssumed %v with warnings %q", r.SettingsAssumed(), warn)
 	}

@@ -377,9 +377,14 @@ func pulseGain(ps []Pulse) (hm, wm, g float64, ok bool) {
 }
 
 // settleSettings turns pulse sizes (mm) into gain and speed, compares with
-// what was stated, and says what it did.
-func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string) {
+// what was stated, and says what it did; from says where the speed came
+// from (see Result.SpeedFrom).
+func settleSettings(ps []Pulse, opt Options) (gain, speed float64, from string, warn []string) {
 	statedG, statedS := opt.StatedGainMMPerMV, opt.StatedSpeedMMPerS
+	from = SpeedAssumed
+	if statedS > 0 {
+		from = SpeedStated
+	}
 	if len(ps) == 0 {
 		gain, speed = 10, 25
 		if statedG > 0 {
@@ -408,7 +413,18 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 	}
 	sp, okS := snap(wm/pulseS, stdSpeeds, 0.15)
 	speed = sp
-	if !okS {
+	switch {
+	case okS && sp == 12.5 && statedS == 0:
+		// A pulse half the usual width: 200 ms at 12.5 mm/s, or the
+		// 100 ms pulse some carts draw at 25 mm/s. 12-lead pages run at
+		// 25 or 50 mm/s (common practice), so 25 is taken, as assumed;
+		// the printed settings, read later, still decide
+		// (Result.TakePrinted).
+		speed = 25
+		warn = append(warn, fmt.Sprintf("calibration pulse is %.2f mm wide: 200 ms at 12.5 mm/s or 100 ms at 25 mm/s; speed 25 mm/s is assumed", wm))
+	case okS:
+		from = SpeedPulse
+	default:
 		// A pulse width that is not 200 ms at a standard speed: some
 		// recorders draw a shorter step; keep the stated or usual speed.
 		speed = 25
@@ -424,4 +440,54 @@ func settleSettings(ps []Pulse, opt Options) (gain, speed float64, warn []string
 		warn = append(warn, fmt.Sprintf("calibration pulse width says %.4g mm/s but %.4g mm/s was stated; the pulse is used", speed, statedS))
 	}
 	return
+}
+
+// Where a page's paper speed came from (Result.SpeedFrom).
+const (
+	SpeedPulse   = "pulse"   // the calibration pulse's width, read as the common 200 ms
+	SpeedPrinted = "printed" // the settings printed on the page ("25 mm/s", "50mm/s")
+	SpeedStated  = "stated"  // given by the caller (Options.StatedSpeedMMPerS) and not contradicted by a pulse
+	SpeedAssumed = "assumed" // nothing said: the common 25 mm/s
+)
+
+// TakePrinted settles the page's speed and gain with what its printed
+// settings state (0 where none was read); digitize reads that text once
+// it knows where the trace rows are, and calls this, so that the rule
+// stays here with the pulse's.
+//
+// The speed: a pulse's width gives the speed only if the pulse lasts the
+// common 200 ms, and carts draw narrower ones (100 ms, from memory of
+// several makes), so a 5 mm pulse is 25 mm/s or 50 mm/s with a 100 ms
+// pulse; the printed speed is what the cart says it ran at, and wins over
+// the pulse (common practice: the speed is printed on every 12-lead page).
+// A speed given by the caller is kept. With no grid the millimetres
+// came from the pulse and the sheet's size together (Detect's fit), and
+// they stand: the text changes only the pulse's duration taken. The gain: the pulse's height does
+// not share that doubt (a 1 mV pulse, common practice), so the printed
+// gain is taken only where no pulse was read (pulseAssumed) and 10 mm/mV
+// was assumed.
+func (r *Result) TakePrinted(speed, gain float64, pulseAssumed bool) {
+	if r.Source == "user" {
+		return
+	}
+	if gain > 0 && gain != r.GainMMPerMV && r.GainMMPerMV == 10 && pulseAssumed {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("no calibration pulse; the page's text reads %g mm/mV, which is used (check it)", gain))
+		r.GainMMPerMV = gain
+	}
+	if !(speed > 0) || r.SpeedFrom == SpeedStated {
+		return
+	}
+	switch {
+	case speed == r.SpeedMMPerS:
+		if r.SpeedFrom != SpeedPulse {
+			r.SpeedFrom = SpeedPrinted
+		}
+	case r.SpeedFrom == SpeedPulse:
+		r.Warnings = append(r.Warnings, fmt.Sprintf("the calibration pulse's width is 200 ms at %g mm/s, but the page's text reads %g mm/s: the text is used (a pulse of %.0f ms; check the speed)",
+			r.SpeedMMPerS, speed, 200*r.SpeedMMPerS/speed))
+		r.SpeedMMPerS, r.SpeedFrom = speed, SpeedPrinted
+	default:
+		r.Warnings = append(r.Warnings, fmt.Sprintf("no calibration pulse gave the speed; the page's text reads %g mm/s, which is used (check it)", speed))
+		r.SpeedMMPerS, r.SpeedFrom = speed, SpeedPrinted
+	}
 }

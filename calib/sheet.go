@@ -429,7 +429,7 @@ func fromSheet(pg *Page, wk *work, quad [4][2]float64, M mat3, ps []Pulse, gain,
 	res.GainMMPerMV, res.SpeedMMPerS = gain, spd
 	if len(fl.pulses) > 0 {
 		var ws []string
-		res.GainMMPerMV, res.SpeedMMPerS, ws = settleSettings(fl.pulses, opt)
+		res.GainMMPerMV, res.SpeedMMPerS, res.SpeedFrom, ws = settleSettings(fl.pulses, opt)
 		res.Warnings = append(res.Warnings, ws...)
 	}
 	return res, true
@@ -582,7 +582,7 @@ func fromSheetOnly(pg *Page, wk *work, quad [4][2]float64, opt Options) (*Result
 func sheetResult(fl flatSheet, n int, opt Options) *Result {
 	res := sheetGeometry(fl, n)
 	res.Pulses = fl.pulses
-	res.GainMMPerMV, res.SpeedMMPerS, res.Warnings = appendSettings(res.Warnings, fl.pulses, opt)
+	res.GainMMPerMV, res.SpeedMMPerS, res.SpeedFrom, res.Warnings = appendSettings(res.Warnings, fl.pulses, opt)
 	return res
 }
 

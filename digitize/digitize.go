@@ -203,9 +203,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: %.3g mm/mV is not a standard gain and no calibration pulse leads the rows; 10 mm/mV is assumed", cal.GainMMPerMV))
 		cal.GainMMPerMV = 10
 	}
-	if gn == 0 && cal.SettingsAssumed() {
-		readSettings(g, rows, pitch, cal)
-	}
+	readSettings(g, rows, pitch, cal, gn == 0 && cal.SettingsAssumed())
 	misfit := ""
 	if opt.Layout != "" {
 		// The rows an automatic reading would take; more than the layout

@@ -1,7 +1,6 @@
 package digitize
 
 import (
-	"fmt"
 	"math"
 	"sort"
 
@@ -244,9 +243,10 @@ func (gl glyph) digit() int {
 }
 
 // mLike says whether a glyph could be a lower-case m: short (at most
-// 80 % of the line's tallest glyph) and at least 3/4 as wide as tall.
+// 80 % of the line's tallest glyph) and at least 3/5 as wide as tall (a
+// condensed face's m is about 2/3).
 func (gl glyph) mLike(lineH int) bool {
-	return float64(gl.h()) <= 0.8*float64(lineH) && 4*gl.w() >= 3*gl.h()
+	return float64(gl.h()) <= 0.8*float64(lineH) && 5*gl.w() >= 3*gl.h()
 }
 
 // printedSettings reads "… mm/s" and "… mm/mV" from the page's text
@@ -294,7 +294,10 @@ func printedSettings(g *gray, rows []rowInfo, pitch, pxPerMM float64) (speed, ga
 			}
 			first := num[0].digit()
 			// Gain when a letter pair (the "mV") follows the slash.
-			isGain := i+2 < len(line) && line[i+1].mLike(lineH) && line[i+2].x0-line[i+1].x1 < lineH/2
+			// The V is a capital, near the line's height: a speck after
+			// the "s" of "mm/s" is none.
+			isGain := i+2 < len(line) && line[i+1].mLike(lineH) && line[i+2].x0-line[i+1].x1 < lineH/2 &&
+				float64(line[i+2].h()) >= 0.7*float64(lineH)
 			switch {
 			case isGain && gain == 0:
 				switch {
@@ -318,19 +321,12 @@ func printedSettings(g *gray, rows []rowInfo, pitch, pxPerMM float64) (speed, ga
 	return speed, gain
 }
 
-// readSettings takes the speed and gain printed on a page without
-// calibration pulses in place of the assumed 25 mm/s and 10 mm/mV,
-// with a warning.
-func readSettings(g *gray, rows []rowInfo, pitch float64, cal *calib.Result) {
+// readSettings reads the speed and gain printed on the page and hands
+// them to calib, whose rule (calib.Result.TakePrinted) decides what is
+// used; pulseAssumed says that no calibration pulse gave the gain.
+func readSettings(g *gray, rows []rowInfo, pitch float64, cal *calib.Result, pulseAssumed bool) {
 	speed, gain := printedSettings(g, rows, pitch, cal.PxPerMM)
-	if gain > 0 && gain != cal.GainMMPerMV && cal.GainMMPerMV == 10 {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: no calibration pulse; the page's text reads %g mm/mV, which is used (check it)", gain))
-		cal.GainMMPerMV = gain
-	}
-	if speed > 0 && speed != cal.SpeedMMPerS && cal.SpeedMMPerS == 25 {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: no calibration pulse; the page's text reads %g mm/s, which is used (check it)", speed))
-		cal.SpeedMMPerS = speed
-	}
+	cal.TakePrinted(speed, gain, pulseAssumed)
 }
 
 // Reading a single strip's lead name. A page holding one strip names

@@ -5,6 +5,7 @@ import (
 	"strings"
 	"testing"
 
+	"tracelift/calib"
 	"tracelift/samples"
 )
 
@@ -110,5 +111,46 @@ func TestStripLabelUnreadWarns(t *testing.T) {
 	}
 	if !warned {
 		t.Errorf("no warning that the label went unread: %q", cal.Warnings)
+	}
+}
+
+// A pulse's width gives the paper speed only for a 200 ms pulse, and
+// carts draw narrower ones: a 5 mm pulse is 200 ms at 25 mm/s or 100 ms
+// at 50 mm/s. The printed speed says which (common practice: a 12-lead
+// page prints its speed), through calib.Detect and Run as a page is read.
+// Without text a 2.5 mm pulse (200 ms at 12.5 mm/s, or 100 ms at 25) is
+// taken as 25 mm/s, the speed 12-lead pages run at (common practice),
+// and said to be assumed.
+func TestPrintedSpeedOverPulseWidth(t *testing.T) {
+	for _, c := range []struct {
+		speed, pulseMS float64
+		text           bool
+		want           float64
+		from           string
+	}{
+		{50, 100, true, 50, calib.SpeedPrinted},
+		{25, 100, true, 25, calib.SpeedPrinted},
+		{25, 100, false, 25, calib.SpeedAssumed},
+		{50, 200, true, 50, calib.SpeedPulse},
+		{25, 200, true, 25, calib.SpeedPulse},
+	} {
+		name := fmt.Sprintf("%g mm/s, %g ms pulse, text %v", c.speed, c.pulseMS, c.text)
+		t.Run(name, func(t *testing.T) {
+			st := samples.DefaultStyle()
+			st.SpeedMMPerS, st.PulseMS = c.speed, c.pulseMS
+			st.DPI = 200
+			if !c.text {
+				st.Header, st.Labels = "", false
+			}
+			p := render(t, dipoleRecord(5), st)
+			cal, err := calib.Detect(contextBG(), &calib.Page{Image: p.Image}, calib.Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			runOn(t, cal, Options{})
+			if cal.SpeedMMPerS != c.want || cal.SpeedFrom != c.from {
+				t.Errorf("read %g mm/s from %q, want %g from %q (warnings %q)", cal.SpeedMMPerS, cal.SpeedFrom, c.want, c.from, cal.Warnings)
+			}
+		})
 	}
 }

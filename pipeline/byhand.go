@@ -28,6 +28,9 @@ func (h ByHand) apply(cal *calib.Result, dr *digitize.Result, rateHz float64) {
 		cal.GainMMPerMV = g
 		changed = true
 	}
+	if v := h.SpeedMMPerS; v > 0 && !math.IsInf(v, 0) {
+		cal.SpeedFrom = calib.SpeedStated // the user's word, not an assumption
+	}
 	if v := h.SpeedMMPerS; v > 0 && !math.IsInf(v, 0) && v != cal.SpeedMMPerS {
 		cal.Warnings = append(cal.Warnings, fmt.Sprintf("speed %g mm/s given by hand is used (the page showed %g mm/s)", v, cal.SpeedMMPerS))
 		k := cal.SpeedMMPerS / v

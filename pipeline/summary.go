@@ -18,6 +18,7 @@ type CalibrationJSON struct {
 	PxPerMMY    float64       `json:"px_per_mm_y"`
 	GainMMPerMV float64       `json:"gain_mm_per_mv"`
 	SpeedMMPerS float64       `json:"speed_mm_per_s"`
+	SpeedFrom   string        `json:"speed_from,omitempty"` // pulse, printed, stated or assumed (calib.Result.SpeedFrom)
 	RotationDeg float64       `json:"rotation_deg"`
 	Turned      int           `json:"quarter_turns"`
 	Source      string        `json:"source"`
@@ -78,7 +79,7 @@ func (o *Outcome) Document() Document {
 	if c := o.Calib; c != nil {
 		d.Calibration = CalibrationJSON{
 			PxPerMMX: c.PxPerMMX, PxPerMMY: c.PxPerMMY,
-			GainMMPerMV: c.GainMMPerMV, SpeedMMPerS: c.SpeedMMPerS,
+			GainMMPerMV: c.GainMMPerMV, SpeedMMPerS: c.SpeedMMPerS, SpeedFrom: c.SpeedFrom,
 			RotationDeg: c.RotationDeg, Turned: c.Turned,
 			Source: c.Source, Confidence: c.Confidence,
 			Pulses: c.Pulses, Warnings: c.Warnings,

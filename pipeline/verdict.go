@@ -120,6 +120,13 @@ func Judge(cal *calib.Result, dr *digitize.Result, f *axis.Findings, measureErr 
 		add(Care, "no_pulse", "check the gain and speed printed on the page and give them by hand if they differ",
 			"no calibration pulse was read: %g mm/mV and %g mm/s were taken from the printed settings or assumed", cal.GainMMPerMV, cal.SpeedMMPerS)
 	}
+	if len(cal.Pulses) > 0 && cal.SpeedFrom == calib.SpeedAssumed {
+		// A pulse was read, but its width is no 200 ms at 25 or 50 mm/s
+		// and no printed speed was read: the speed is the common one,
+		// not the page's (calib.Result.TakePrinted decides).
+		add(Care, "speed_assumed", "check the paper speed printed on the page (25 or 50 mm/s) and give it by hand if it differs",
+			"the calibration pulse's width does not tell the paper speed and no printed speed was read: %g mm/s is assumed", cal.SpeedMMPerS)
+	}
 	if dr.TimeZero == digitize.T0Fall {
 		add(Care, "time_zero_unsure", "check where the traces start after the calibration pulse",
 			"the calibration pulse is printed joined to the traces and the page is not a standard 10 s page: time 0 is taken at the pulse's falling stroke and may be off by the pulse's lead-out")

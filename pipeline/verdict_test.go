@@ -9,6 +9,7 @@ import (
 
 	"tracelift/calib"
 	"tracelift/samples"
+	"tracelift/samples/dipole"
 )
 
 func demoByName(t *testing.T, part string) samples.DemoFile {
@@ -150,4 +151,32 @@ func TestVerdictOutsideFax(t *testing.T) {
 		t.Errorf("layout misread as %s (truth %s), verdict %s", o.Digitized.Layout, want, o.Verdict.Level)
 	}
 	withheld(t, o)
+}
+
+// A page whose pulse is narrower than the common 200 ms and that prints
+// no settings cannot tell its paper speed: a 2.5 mm pulse is 200 ms at
+// 12.5 mm/s or 100 ms at 25 mm/s, a 4 mm one is 200 ms at no standard
+// speed. The reading takes 25 mm/s, the speed 12-lead pages run at
+// (common practice), and the verdict says the speed was assumed.
+func TestVerdictSpeedAssumed(t *testing.T) {
+	for _, ms := range []float64{100, 160} {
+		st := samples.DefaultStyle()
+		st.PulseMS, st.DPI = ms, 200
+		st.Header, st.Labels = "", false
+		p, err := samples.Render(dipole.Generate(dipole.Params{Seed: 5, DurationS: 10}), st)
+		if err != nil {
+			t.Fatal(err)
+		}
+		o, err := ProcessPage(context.Background(), &calib.Page{Image: p.Image}, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		found := false
+		for _, r := range o.Verdict.Reasons {
+			found = found || r.Code == "speed_assumed"
+		}
+		if o.Calib.SpeedMMPerS != 25 || !found {
+			t.Errorf("%g ms pulse: %g mm/s, reasons %+v; want 25 mm/s and speed_assumed", ms, o.Calib.SpeedMMPerS, o.Verdict.Reasons)
+		}
+	}
 }
