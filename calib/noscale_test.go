@@ -132,7 +132,7 @@ func TestPulseGainPrefersStandardWidth(t *testing.T) {
 	for _, h := range []float64{19.89, 19.72, 19.6, 19.6} {
 		ps = append(ps, Pulse{HeightMM: h, WidthMM: 4.9})
 	}
-	g, sp, warn := settleSettings(ps, Options{})
+	g, sp, _, warn := settleSettings(ps, Options{})
 	if g != 20 || sp != 25 || len(warn) != 0 {
 		t.Errorf("read %g mm/mV, %g mm/s, warnings %q; want 20 and 25, none", g, sp, warn)
 	}
