@@ -15,11 +15,12 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
+	"path/filepath"
 	"sort"
 	"strings"
 
 	"tracelift/axis"
-	"tracelift/calib"
 	"tracelift/pipeline"
 	"tracelift/record"
 	"tracelift/samples"
@@ -109,14 +110,22 @@ func runCase(seed int64, i int, conds []string, real *record.Record, model *axis
 		c.Err = err.Error()
 		return c
 	}
-	pg, err := calib.Decode(data, name, calib.LoadOptions{})
+	// Read as digitize and the bench read a file: a document of several
+	// pages (a fax with its cover sheet) is searched for its ECG page.
+	dir, err := os.MkdirTemp("", "tracelift-coverage-")
 	if err != nil {
 		c.Err = err.Error()
 		return c
 	}
-	opt := pipeline.Options{}
+	defer os.RemoveAll(dir)
+	path := filepath.Join(dir, name)
+	if err := os.WriteFile(path, data, 0o600); err != nil {
+		c.Err = err.Error()
+		return c
+	}
+	opt := pipeline.Options{FindPage: true}
 	opt.Measure.Picture.Model = model
-	o, err := pipeline.ProcessPage(context.Background(), pg, opt)
+	o, err := pipeline.Process(context.Background(), path, opt)
 	if err != nil {
 		c.Err = err.Error()
 		c.Verdict = pipeline.NotReadable
