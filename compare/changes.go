@@ -378,7 +378,7 @@ func (c *comparer) leads() {
 		if i == 1 {
 			side = "B"
 		}
-		c.res.Notes = append(c.res.Notes, fmt.Sprintf("%s's leads I, II and III break Einthoven's law (residual %.0f %% of lead II): the layout or the lead order was probably misread; axis shifts are listed, not raised", side, 100*rel))
+		c.res.Notes = append(c.res.Notes, fmt.Sprintf("%s's leads I, II and III break Einthoven's law (residual %.0f %% of the limb leads' size): the layout or the lead order was probably misread; axis shifts are listed, not raised", side, 100*rel))
 		for k := range c.res.Changes {
 			ch := &c.res.Changes[k]
 			if ch.Raised && (ch.Item == ItemQRSAxis || ch.Item == ItemPAxis || ch.Item == ItemTAxis) {
@@ -518,8 +518,8 @@ func (c *comparer) explain(beatsA map[string][]float64) {
 	}
 }
 
-// einthovenBroken is the residual of Einthoven's law, relative to lead
-// II's spread, above which a record's limb leads are taken as misread:
+// einthovenBroken is the residual of Einthoven's law, relative to the
+// limb leads' mean spread (RMS of I, II and III), above which a record's limb leads are taken as misread:
 // traced from a picture they keep it to within about a tenth (the
 // digitizer's lead-law checks); a wrong layout or lead order breaks it
 // by far more.
@@ -560,11 +560,15 @@ func einthovenMisfit(r *record.Record) (float64, bool) {
 		return m / float64(len(v))
 	}
 	ma, mb, mc := mean(a), mean(b), mean(c)
+	// Relative to the three leads' mean spread, not to lead II's alone: on
+	// a heart whose axis is near -30° lead II is nearly isoelectric, and
+	// the digitizer's small error in I and III (a few tens of µV) is
+	// then many times II's own spread.
 	var res, ref float64
 	for k := range b {
 		d := (a[k] - ma) + (c[k] - mc) - (b[k] - mb)
 		res += d * d
-		ref += (b[k] - mb) * (b[k] - mb)
+		ref += ((a[k]-ma)*(a[k]-ma) + (b[k]-mb)*(b[k]-mb) + (c[k]-mc)*(c[k]-mc)) / 3
 	}
 	if ref <= 0 {
 		return 0, false
