@@ -136,7 +136,6 @@ func ParseDocument(b []byte) (sha string, f Findings, err error) {
 	return d.ImageSHA256, f, nil
 }
 
-
 // formatNum writes a summary cell: empty for NaN, else at most 3 decimals.
 func formatNum(v float64) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {

@@ -245,8 +245,7 @@ func cleanComponent(c string) string {
 func assignStems(ins []Input, plain bool, owns func(in Input, stem string) bool) {
 	key := func(dir, stem string) string { return strings.ToLower(dir + "/" + stem) }
 	count := map[string]int{}
-	stemOf := func(rel string) string {
-		s := plainStem(rel)
+	clean := func(s string) string {
 		if plain {
 			s = strings.Map(func(r rune) rune {
 				if r == '_' || r == '-' || r == '.' || r >= '0' && r <= '9' || r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' {
@@ -257,6 +256,7 @@ func assignStems(ins []Input, plain bool, owns func(in Input, stem string) bool)
 		}
 		return s
 	}
+	stemOf := func(rel string) string { return clean(plainStem(rel)) }
 	for i := range ins {
 		count[key(path.Dir(ins[i].Rel), stemOf(ins[i].Rel))]++
 	}
@@ -277,8 +277,11 @@ func assignStems(ins []Input, plain bool, owns func(in Input, stem string) bool)
 		dir := path.Dir(ins[i].Rel)
 		stem := stemOf(ins[i].Rel)
 		if count[key(dir, stem)] > 1 {
+			// The extension joins the stem cleaned as the stem is (a
+			// name ending in a dot and a backslash has a backslash for
+			// its extension).
 			if ext := strings.TrimPrefix(path.Ext(ins[i].Rel), "."); ext != "" {
-				stem += "_" + strings.ToLower(ext)
+				stem += "_" + clean(cleanComponent(strings.ToLower(ext)))
 			}
 		}
 		s := stem
