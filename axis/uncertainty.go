@@ -210,6 +210,26 @@ type PictureModel struct {
 	HR, PR, QRS, QT, Axis PageWeights
 }
 
+// Size returns the model's size for a measurement named as in the JSON
+// (see Weights): QTc's is QT's, each axis its wave's area.
+func (m PictureModel) Size(measure string) float64 {
+	switch measure {
+	case "heart_rate_bpm":
+		return m.HRPercent
+	case "pr":
+		return m.PRMS
+	case "qrs":
+		return m.QRSMS
+	case "qt", "qtc_bazett":
+		return m.QTMS
+	case "p_deg":
+		return m.PAreaMVMS
+	case "t_deg":
+		return m.TAreaMVMS
+	}
+	return m.QRSAreaMVMS
+}
+
 // Weights returns the weights for a measurement named as in the JSON
 // ("heart_rate_bpm", "pr", "qrs", "qt", "qtc_bazett", "qrs_deg", "p_deg",
 // "t_deg").
@@ -369,15 +389,15 @@ func (m *measurer) uncertainty(f *Findings, pic Picture) {
 	if n := len(f.Beats) - 1; n >= 2 && f.HeartRateSD.OK() {
 		m.spread["heart_rate_bpm"] = float64(f.HeartRateSD) / math.Sqrt(float64(n))
 	}
-	f.HeartRateCI90 = wide("heart_rate_bpm", f.HeartRateBPM, ci90(f.HeartRateBPM, sp("heart_rate_bpm"), put("heart_rate_bpm", f.HeartRateBPM, md.HRPercent, float64(f.HeartRateBPM)/100, inf)))
-	iv.PRCI90 = wide("pr", iv.PR, ci90(iv.PR, sp("pr"), put("pr", iv.PR, md.PRMS, 1, inf)))
-	iv.QRSCI90 = wide("qrs", iv.QRS, ci90(iv.QRS, sp("qrs"), put("qrs", iv.QRS, md.QRSMS, 1, inf)))
-	iv.QTCI90 = wide("qt", iv.QT, ci90(iv.QT, sp("qt"), put("qt", iv.QT, md.QTMS, 1, inf)))
+	f.HeartRateCI90 = wide("heart_rate_bpm", f.HeartRateBPM, ci90(f.HeartRateBPM, sp("heart_rate_bpm"), put("heart_rate_bpm", f.HeartRateBPM, md.Size("heart_rate_bpm"), float64(f.HeartRateBPM)/100, inf)))
+	iv.PRCI90 = wide("pr", iv.PR, ci90(iv.PR, sp("pr"), put("pr", iv.PR, md.Size("pr"), 1, inf)))
+	iv.QRSCI90 = wide("qrs", iv.QRS, ci90(iv.QRS, sp("qrs"), put("qrs", iv.QRS, md.Size("qrs"), 1, inf)))
+	iv.QTCI90 = wide("qt", iv.QT, ci90(iv.QT, sp("qt"), put("qt", iv.QT, md.Size("qt"), 1, inf)))
 	qtcUnit := math.NaN()
 	if iv.RR.OK() && iv.RR > 0 {
 		qtcUnit = 1 / math.Sqrt(float64(iv.RR)/1000)
 	}
-	iv.QTcBazettCI90 = wide("qtc_bazett", iv.QTcBazett, ci90(iv.QTcBazett, sp("qtc_bazett"), put("qtc_bazett", iv.QTcBazett, md.QTMS, qtcUnit, inf)))
+	iv.QTcBazettCI90 = wide("qtc_bazett", iv.QTcBazett, ci90(iv.QTcBazett, sp("qtc_bazett"), put("qtc_bazett", iv.QTcBazett, md.Size("qtc_bazett"), qtcUnit, inf)))
 
 	a := &f.Axis
 	axisCI := func(name string, v Num, w wave, area float64) [2]Num {
@@ -388,9 +408,9 @@ func (m *measurer) uncertainty(f *Findings, pic Picture) {
 		}
 		return ci
 	}
-	a.QRSDegCI90 = axisCI("qrs_deg", a.QRSDeg, waveQRS, md.QRSAreaMVMS)
-	a.PDegCI90 = axisCI("p_deg", a.PDeg, waveP, md.PAreaMVMS)
-	a.TDegCI90 = axisCI("t_deg", a.TDeg, waveT, md.TAreaMVMS)
+	a.QRSDegCI90 = axisCI("qrs_deg", a.QRSDeg, waveQRS, md.Size("qrs_deg"))
+	a.PDegCI90 = axisCI("p_deg", a.PDeg, waveP, md.Size("p_deg"))
+	a.TDegCI90 = axisCI("t_deg", a.TDeg, waveT, md.Size("t_deg"))
 }
 
 // unitAngleSD is the least-squares axis's standard deviation (degrees)

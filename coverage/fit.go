@@ -13,21 +13,6 @@ import (
 // share stops at 180° and its interval at a whole turn).
 func isAngle(measure string) bool { return measure == "qrs_deg" }
 
-// size returns the model's size for a measure.
-func size(model axis.PictureModel, measure string) float64 {
-	switch measure {
-	case "heart_rate_bpm":
-		return model.HRPercent
-	case "pr":
-		return model.PRMS
-	case "qrs":
-		return model.QRSMS
-	case "qt", "qtc_bazett":
-		return model.QTMS
-	}
-	return model.QRSAreaMVMS
-}
-
 // bounds is the 90 % interval the pipeline states for m on the page of
 // c under model (axis.Measure's arithmetic, from the shares recorded in
 // m): symmetric about the value, stretched to hold the reading at the
@@ -48,7 +33,7 @@ func bounds(measure string, m Meas, c Case, model axis.PictureModel) (lo, hi flo
 func pictureSD(measure string, m Meas, c Case, model axis.PictureModel) float64 {
 	pic := c.Page
 	pic.Model = &model
-	p := pic.Factor(measure, c.MeanConf, c.Doubts) * size(model, measure) * m.Unit
+	p := pic.Factor(measure, c.MeanConf, c.Doubts) * model.Size(measure) * m.Unit
 	if isAngle(measure) {
 		p = math.Min(180, p)
 	}
@@ -171,7 +156,7 @@ func FitPage(cases []Case, model axis.PictureModel, share float64) axis.PictureM
 			}
 			return x
 		}
-		s0 := size(out, g[0])
+		s0 := out.Size(g[0])
 		best, bestF := start(s0, out.Weights(g[0])), math.Inf(1)
 		for _, sm := range []float64{0.125, 0.25, 0.5, 1, 2} {
 			for _, w := range []axis.PageWeights{out.Weights(g[0]), {}} {

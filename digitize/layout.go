@@ -623,10 +623,12 @@ func traceScore(g *gray, r rowInfo, pitch, pxPerMM float64) float64 {
 	if inked == 0 {
 		return 0
 	}
+	// A covered column holds a pixel of the line that covers it, so it is
+	// inked.
 	c, long := 0, 0
 	for x := 0; x < w; x++ {
 		c += covered[x]
-		if c > 0 && colMax(g, x0+x, ya, yb) >= inkOn {
+		if c > 0 {
 			long++
 		}
 	}

@@ -45,6 +45,15 @@ type commonFlags struct {
 func (c *commonFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&c.out, "o", "", "output directory (required)")
 	fs.StringVar(&c.formats, "format", "csv,json", "comma-separated exports: csv, wfdb, edf, json, pdf")
+	fs.StringVar(&c.paper, "paper", "a4", "paper size of the PDF summary: a4 or letter")
+	c.registerReading(fs)
+}
+
+// registerReading registers the options that steer how a page is read
+// (scale, settings, layout, page, limits), checked by checkNumbers; the
+// commands that read pages without exporting them (inspect) take these
+// alone.
+func (c *commonFlags) registerReading(fs *flag.FlagSet) {
 	fs.Float64Var(&c.rate, "rate", 500, "output sample rate in Hz")
 	fs.StringVar(&c.layout, "layout", "", "force the layout: "+record.LayoutNames(record.Layouts)+" (default: find it)")
 	fs.StringVar(&c.order, "order", "", "force the lead order: standard or cabrera (default: find it)")
@@ -55,7 +64,6 @@ func (c *commonFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&c.page, "page", 1, "page of a multi-page TIFF or PDF (1-based; default: the first page that holds an ECG)")
 	fs.Float64Var(&c.maxMP, "max-megapixels", 200, "refuse images larger than this many megapixels")
 	fs.Float64Var(&c.maxMB, "max-megabytes", 200, "refuse files larger than this many megabytes")
-	fs.StringVar(&c.paper, "paper", "a4", "paper size of the PDF summary: a4 or letter")
 }
 
 func (c *commonFlags) options() pipeline.Options {
@@ -90,12 +98,6 @@ func (c *commonFlags) check() error {
 	if _, err := pipeline.ParseFormats(c.formats); err != nil {
 		return err
 	}
-	if !(c.rate >= 50 && c.rate <= 10000) {
-		return fmt.Errorf("--rate %v: give a rate between 50 and 10000 Hz", c.rate)
-	}
-	if c.page < 1 {
-		return fmt.Errorf("--page %d: pages count from 1", c.page)
-	}
 	switch strings.ToLower(c.paper) {
 	case "a4", "letter":
 	default:
@@ -105,8 +107,15 @@ func (c *commonFlags) check() error {
 }
 
 // checkNumbers refuses option values no page can have, before any file is
-// read. 0 means "not given" for the hand-given scale and settings.
+// read (the options registerReading registers). 0 means "not given" for
+// the hand-given scale and settings.
 func (c *commonFlags) checkNumbers() error {
+	if !(c.rate >= 50 && c.rate <= 10000) {
+		return fmt.Errorf("--rate %v: give a rate between 50 and 10000 Hz", c.rate)
+	}
+	if c.page < 1 {
+		return fmt.Errorf("--page %d: pages count from 1", c.page)
+	}
 	for _, r := range []struct {
 		name, unit string
 		v, lo, hi  float64

@@ -41,14 +41,15 @@ func init() {
 // confidence; for a bench case also the truth and each lead's score).
 func cmdInspect(args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("inspect", flag.ContinueOnError)
-	out := fs.String("o", "", "output directory (required)")
+	var c commonFlags
+	fs.StringVar(&c.out, "o", "", "output directory (required)")
+	c.registerReading(fs)
+	out := &c.out
 	caseSpec := fs.String("case", "", "render case SEED:N of the bench suite instead of reading a picture")
 	conds := fs.String("conditions", strings.Join(samples.AllConditions, ","), "with --case: the bench's condition list")
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "with --case: the real record the suite renders in every fourth case")
-	dpi := fs.Float64("dpi", 0, "scale by hand, in dots per inch (used when no grid or pulse gives one)")
-	layout := fs.String("layout", "", "the layout by hand (3x4, 3x4+1, 3x4+3, 6x2, 12x1, 1x1); empty: found from the page")
 	fs.Usage = usageFunc(fs, stderr,
-		"usage: tracelift-cli inspect IMAGE -o DIR [--dpi N] [--layout L]",
+		"usage: tracelift-cli inspect IMAGE -o DIR [reading options as for digitize]",
 		"       tracelift-cli inspect --case SEED:N -o DIR [--conditions LIST]",
 		"Writes DIR/<stem>-page.png (the flattened page with the panels and traced lines drawn on it),",
 		"DIR/<stem>-ink.png (the ink counted as trace) and DIR/<stem>-inspect.txt (the numbers).",
@@ -57,17 +58,15 @@ func cmdInspect(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return code
 	}
+	c.seen(fs)
 	if *out == "" {
 		return usageError(stderr, "inspect", "-o DIR is required")
 	}
 	if (*caseSpec == "") == (len(pos) != 1) {
 		return usageError(stderr, "inspect", "give one picture, or --case SEED:N and no picture")
 	}
-	if *dpi < 0 || *dpi > 10000 || math.IsNaN(*dpi) {
-		return usageError(stderr, "inspect", fmt.Sprintf("--dpi %v: give a resolution between 1 and 10000", *dpi))
-	}
-	if *layout != "" && !record.Layout(*layout).Known() {
-		return usageError(stderr, "inspect", fmt.Sprintf("--layout %q: choose from %s", *layout, record.LayoutNames(record.Layouts)))
+	if err := c.checkNumbers(); err != nil {
+		return usageError(stderr, "inspect", err.Error())
 	}
 	var seed int64
 	var caseN int
@@ -130,10 +129,7 @@ func cmdInspect(args []string, stdout, stderr io.Writer) int {
 	} else {
 		path = pos[0]
 	}
-	opt := pipeline.Options{FindPage: true}
-	opt.Calib.UserDPI = *dpi
-	opt.Digitize.Layout = *layout
-	o, err := pipeline.Process(ctx, path, opt)
+	o, err := pipeline.Process(ctx, path, c.options())
 	var txt bytes.Buffer
 	inspectReport(&txt, o, err, truth)
 	stem := pipeline.Stem(path)
@@ -141,25 +137,29 @@ func cmdInspect(args []string, stdout, stderr io.Writer) int {
 	if truth != nil {
 		src = ledger.Source{Path: "bench case " + *caseSpec}
 	}
-	inputs := []string{path}
-	files := []struct {
+	type output struct {
 		name  string
 		write func(io.Writer) error
-	}{{stem + "-inspect.txt", func(w io.Writer) error { _, err := w.Write(txt.Bytes()); return err }}}
+	}
+	files := []output{{stem + "-inspect.txt", func(w io.Writer) error { _, err := w.Write(txt.Bytes()); return err }}}
 	if o != nil && o.Calib != nil && o.Calib.Rectified != nil {
-		files = append(files, struct {
-			name  string
-			write func(io.Writer) error
-		}{stem + "-page.png", func(w io.Writer) error { return png.Encode(w, drawReading(o)) }})
+		files = append(files, output{stem + "-page.png", func(w io.Writer) error { return png.Encode(w, drawReading(o)) }})
 		if o.Calib.Ink != nil {
-			files = append(files, struct {
-				name  string
-				write func(io.Writer) error
-			}{stem + "-ink.png", func(w io.Writer) error { return png.Encode(w, negative(o.Calib.Ink)) }})
+			files = append(files, output{stem + "-ink.png", func(w io.Writer) error { return png.Encode(w, negative(o.Calib.Ink)) }})
 		}
 	}
+	// All names are claimed before any is written: a refused one leaves
+	// the folder as it was.
+	var names []string
 	for _, f := range files {
-		if err := writeOwned(*out, src, f.name, inputs, f.write); err != nil {
+		names = append(names, f.name)
+	}
+	if err := ledger.Claim(*out, src, names, []string{path}); err != nil {
+		fmt.Fprintln(stderr, "tracelift-cli inspect:", err)
+		return 1
+	}
+	for _, f := range files {
+		if err := atomic.WriteFile(filepath.Join(*out, f.name), f.write, 0o644); err != nil {
 			fmt.Fprintln(stderr, "tracelift-cli inspect:", err)
 			return 1
 		}
