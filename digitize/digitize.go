@@ -516,6 +516,7 @@ func newPage(g *gray, rows []rowInfo, cal *calib.Result) *page {
 			marks[i].okStart = false
 		}
 	}
+	labelPieces(marks, cal.PxPerMM)
 	pg.t0From = hiddenStarts(marks, pg.halfLn, cal.PxPerMM, cal.PxPerMM*cal.SpeedMMPerS)
 	tol := math.Max(1.5, 0.3*cal.PxPerMM)
 	if x0s, L, b, fitted, ok := timeBase(rows, marks, tol); ok && L > 8 {

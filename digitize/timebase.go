@@ -35,6 +35,12 @@ type rowMarks struct {
 	// there is none).
 	joinedEnd bool
 	rise      int
+	// inner is where the trace stands unbroken when the start walk
+	// bridged a break to a short piece of ink beyond it (hasInner): a
+	// lead's name, or a piece of trace beyond a dropout (labelPieces
+	// tells them apart).
+	inner    float64
+	hasInner bool
 }
 
 // inkOn is the highest working-map level needed to count as ink when
@@ -73,6 +79,16 @@ func runAt(g *gray, x, ya, yb, lo, hi, slack int, on uint8) (a, z int, ok bool) 
 // stroke's run overlaps its neighbours'. Ink found after a break counts
 // only when it goes on for solid columns. stop bounds the walk.
 func walkTrace(g *gray, x, y, ya, yb, dir, gap, solid, stop int, on uint8) (last, lo, hi int, ok bool) {
+	return walkTraceBreak(g, x, y, ya, yb, dir, gap, solid, stop, on, nil)
+}
+
+// walkBreak is where a walk bridged a break: the last inked column
+// before it and the run's rows there.
+type walkBreak struct{ last, lo, hi int }
+
+// walkTraceBreak is walkTrace that also appends the breaks it bridged,
+// in walking order, to brk (when not nil).
+func walkTraceBreak(g *gray, x, y, ya, yb, dir, gap, solid, stop int, on uint8, brk *[]walkBreak) (last, lo, hi int, ok bool) {
 	// Find the trace near y in column x, or in a few columns beside it.
 	lo, hi = -1, -1
 	for d := 0; d < 12 && lo < 0; d++ {
@@ -120,6 +136,9 @@ func walkTrace(g *gray, x, y, ya, yb, dir, gap, solid, stop int, on uint8) (last
 				break
 			}
 			continue
+		}
+		if miss > 0 && brk != nil {
+			*brk = append(*brk, walkBreak{last: last, lo: lo, hi: hi})
 		}
 		miss = 0
 		lo, hi, last = a, z, xx
@@ -354,13 +373,36 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX, riseX int, hw
 	if fallX >= 0 {
 		stop = fallX + 1
 	}
-	if last, lo, hi, ok := walkTrace(g, r.x0+span/8, y, ya, yb, -1, gap, solid, stop, on); ok {
-		merged := fallX >= 0 && last <= stop+gap
+	var brks []walkBreak
+	if last, lo, hi, ok := walkTraceBreak(g, r.x0+span/8, y, ya, yb, -1, gap, solid, stop, on, &brks); ok {
+		// The ink beyond the first of the walk's breaks that leaves less
+		// than labelPieceMM to its end may be a lead's name printed just
+		// before the trace, its letters apart (see labelPieces).
+		if !merged(fallX, last, stop, gap) {
+			for _, b := range brks {
+				if float64(b.last-last) < labelPieceMM*pxPerMM {
+					m.inner, m.hasInner = capEdge(g, b.last, b.lo, b.hi, -1, pxPerMM, hw), true
+					break
+				}
+			}
+		}
+		merged := merged(fallX, last, stop, gap)
 		m.fall = fallX
+		// Joined: every column of the 3 mm after the falling stroke holds
+		// ink somewhere in the row's band. A gap printed between the pulse
+		// and the trace empties whole columns; where the pulse is joined,
+		// the lead-out and the first waves fill them, however far the
+		// trace's first sample stands off the lead-out's level.
 		if fallX >= 0 {
-			// A walk that bridged the gap ran along the pulse's lead-out:
-			// the trace starts after the first dip in the ink along the
-			// lead-out's level.
+			band := int(math.Ceil(8 * pxPerMM))
+			m.joined = !emptyColumn(g, fallX+1, fallX+1+int(math.Ceil(3*pxPerMM)), max(ya, y-band), min(yb, y+band+1), max(2, int(math.Ceil(hw))), on)
+		}
+		if fallX >= 0 && !m.joined {
+			// A walk that bridged a narrow gap ran along the pulse's
+			// lead-out: the trace starts after the first dip in the ink
+			// along the lead-out's level. (Where the pulse is joined, the
+			// trace leaves its falling stroke, and a dip after it is the
+			// trace's own first wave.)
 			c := min(g.w-1, stop+max(3, int(0.4*pxPerMM)))
 			if a, z, ok := runAt(g, c, ya, yb, y, y, max(3, int(pxPerMM)), on); ok && z-a < int(2*pxPerMM) {
 				// Only a walk that ended before the dip went along the
@@ -373,17 +415,55 @@ func measureRow(g *gray, r rowInfo, pitch, pxPerMM float64, fallX, riseX int, hw
 		}
 		m.start = capEdge(g, last, lo, hi, -1, pxPerMM, hw)
 		m.okStart = last > 1 && !merged && last <= startRef+int(3*pxPerMM)
-		// Joined: every column of the 3 mm after the falling stroke holds
-		// ink somewhere in the row's band. A gap printed between the pulse
-		// and the trace empties whole columns; where the pulse is joined,
-		// the lead-out and the first waves fill them, however far the
-		// trace's first sample stands off the lead-out's level.
-		if fallX >= 0 {
-			band := int(math.Ceil(8 * pxPerMM))
-			m.joined = !emptyColumn(g, fallX+1, fallX+1+int(math.Ceil(3*pxPerMM)), max(ya, y-band), min(yb, y+band+1), max(2, int(math.Ceil(hw))), on)
-		}
 	}
 	return m
+}
+
+// merged reports whether a start walk that ended at last reached the
+// falling stroke of the row's pulse (fallX, −1 for none) and ran into it.
+func merged(fallX, last, stop, gap int) bool { return fallX >= 0 && last <= stop+gap }
+
+// labelPieceMM is the longest piece of ink beyond a start walk's last
+// break that may be a lead's name rather than trace: a name of up to
+// three characters (aVR, -aVR, V6) at 8–12 pt spans 2–6 mm.
+const labelPieceMM = 6.0
+
+// labelPieces moves the starts of rows whose start walk bridged a break
+// to a short piece of ink (under labelPieceMM) to where the trace stands
+// unbroken, when most rows with a start did so and their unbroken starts
+// agree to within 1 mm: a lead's name printed just before each row's
+// trace, in the margin, lies a break before the trace in every row at
+// the same place, while a break in a trace (a fax's dropout, a faint
+// stroke) falls anywhere. It reports whether it moved them.
+func labelPieces(marks []rowMarks, pxPerMM float64) bool {
+	var inner []float64
+	n := 0
+	for _, m := range marks {
+		if !m.okStart {
+			continue
+		}
+		n++
+		if m.hasInner {
+			inner = append(inner, m.inner)
+		}
+	}
+	if n < 2 || 3*len(inner) < 2*n {
+		return false
+	}
+	c := median(inner)
+	var dev []float64
+	for _, v := range inner {
+		dev = append(dev, math.Abs(v-c))
+	}
+	if median(dev) > 0.5*pxPerMM {
+		return false
+	}
+	for i := range marks {
+		if m := &marks[i]; m.okStart && m.hasInner && math.Abs(m.inner-c) <= pxPerMM {
+			m.start = m.inner
+		}
+	}
+	return true
 }
 
 // afterDip scans right from column x over rows [lo−1, hi+1] of the

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"flag"
 	"fmt"
+	"gonum.org/v1/gonum/stat"
 	"image"
 	"image/color"
 	"image/draw"
@@ -230,6 +231,9 @@ func inspectReport(w io.Writer, o *pipeline.Outcome, err error, truth *samples.T
 		fmt.Fprintf(w, "panel %-4s row %d col %d box %.0f,%.0f–%.0f,%.0f  %.2f–%.2f s  confidence %.2f", p.Lead, p.Row, p.Col, p.Box[0], p.Box[1], p.Box[2], p.Box[3], p.T0S, p.T1S, q.Confidence)
 		if a, ok := acc[l]; ok {
 			fmt.Fprintf(w, "  SNR %5.1f dB  r %.3f  shift %+.0f ms  coverage %.2f  gain %.3f", a.SNRdB, a.R, 1000*a.ShiftS, a.Coverage, lsGain(truth.Signals.Lead(l), d.Record.Lead(l)))
+			if lag, r := farLag(truth.Signals.Lead(l), d.Record.Lead(l), p.T0S, p.T1S); math.Abs(lag) > record.MaxShiftS {
+				fmt.Fprintf(w, "  (best lag %+.0f ms, r %.3f)", 1000*lag, r)
+			}
 		}
 		fmt.Fprintln(w)
 	}
@@ -252,6 +256,36 @@ func lsGain(ref, est *record.Signal) float64 {
 		}
 	}
 	return sre / see
+}
+
+// farLag is the time shift of est within ±0.5 s, in 4 ms steps, that
+// correlates best with ref over [t0, t1], and that correlation: a time 0
+// or speed misread shows as a lag beyond the scoring's ±40 ms.
+func farLag(ref, est *record.Signal, t0, t1 float64) (lag, best float64) {
+	if ref == nil || est == nil {
+		return 0, math.NaN()
+	}
+	best = math.Inf(-1)
+	for sh := -0.5; sh <= 0.5+1e-9; sh += 0.004 {
+		var a, b []float64
+		for k, v := range ref.MV {
+			t := ref.StartS + float64(k)/ref.RateHz
+			if t < t0 || t > t1 {
+				continue
+			}
+			j := int(math.Round((t + sh - est.StartS) * est.RateHz))
+			if j >= 0 && j < len(est.MV) && !math.IsNaN(est.MV[j]) {
+				a, b = append(a, v), append(b, est.MV[j])
+			}
+		}
+		if len(a) < 50 {
+			continue
+		}
+		if r := stat.Correlation(a, b, nil); r > best {
+			lag, best = sh, r
+		}
+	}
+	return lag, best
 }
 
 // Colours of the drawn reading: boxes in slate blue, baselines in grey,
