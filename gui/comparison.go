@@ -169,7 +169,7 @@ func (c *Controller) showComparison(r *model.Comparison, earlierPath string) {
 	beats := newBeatsView(r.Beats)
 	scale := widget.NewLabel("QRS onsets at one time; true scale: 25 mm/s, 10 mm/mV (1 mm squares). Under each lead: the current beat's shift against the earlier one, its gain, their correlation.")
 	scale.Wrapping = fyne.TextWrapWord
-	scale.Importance = widget.LowImportance
+	scale.TextStyle = fyne.TextStyle{Italic: true}
 	left := container.NewBorder(nil, scale, nil, nil, beats)
 
 	list := container.NewVBox()
@@ -179,18 +179,18 @@ func (c *Controller) showComparison(r *model.Comparison, earlierPath string) {
 	}
 	for _, l := range r.Raised {
 		list.Add(wrapped("⚠ "+l.Text, widget.DangerImportance, true))
-		list.Add(wrapped(detailWords(l), widget.LowImportance, false))
+		list.Add(detail(detailWords(l)))
 	}
 	if len(r.Listed) > 0 {
 		list.Add(widget.NewSeparator())
 		list.Add(heading(fmt.Sprintf("Listed, not raised: %d", len(r.Listed))))
 		for _, l := range r.Listed {
 			list.Add(wrapped("• "+l.Text, widget.MediumImportance, false))
-			list.Add(wrapped(l.Why+". "+detailWords(l), widget.LowImportance, false))
+			list.Add(detail(upperFirst(l.Why) + ". " + detailWords(l)))
 		}
 	}
 	list.Add(widget.NewSeparator())
-	list.Add(wrapped(fmt.Sprintf("%d further items within their uncertainty; %d not measured on both tracings. Uncertainties are 90 %% half-widths from both tracings.", r.Within, r.Unmeasured), widget.LowImportance, false))
+	list.Add(detail(fmt.Sprintf("%d further items within their uncertainty; %d not measured on both tracings. Uncertainties are 90 %% half-widths from both tracings.", r.Within, r.Unmeasured)))
 	list.Add(heading("Shift, gain and notes"))
 	for _, n := range r.Notes {
 		list.Add(wrapped("• "+n, widget.MediumImportance, false))
@@ -227,6 +227,22 @@ func detailWords(l model.ChangeLine) string {
 		parts = append(parts, t)
 	}
 	return strings.Join(parts, "; ") + "."
+}
+
+// detail is a change's small print: its uncertainty, threshold, source.
+func detail(s string) *widget.Label {
+	l := widget.NewLabel(s)
+	l.Wrapping = fyne.TextWrapWord
+	l.TextStyle = fyne.TextStyle{Italic: true}
+	l.SizeName = theme.SizeNameCaptionText
+	return l
+}
+
+func upperFirst(s string) string {
+	if s == "" {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
 }
 
 func wrapped(s string, imp widget.Importance, bold bool) *widget.Label {
@@ -269,7 +285,7 @@ func (c *Controller) printComparisonDialog(r *model.Comparison, earlierPath stri
 	})
 	name := widget.NewLabel(r.FileStem + ".pdf (a new name if one is there already)")
 	name.Wrapping = fyne.TextWrapWord
-	dialog.ShowForm("Print the comparison", "Write", "Cancel", []*widget.FormItem{
+	d := dialog.NewForm("Print the comparison", "Write", "Cancel", []*widget.FormItem{
 		widget.NewFormItem("File", name),
 		widget.NewFormItem("Folder", dirLabel),
 		widget.NewFormItem("", pick),
@@ -279,6 +295,8 @@ func (c *Controller) printComparisonDialog(r *model.Comparison, earlierPath stri
 			c.PrintComparison(filepath.Join(dir, r.FileStem+".pdf"), paper.Selected, true)
 		}
 	}, w)
+	d.Resize(fyne.NewSize(620, 300))
+	d.Show()
 }
 
 // PrintComparison writes the comparison shown to path (or beside it under
@@ -451,6 +469,7 @@ type beatsRenderer struct {
 	raster *canvas.Raster
 	names  []*canvas.Text
 	notes  []*canvas.Text
+	plates [][4]float64 // white plates behind the notes, in units
 }
 
 func (r *beatsRenderer) Destroy()           {}
@@ -473,6 +492,7 @@ func (r *beatsRenderer) Layout(sz fyne.Size) {
 		return
 	}
 	bw, bh := r.v.boxMM()
+	r.plates = r.plates[:0]
 	for i := range r.names {
 		bx := x0 + float64(i%cols)*(bw+beatGapMM)*k
 		by := y0 + float64(i/cols)*(bh+beatGapMM)*k
@@ -483,6 +503,8 @@ func (r *beatsRenderer) Layout(sz fyne.Size) {
 			r.notes[i].Hide()
 		} else {
 			r.notes[i].Show()
+			p := r.notes[i].Position()
+			r.plates = append(r.plates, [4]float64{float64(p.X) - 2, float64(p.Y), float64(p.X+ns.Width) + 1, float64(p.Y + ns.Height)})
 		}
 	}
 }
@@ -536,7 +558,9 @@ func (r *beatsRenderer) draw(w, h int) image.Image {
 			mv     []float64
 			col    color.NRGBA
 			dashed bool
-		}{{b.Earlier, colEarlier, true}, {b.Current, colCurrent, false}} {
+		}{{b.Current, colCurrent, false}, {b.Earlier, colEarlier, true}} {
+			// The current beat first, the earlier one dashed over it:
+			// where they agree both stay visible.
 			var run [][2]float64
 			flush := func() {
 				if len(run) > 1 {
@@ -560,6 +584,9 @@ func (r *beatsRenderer) draw(w, h int) image.Image {
 			flush()
 		}
 		rect(img, bx, by, bx+bw*k, by+bh*k, math.Max(1, dev), colMajor)
+	}
+	for _, p := range r.plates {
+		fill(img, p[0]*dev, p[1]*dev, p[2]*dev, p[3]*dev, color.NRGBA{0xff, 0xff, 0xff, 0xe0})
 	}
 	return img
 }

@@ -77,7 +77,7 @@ func main() {
 				time.Sleep(2 * time.Second) // let the window paint
 				win, pattern := c.Window(), "^tracelift"
 				if cw := c.ComparisonWindow(); cw != nil && *earlier != "" {
-					win, pattern = cw, "^tracelift — comparison"
+					win, pattern = cw, "^tracelift .* comparison"
 				}
 				err := writePNG(*shot, win, pattern)
 				fyne.Do(func() {

@@ -109,7 +109,11 @@ func ComparisonView(r *compare.Result) *model.Comparison {
 			v.Unmeasured++
 		}
 	}
-	v.Notes = append(v.Notes, r.Notes...)
+	for _, n := range r.Notes {
+		// The engine's note names its own code; the window says it plainly.
+		n = strings.ReplaceAll(n, "this package's allowance for digitization (see compare.DigitizationTerm)", "an allowance for the error of reading a picture")
+		v.Notes = append(v.Notes, upperFirst(n))
+	}
 	if r.GainFactor.OK() {
 		v.Notes = append(v.Notes, fmt.Sprintf("Median gain of the current tracing against the earlier one over the leads: %.2f.", float64(r.GainFactor)))
 	}
@@ -123,6 +127,13 @@ func ComparisonView(r *compare.Result) *model.Comparison {
 		v.Notes = append(v.Notes, fmt.Sprintf("The current beats lag the earlier ones by %+.0f to %+.0f ms once both QRS onsets are put at one time (leads whose beats correlate over 0.8).", lo, hi))
 	}
 	return v
+}
+
+func upperFirst(s string) string {
+	if s == "" {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
 }
 
 func sideWords(s compare.Side) string {

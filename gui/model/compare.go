@@ -122,7 +122,8 @@ func (m *Model) Current() (Current, bool) {
 
 // BeatSpan returns the amplitude window in mV that holds every sample of
 // the overlaid beats, widened to whole half millivolts (one 5 mm major
-// square at 10 mm/mV) and to at least −1 … +1 mV, so that every lead is
+// square at 10 mm/mV) with a quarter millivolt of room, and to at least
+// −1 … +1 mV, so that every lead is
 // drawn at one scale.
 func BeatSpan(beats []BeatOverlay) (lo, hi float64) {
 	lo, hi = -1, 1
@@ -137,7 +138,9 @@ func BeatSpan(beats []BeatOverlay) (lo, hi float64) {
 	}
 	// Limit a wild sample (a trace lost off the paper) to ±5 mV.
 	lo, hi = math.Max(lo, -5), math.Min(hi, 5)
-	return math.Floor(lo*2) / 2, math.Ceil(hi*2) / 2
+	// A quarter millivolt of room beyond the extremes keeps a peak off
+	// the box's edge.
+	return math.Floor((lo-0.25)*2) / 2, math.Ceil((hi+0.25)*2) / 2
 }
 
 // BeatGrid chooses how many columns n lead boxes, each boxW × boxH mm with
