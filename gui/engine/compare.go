@@ -83,7 +83,7 @@ func ComparisonView(r *compare.Result) *model.Comparison {
 	}
 	if r.Exchange != nil {
 		v.Reversal = "Likely recording difference, not a change of the heart: " + r.Exchange.Text +
-			". The current tracing is compared with it undone."
+			". The current tracing is compared, and its beats drawn, with it undone."
 	}
 	al := map[string]compare.Alignment{}
 	for _, a := range r.Alignment {

@@ -383,3 +383,57 @@ func TestCompareBadEarlier(t *testing.T) {
 		t.Error("compared with nothing on screen")
 	}
 }
+
+// armsReversed returns rec as recorded with the left and right arm
+// electrodes exchanged: I inverted, II and III exchanged, aVR and aVL
+// exchanged, aVF unchanged (Einthoven's and Goldberger's definitions;
+// the precordial leads, against the central terminal, are unchanged).
+func armsReversed(rec *record.Record) *record.Record {
+	out := rec.Clone()
+	from := map[string]string{"I": "I", "II": "III", "III": "II", "aVR": "aVL", "aVL": "aVR"}
+	for i := range out.Signals {
+		s := &out.Signals[i]
+		src, ok := from[s.Lead]
+		if !ok {
+			continue
+		}
+		orig := rec.Lead(src)
+		for k := range s.MV {
+			s.MV[k] = orig.MV[k]
+			if s.Lead == "I" {
+				s.MV[k] = -orig.MV[k]
+			}
+		}
+	}
+	return out
+}
+
+// The earlier tracing recorded with the arm electrodes reversed (PTB
+// s0010_re's first 10 s, a CSV) against the same 10 s as they are: the
+// window says a likely reversal, as a recording difference, and raises
+// nothing once it is undone.
+func TestCompareSaysLikelyReversal(t *testing.T) {
+	rec, err := wfdb.ReadRecord(ptbHea)
+	if err != nil {
+		t.Fatal(err)
+	}
+	win := rec.Window(record.Standard12, 500, 0, 10)
+	var buf bytes.Buffer
+	if err := csvio.Write(&buf, armsReversed(win), 500); err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(t.TempDir(), "reversed.csv")
+	if err := os.WriteFile(p, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	c, err := (&Backend{}).CompareWith(context.Background(), model.Source{Path: p}, model.Current{Name: "as-is", Record: win}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasPrefix(c.Reversal, "Likely recording difference, not a change of the heart: ") || !strings.Contains(c.Reversal, "undone") {
+		t.Errorf("reversal said as %q", c.Reversal)
+	}
+	if len(c.Raised) != 0 {
+		t.Errorf("raised %v with the reversal undone", raisedKeys(c))
+	}
+}
