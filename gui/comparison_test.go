@@ -63,7 +63,8 @@ func has(list []string, s string) bool {
 // The comparison of the tracing on screen (PTB s0010_re's first 10 s, PTB
 // Diagnostic ECG Database, PhysioNet) with the record's own WFDB header
 // opens a window of its own that shows the caution, the two tracings
-// named, nothing raised, every lead's beats; printing it writes the page
+// named, nothing raised, every lead's beats, and can shrink to a small
+// screen; printing it writes the page
 // beside a file of that name already there, which is left as it was.
 func TestComparisonWindow(t *testing.T) {
 	a := test.NewTempApp(t)
@@ -86,6 +87,11 @@ func TestComparisonWindow(t *testing.T) {
 		if !has(texts, want) {
 			t.Errorf("the window lacks %q; it shows %q", want, texts)
 		}
+	}
+	// The window can shrink to a 1366×768 screen at 1.6× scaling (854×480
+	// units, the main window's goal): its parts scroll or wrap.
+	if ms := w.Content().MinSize(); ms.Width > 854 || ms.Height > 480 {
+		t.Errorf("the comparison window needs at least %v", ms)
 	}
 	if n := len(c.cmpShown.Beats); n != 12 {
 		t.Errorf("%d leads' beats, want 12", n)
