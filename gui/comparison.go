@@ -155,7 +155,7 @@ func (c *Controller) showComparison(r *model.Comparison, earlierPath string) {
 	legend := container.NewHBox(
 		lineSwatch(colEarlier, true), widget.NewLabel("A, earlier: "+r.Earlier),
 		widget.NewSeparator(),
-		lineSwatch(colCurrent, false), widget.NewLabel("B, current: "+r.Current),
+		lineSwatch(colCurrent, false), widget.NewLabel("B, current: "+r.Current+" (as on screen when compared)"),
 	)
 	top := container.NewVBox(caution, container.NewHScroll(legend))
 	if r.Reversal != "" {

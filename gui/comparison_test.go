@@ -83,7 +83,7 @@ func TestComparisonWindow(t *testing.T) {
 		t.Fatal("no comparison window")
 	}
 	texts := labels(w.Content())
-	for _, want := range []string{compare.Caution, "A, earlier: s0010_re.hea, a record file", "B, current: demo, a digitized picture", "Changes raised: 0"} {
+	for _, want := range []string{compare.Caution, "A, earlier: s0010_re.hea, a record file", "B, current: demo, a digitized picture (as on screen when compared)", "Changes raised: 0"} {
 		if !has(texts, want) {
 			t.Errorf("the window lacks %q; it shows %q", want, texts)
 		}
@@ -116,6 +116,17 @@ func TestComparisonWindow(t *testing.T) {
 	}
 	if b, _ := os.ReadFile(mine); string(b) != "kept" {
 		t.Errorf("the file already there was changed")
+	}
+	// Opening another tracing closes the comparison of the one before.
+	img := filepath.Join(dir, "other.png")
+	if err := os.WriteFile(img, []byte("image bytes"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	c.OpenPath(img)
+	c.Wait()
+	c.Wait()
+	if c.ComparisonWindow() != nil {
+		t.Error("the comparison window stayed open over another tracing")
 	}
 }
 

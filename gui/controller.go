@@ -312,6 +312,9 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 			c.refresh()
 			if newFile {
 				c.newFileShown()
+				if c.cmpWin != nil { // it compared the tracing that was on screen
+					c.cmpWin.Close()
+				}
 			}
 			msg := fmt.Sprintf("%s: %d panels, layout %s, scale from %s.", name, len(a.Panels), a.Layout, a.ScaleSource)
 			if a.LayoutNote != "" {
