@@ -46,6 +46,12 @@ type Controller struct {
 	lastProject string
 	lastCorrs   []record.Correction
 
+	// the comparison window with an earlier tracing, when open
+	cmpWin    fyne.Window
+	cmpShown  *model.Comparison
+	cmpStatus *widget.Label
+	cmpCancel context.CancelFunc
+
 	mu     sync.Mutex
 	cancel context.CancelFunc
 	gen    int // which load is current
@@ -55,6 +61,11 @@ type Controller struct {
 	// OnLoaded is called (on the UI goroutine) after each printout is
 	// shown; the app's --screenshot flag hooks in here.
 	OnLoaded func(err error)
+	// OnCompared is called (on the UI goroutine) after a comparison with
+	// an earlier tracing is shown or has failed; OnPrinted after its page
+	// is written (file) or not (err).
+	OnCompared func(err error)
+	OnPrinted  func(file string, err error)
 	// Ask replaces the yes/no dialog (tests answer without a window).
 	Ask func(title, msg string, answer func(bool))
 	// AskScale replaces the Scale tool's dialog (tests).
@@ -156,6 +167,8 @@ var toolHelp = []string{
 }
 
 func (c *Controller) setStatus(s string) { c.status.SetText(s) }
+
+func nowMillis() int64 { return time.Now().UnixMilli() }
 
 // ShowDemo opens the embedded demo printout.
 func (c *Controller) ShowDemo() { c.Open(c.demo, model.Found{}) }
@@ -299,6 +312,9 @@ func (c *Controller) read(src model.Source, s model.Settings, corrs []record.Cor
 			c.refresh()
 			if newFile {
 				c.newFileShown()
+				if c.cmpWin != nil { // it compared the tracing that was on screen
+					c.cmpWin.Close()
+				}
 			}
 			msg := fmt.Sprintf("%s: %d panels, layout %s, scale from %s.", name, len(a.Panels), a.Layout, a.ScaleSource)
 			if a.LayoutNote != "" {

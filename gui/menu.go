@@ -33,6 +33,8 @@ func (c *Controller) menu() *fyne.MainMenu {
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Export…", c.exportDialog),
 		fyne.NewMenuItem("Print summary…", c.print),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("Compare with earlier tracing…", c.compareDialog),
 	)
 	// The keys are named in the labels, not set as the items' shortcuts:
 	// a menu's shortcut would take Ctrl+Z from a settings field's own text.

@@ -13,9 +13,7 @@ import (
 
 	"tracelift/compare"
 	"tracelift/pipeline"
-	"tracelift/record"
 	"tracelift/record/atomic"
-	"tracelift/record/edf"
 	"tracelift/report"
 )
 
@@ -128,87 +126,24 @@ func compareBrief(r *compare.Result) string {
 	return b.String()
 }
 
-// loadSide reads one tracing: a picture is digitized, a record file read,
-// our JSON taken with the CSV written beside it.
+// loadSide reads one tracing through the pipeline's one reader of
+// tracings (pipeline.ReadTracing): a picture is digitized, a record file
+// read, our JSON taken with the CSV written beside it.
 func loadSide(ctx context.Context, path string, dpi float64) (compare.Side, error) {
 	s := compare.Side{Label: filepath.Base(path)}
 	if _, err := os.Stat(path); err != nil && !(filepath.Ext(path) == "" && exists(path+".hea")) {
 		return s, fmt.Errorf("cannot read it: %w", err)
 	}
-	switch strings.ToLower(filepath.Ext(path)) {
-	case ".png", ".jpg", ".jpeg", ".tif", ".tiff", ".pdf":
-		var opt pipeline.Options
-		opt.Calib.UserDPI = dpi
-		o, err := pipeline.Process(ctx, path, opt)
-		if err != nil {
+	var opt pipeline.Options
+	opt.Calib.UserDPI = dpi
+	t, err := pipeline.ReadTracing(ctx, path, opt)
+	if err != nil {
+		if pipeline.IsPicture(path) {
 			return s, namingFile(err, path)
 		}
-		if o.Digitized == nil || o.Digitized.Record == nil {
-			return s, fmt.Errorf("nothing could be traced")
-		}
-		s.Record, s.Findings, s.Digitized = o.Digitized.Record, o.Findings, true
-		s.Quality = map[string]float64{}
-		for l, q := range o.Digitized.Quality {
-			s.Quality[l] = q.Confidence
-		}
-		return s, nil
-	case ".edf":
-		f, err := os.Open(path)
-		if err != nil {
-			return s, err
-		}
-		defer f.Close()
-		rec, _, err := edf.Read(f)
-		if err != nil {
-			return s, err
-		}
-		s.Record = rec
-		return s, nil
-	case ".json":
-		return jsonSide(path, s)
-	}
-	rec, err := readRecord(path)
-	if err != nil {
-		return s, fmt.Errorf("%v, a picture (PNG, JPEG, TIFF, PDF), an EDF+ file or a JSON written by digitize", err)
-	}
-	s.Record = rec
-	return s, nil
-}
-
-// jsonSide reads a JSON written by digitize and the CSV of signals beside
-// it (same stem); the findings are measured again from the signals with
-// the JSON's per-lead confidence.
-func jsonSide(path string, s compare.Side) (compare.Side, error) {
-	b, err := os.ReadFile(path)
-	if err != nil {
 		return s, err
 	}
-	var doc struct {
-		File    string `json:"file"`
-		Quality map[string]struct {
-			Confidence float64 `json:"confidence"`
-		} `json:"quality"`
-	}
-	if err := json.Unmarshal(b, &doc); err != nil {
-		return s, fmt.Errorf("not a JSON file this command reads (%v)", err)
-	}
-	csv := strings.TrimSuffix(path, filepath.Ext(path)) + ".csv"
-	if !exists(csv) {
-		return s, fmt.Errorf("the signals are not in the JSON: put the CSV digitize wrote (%s) beside it, or give that CSV", filepath.Base(csv))
-	}
-	rec, err := readRecord(csv)
-	if err != nil {
-		return s, fmt.Errorf("%s: %w", csv, err)
-	}
-	s.Record = rec
-	if len(doc.Quality) > 0 {
-		s.Digitized = true
-		s.Quality = map[string]float64{}
-		for l, q := range doc.Quality {
-			s.Quality[record.CanonicalLead(l)] = q.Confidence
-		}
-	}
-	return s, nil
+	return compare.Side{Label: t.Label, Record: t.Record, Findings: t.Findings, Quality: t.Quality, Digitized: t.Digitized}, nil
 }
 
 // inputFiles lists the files each input stands for (a JSON's CSV, a WFDB

@@ -13,11 +13,10 @@ import (
 	"syscall"
 
 	"tracelift/axis"
+	"tracelift/pipeline"
 	"tracelift/record"
 	"tracelift/record/atomic"
-	"tracelift/record/csvio"
 	"tracelift/record/ledger"
-	"tracelift/record/wfdb"
 )
 
 func init() {
@@ -76,33 +75,8 @@ func cmdMeasure(args []string, stdout, stderr io.Writer) int {
 }
 
 // readRecord opens a WFDB header (".hea", or a path without extension
-// whose .hea exists) or a CSV file.
-func readRecord(path string) (*record.Record, error) {
-	ext := strings.ToLower(filepath.Ext(path))
-	switch ext {
-	case ".csv", ".txt":
-		f, err := openRegular(path)
-		if err != nil {
-			return nil, err
-		}
-		defer f.Close()
-		rec, err := csvio.Read(f)
-		if err != nil {
-			return nil, err
-		}
-		if rec.Name == "" {
-			rec.Name = strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
-		}
-		return rec, nil
-	case ".hea":
-		return wfdb.ReadRecord(path)
-	case "":
-		if _, err := os.Stat(path + ".hea"); err == nil {
-			return wfdb.ReadRecord(path)
-		}
-	}
-	return nil, fmt.Errorf("not a record this command reads (give a WFDB .hea header or a .csv file)")
-}
+// whose .hea exists) or a CSV file (pipeline.ReadRecordFile).
+func readRecord(path string) (*record.Record, error) { return pipeline.ReadRecordFile(path) }
 
 func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error {
 	rec, err := readRecord(path)
@@ -137,25 +111,4 @@ func measureOne(path, dir, beatLead string, quiet bool, stdout io.Writer) error 
 // extension.
 func measureStem(path string) string {
 	return strings.TrimSuffix(filepath.Base(path), filepath.Ext(path))
-}
-
-// openRegular opens path only when it is a regular file (a link to one is
-// followed): a FIFO would block, a device such as /dev/zero never ends.
-func openRegular(path string) (*os.File, error) {
-	fi, err := os.Stat(path)
-	if err != nil {
-		return nil, err
-	}
-	if !fi.Mode().IsRegular() {
-		return nil, fmt.Errorf("%s is not a regular file (%v); give a record file saved on disk", path, fi.Mode().Type())
-	}
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, err
-	}
-	if fi, err := f.Stat(); err != nil || !fi.Mode().IsRegular() {
-		f.Close()
-		return nil, fmt.Errorf("%s is not a regular file; give a record file saved on disk", path)
-	}
-	return f, nil
 }

@@ -160,3 +160,75 @@ exit 0
 		t.Fatalf("corrections saved after Ctrl+Z, Ctrl+Shift+Z, Ctrl+Z, Ctrl+Y: %q, want %q\n%s", got, want, out)
 	}
 }
+
+// TestWindowCompare starts the app under Xvfb on the demo with
+// --compare-with the open PTB record s0010_re (PTB Diagnostic ECG
+// Database, PhysioNet; ../../../shared/data): it exits 0 only once the
+// comparison window is shown, and its screenshot is not blank and fits
+// a 1366×768 screen. With a text file as the earlier tracing it exits 3
+// (the comparison failed) instead of hanging or crashing.
+func TestWindowCompare(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds and runs the app")
+	}
+	xvfb, err := exec.LookPath("xvfb-run")
+	if err != nil {
+		t.Skip("xvfb-run not installed")
+	}
+	dir := t.TempDir()
+	bin := filepath.Join(dir, "tracelift")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		t.Fatalf("build: %v\n%s", err, out)
+	}
+	hea, err := filepath.Abs("../../../shared/data/ptb-s0010_re/s0010_re.hea")
+	if err != nil {
+		t.Fatal(err)
+	}
+	notes := filepath.Join(dir, "notes.txt")
+	if err := os.WriteFile(notes, []byte("hello"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	run := func(earlier, shot string) (int, string) {
+		ctx, cancel := context.WithTimeout(context.Background(), 120*time.Second)
+		defer cancel()
+		cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1366x768x24", bin, "--compare-with", earlier, "--screenshot", shot, "--quit-after", "60s")
+		cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"), "TRACELIFT_NO_VIEWER=1")
+		out, err := cmd.CombinedOutput()
+		if ctx.Err() != nil {
+			t.Fatalf("the app did not quit in time\n%s", out)
+		}
+		if ee, ok := err.(*exec.ExitError); ok {
+			return ee.ExitCode(), string(out)
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		return 0, string(out)
+	}
+	shot := filepath.Join(dir, "comparison.png")
+	if code, out := run(hea, shot); code != 0 {
+		t.Fatalf("exit %d with the PTB record as the earlier tracing\n%s", code, out)
+	}
+	f, err := os.Open(shot)
+	if err != nil {
+		t.Fatalf("no screenshot: %v", err)
+	}
+	defer f.Close()
+	img, err := png.Decode(f)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v := variance(img); v < 100 {
+		t.Errorf("screenshot looks blank: grey variance %.1f", v)
+	}
+	if b := img.Bounds(); b.Dx() < 600 || b.Dy() < 400 || b.Dx() > 1366 || b.Dy() > 768 {
+		t.Errorf("comparison window is %v", b)
+	}
+	if os.Getenv("TRACELIFT_KEEP_SHOT") != "" {
+		data, _ := os.ReadFile(shot)
+		os.WriteFile(os.Getenv("TRACELIFT_KEEP_SHOT")+".compare.png", data, 0o644)
+	}
+	if code, out := run(notes, filepath.Join(dir, "failed.png")); code != 3 {
+		t.Errorf("exit %d with a text file as the earlier tracing, want 3\n%s", code, out)
+	}
+}

@@ -39,6 +39,8 @@ type Backend struct {
 	Options pipeline.Options // base options; the user's settings go on top
 	// ExportOptions for the writers; the PDF writer defaults to report.Write.
 	ExportOptions pipeline.ExportOptions
+	// ComparePDF draws the comparison page; nil is report.ComparePDF.
+	ComparePDF ComparePDFWriter
 
 	mu   sync.Mutex
 	last *state // the page last analysed, for the page's verdict

@@ -8,7 +8,9 @@ import (
 	"regexp"
 	"strings"
 
+	"tracelift/axis"
 	"tracelift/calib"
+	"tracelift/compare"
 	"tracelift/digitize"
 	"tracelift/pipeline"
 )
@@ -44,6 +46,16 @@ func Explain(err error) Explanation {
 	if err == nil {
 		return Explanation{}
 	}
+	var ce *CompareError
+	if errors.As(err, &ce) && !errors.Is(err, context.Canceled) {
+		in := Explain(ce.Err)
+		in.What = "The earlier tracing, " + filepath.Base(ce.Earlier) + ", could not be compared with the one on screen. " + in.What
+		if in.Advice == "" {
+			in.Advice = tracingKinds
+		}
+		in.Retry = false
+		return in
+	}
 	e := Explanation{Detail: Plain(err)}
 	switch {
 	case errors.Is(err, context.Canceled):
@@ -70,6 +82,15 @@ func Explain(err error) Explanation {
 		e.Retry = true
 		e.What = "The grid was found, but no rows of traces on it."
 		e.Advice = "Check that the picture shows the traces (not a blank or cropped sheet). A page lying sideways or mirrored can be turned on the Reading tab; faint traces read better from a sharper scan."
+	case errors.Is(err, pipeline.ErrNotTracing):
+		e.What = "The file is not a tracing this program reads."
+		e.Advice = tracingKinds
+	case errors.Is(err, axis.ErrNoBeats), errors.Is(err, axis.ErrNoLead), errors.Is(err, axis.ErrTooShort):
+		e.What = "No heartbeats could be measured on the tracing."
+		e.Advice = "Check that it is an ECG of several seconds whose leads are named as the standard ones (I, II, V1 …)."
+	case errors.Is(err, compare.ErrNothingInCommon):
+		e.What = "The two tracings have no lead with a measured beat in common, so they cannot be compared."
+		e.Advice = "Check that the earlier tracing holds the same leads; open it alone first to see whether its beats are found."
 	case errors.Is(err, pipeline.ErrNoPDFWriter):
 		e.What = "This build cannot write the PDF summary."
 		e.Advice = "Export the other formats; report the problem to whoever installed the program."
@@ -86,9 +107,12 @@ func Explain(err error) Explanation {
 	return e
 }
 
+// tracingKinds says what files a tracing may come from.
+const tracingKinds = "Choose a picture of an ECG (PNG, JPEG, TIFF, PDF), a record file (WFDB .hea, CSV, EDF+) or a JSON written by tracelift with its CSV beside it."
+
 // packagePrefix matches the program's package names at the start of an
 // error's parts ("calib: ", "digitize: ").
-var packagePrefix = regexp.MustCompile(`(^|: )(calib|digitize|pipeline|engine|model|record|wfdb|edf|csvio|atomic|report|axis|batch): `)
+var packagePrefix = regexp.MustCompile(`(^|: )(calib|digitize|pipeline|engine|model|record|wfdb|edf|csvio|atomic|report|axis|batch|compare): `)
 
 // Plain is err's text without package names and without the parts it
 // repeats (a wrapped error's own text said again at the end).

@@ -42,6 +42,7 @@ type Model struct {
 	rec        *record.Record
 	views      []PanelView
 	sum        *Summary
+	quality    map[string]float64 // per record lead, as measured
 	measureErr error
 	applyErr   error
 	changes    []Change
@@ -355,6 +356,7 @@ func (m *Model) recompute() {
 			quality[v.Lead] = v.Confidence
 		}
 	}
+	m.quality = quality
 	m.sum, m.measureErr = m.b.Measure(rec, quality)
 	if m.measureErr != nil {
 		m.sum = nil
