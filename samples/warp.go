@@ -180,3 +180,37 @@ func warp(src *image.NRGBA, hm [9]float64, w, h int, bg func(x, y int) color.NRG
 	})
 	return dst, nil
 }
+
+// Unwarp samples pic, a picture of a printout whose truth is t, back onto
+// the clean render's pixel grid (w × h px at t.CleanPxPerMM): each clean
+// pixel's centre is carried to the picture by t.ToImage (the paper's
+// bend, then PageToImage) and read there bilinearly; white where it falls
+// outside the picture. It is the flattened page an ideal calibration
+// would give, for scoring the tracer apart from calib.
+func Unwarp(pic *image.NRGBA, t Truth, w, h int) *image.NRGBA {
+	out := image.NewNRGBA(image.Rect(0, 0, w, h))
+	sw, sh := pic.Rect.Dx(), pic.Rect.Dy()
+	parallelRows(h, func(y0, y1 int) {
+		for y := y0; y < y1; y++ {
+			for x := 0; x < w; x++ {
+				u, v := t.ToImage(float64(x)+0.5, float64(y)+0.5)
+				u, v = u-0.5, v-0.5
+				i, j := int(math.Floor(u)), int(math.Floor(v))
+				fx, fy := u-float64(i), v-float64(j)
+				o := out.Pix[y*out.Stride+4*x:]
+				if i < 0 || j < 0 || i+1 >= sw || j+1 >= sh {
+					o[0], o[1], o[2], o[3] = 255, 255, 255, 255
+					continue
+				}
+				for c := 0; c < 4; c++ {
+					a := float64(pic.Pix[j*pic.Stride+4*i+c])
+					b := float64(pic.Pix[j*pic.Stride+4*(i+1)+c])
+					cc := float64(pic.Pix[(j+1)*pic.Stride+4*i+c])
+					d := float64(pic.Pix[(j+1)*pic.Stride+4*(i+1)+c])
+					o[c] = uint8(a*(1-fx)*(1-fy) + b*fx*(1-fy) + cc*(1-fx)*fy + d*fx*fy + 0.5)
+				}
+			}
+		}
+	})
+	return out
+}
