@@ -2,7 +2,6 @@ package batch
 
 import (
 	"bufio"
-	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -117,136 +116,6 @@ func readSummaryFile(t *testing.T, p string) []Row {
 		t.Fatal(err)
 	}
 	return rows
-}
-
-func TestCollectWalk(t *testing.T) {
-	t.Parallel()
-	src := t.TempDir()
-	writeTree(t, src, map[string]string{
-		"a.png": "", "a.JPG": "", "b/c.tiff": "", "b/d/e.pdf": "", "notes.txt": "",
-		".hidden/x.png": "", "b/.y.png": "", "out/old.png": "",
-	})
-	other := t.TempDir()
-	writeTree(t, other, map[string]string{"z.png": ""})
-	if err := os.Symlink(other, filepath.Join(src, "linkdir")); err != nil {
-		t.Fatal(err)
-	}
-	ins, err := Collect(src, CollectOptions{Skip: []string{filepath.Join(src, "out")}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	var got []string
-	for _, in := range ins {
-		got = append(got, in.Rel+"→"+in.Stem)
-		if in.Err != "" {
-			t.Errorf("%s: unexpected refusal %s", in.Rel, in.Err)
-		}
-	}
-	// a.JPG and a.png share a stem, so both carry their extension.
-	want := []string{"a.JPG→a_jpg", "a.png→a_png", "b/c.tiff→c", "b/d/e.pdf→e"}
-	if strings.Join(got, " ") != strings.Join(want, " ") {
-		t.Errorf("walk found %v, want %v", got, want)
-	}
-	// WFDB record names allow letters, digits, _ - . only (wfdb.WriteRecord,
-	// after the WFDB header format); two names that meet after the change
-	// are told apart (extension first, then a counter).
-	writeTree(t, src, map[string]string{"scan 1 (ward).png": "", "scan_1__ward_.png": "", "Bäcker.png": ""})
-	ins, err = Collect(src, CollectOptions{PlainStems: true, Skip: []string{filepath.Join(src, "out")}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	stems := map[string]string{}
-	for _, in := range ins {
-		stems[in.Rel] = in.Stem
-	}
-	if stems["scan 1 (ward).png"] != "scan_1__ward__png" || stems["scan_1__ward_.png"] != "scan_1__ward__png-2" || stems["Bäcker.png"] != "B_cker" {
-		t.Errorf("plain stems %v", stems)
-	}
-}
-
-func TestCollectList(t *testing.T) {
-	t.Parallel()
-	base := t.TempDir()
-	writeTree(t, base, map[string]string{"p/1.png": "", "p/2.png": ""})
-	list := filepath.Join(base, "list.txt")
-	body := strings.Join([]string{
-		"# pages of the archive", "", "p/1.png", filepath.Join(base, "p", "2.png"), "p/1.png",
-		"../escape.png", "p/../../x.png", "/etc/passwd", "missing.png",
-	}, "\n")
-	if err := os.WriteFile(list, []byte(body), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	ins, err := Collect(list, CollectOptions{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	refused := map[string]string{}
-	var ok []string
-	for _, in := range ins {
-		if in.Err != "" {
-			refused[in.Rel] = in.Err
-		} else {
-			ok = append(ok, in.Rel)
-		}
-	}
-	if strings.Join(ok, ",") != "missing.png,p/1.png,p/2.png" {
-		t.Errorf("accepted %v", ok)
-	}
-	for _, r := range []string{"../escape.png", "p/../../x.png", "/etc/passwd"} {
-		msg, ok := refused[r]
-		if !ok {
-			t.Errorf("%s was not refused", r)
-			continue
-		}
-		if !strings.HasPrefix(msg, "batch: ") || !strings.Contains(msg, r) || !strings.Contains(msg, "line ") {
-			t.Errorf("refusal of %s does not name it, its line and the package: %q", r, msg)
-		}
-	}
-	if _, err := Collect(filepath.Join(base, "nope"), CollectOptions{}); err == nil {
-		t.Error("a missing input gave no error")
-	}
-}
-
-func TestShard(t *testing.T) {
-	t.Parallel()
-	// FNV-1a 64-bit test vectors: offset basis for "" and the value for
-	// "a" (the FNV reference test suite, draft-eastlake-fnv; from memory).
-	// Checking them pins the hash so shards can be computed elsewhere.
-	if got := ShardOf("", 1<<62); uint64(got-1) != 0xcbf29ce484222325%(1<<62) {
-		t.Errorf("FNV-1a of \"\" mod 2^62 = %#x", got-1)
-	}
-	if got := ShardOf("a", 1<<62); uint64(got-1) != 0xaf63dc4c8601ec8c%(1<<62) {
-		t.Errorf("FNV-1a of \"a\" mod 2^62 = %#x", got-1)
-	}
-	var ins []Input
-	for i := 0; i < 3000; i++ {
-		ins = append(ins, Input{Rel: fmt.Sprintf("box%02d/page%04d.png", i%17, i)})
-	}
-	const n = 3
-	seen := map[string]int{}
-	for k := 1; k <= n; k++ {
-		part := Shard(ins, k, n)
-		// Each shard gets a fair part: 1000 expected, binomial sd ≈ 26.
-		if len(part) < 850 || len(part) > 1150 {
-			t.Errorf("shard %d/%d holds %d of 3000", k, n, len(part))
-		}
-		for _, in := range part {
-			seen[in.Rel]++
-		}
-	}
-	for _, in := range ins {
-		if seen[in.Rel] != 1 {
-			t.Fatalf("%s is in %d shards", in.Rel, seen[in.Rel])
-		}
-	}
-	for _, bad := range []string{"", "3", "0/3", "4/3", "a/b", "1/0", "-1/2"} {
-		if _, _, err := ParseShard(bad); err == nil {
-			t.Errorf("ParseShard(%q) accepted", bad)
-		}
-	}
-	if k, n, err := ParseShard(" 2 / 8 "); err != nil || k != 2 || n != 8 {
-		t.Errorf("ParseShard(2/8) = %d, %d, %v", k, n, err)
-	}
 }
 
 func TestRun(t *testing.T) {
@@ -505,104 +374,6 @@ func TestOutputsStayInside(t *testing.T) {
 	}
 }
 
-func TestSummaryCSV(t *testing.T) {
-	t.Parallel()
-	f := NoFindings()
-	f.HeartRateBPM, f.Transition, f.Verdict = 72.123456, "V3/V4", "care"
-	rows := []Row{
-		{File: "z.png", Status: StatusOK, Findings: f, Seconds: 2.5},
-		{File: "a,b.png", Status: StatusFailed, Error: "calib: \"x\" failed\nsecond line", Findings: NoFindings(), Seconds: 0.1},
-	}
-	var buf bytes.Buffer
-	if err := WriteSummary(&buf, rows); err != nil {
-		t.Fatal(err)
-	}
-	// RFC 4180 §2: fields with commas, quotes or line breaks are quoted and
-	// inner quotes doubled.
-	want := "file,status,error,heart_rate_bpm,pr_ms,qrs_ms,qt_ms,qtc_bazett_ms,qrs_axis_deg,transition,median_lead_confidence,seconds,verdict\n" +
-		"\"a,b.png\",failed,\"calib: \"\"x\"\" failed\nsecond line\",,,,,,,,,0.1,\n" +
-		"z.png,ok,,72.123,,,,,,V3/V4,,2.5,care\n"
-	if buf.String() != want {
-		t.Errorf("summary:\n%s\nwant:\n%s", buf.String(), want)
-	}
-	back, err := ReadSummary(&buf)
-	if err != nil || len(back) != 2 || back[0].Error != rows[1].Error || back[1].Findings.HeartRateBPM != 72.123 || back[1].Findings.Verdict != "care" {
-		t.Errorf("read back %+v, %v", back, err)
-	}
-	if got := CountVerdicts(back); got != "ready 0, care 1, not_readable 0, no verdict 1" {
-		t.Errorf("verdict counts %q", got)
-	}
-}
-
-func TestMerge(t *testing.T) {
-	t.Parallel()
-	dir := t.TempDir()
-	write := func(name string, rows ...Row) string {
-		p := filepath.Join(dir, name)
-		if err := WriteSummaryFile(p, rows); err != nil {
-			t.Fatal(err)
-		}
-		return p
-	}
-	ok := func(f string) Row { return Row{File: f, Status: StatusOK, Findings: NoFindings()} }
-	bad := func(f string) Row { return Row{File: f, Status: StatusFailed, Error: "x", Findings: NoFindings()} }
-	write("summary-1-of-4.csv", ok("a"), bad("b"))
-	write("summary-2-of-4.csv", ok("c"), ok("b"))
-	write("summary-4-of-4.csv", bad("d"))
-	paths, err := FindSummaries([]string{dir})
-	if err != nil || len(paths) != 3 {
-		t.Fatalf("FindSummaries: %v, %v", paths, err)
-	}
-	rep, err := Merge(paths, []string{"a", "b", "c", "d", "e"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	var files []string
-	for _, r := range rep.Rows {
-		files = append(files, r.File+":"+string(r.Status))
-	}
-	if strings.Join(files, " ") != "a:ok b:ok c:ok d:failed" {
-		t.Errorf("merged %v", files)
-	}
-	if strings.Join(rep.Duplicates, ",") != "b" || strings.Join(rep.MissingShards, ",") != "3/4" ||
-		strings.Join(rep.MissingFiles, ",") != "e" || len(rep.Failed) != 1 {
-		t.Errorf("report %+v", rep)
-	}
-	if _, err := FindSummaries([]string{t.TempDir()}); err == nil {
-		t.Error("an empty folder gave no error")
-	}
-	if _, err := FindSummaries([]string{filepath.Join(dir, "nothing-*.csv")}); err == nil {
-		t.Error("a pattern matching nothing gave no error")
-	}
-}
-
-func TestParseDocument(t *testing.T) {
-	t.Parallel()
-	if _, _, err := ParseDocument([]byte("not json")); err == nil || !strings.HasPrefix(err.Error(), "batch: ") {
-		t.Errorf("bad JSON: %v", err)
-	}
-	if _, _, err := ParseDocument([]byte(`{"heart_rate_bpm": 60}`)); err == nil {
-		t.Error("a document without image_sha256 was accepted")
-	}
-	// A null rate stays unmeasured; the median of two confidences is
-	// their mean; a missing interval is unmeasured, not zero.
-	sha, f, err := ParseDocument([]byte(`{"image_sha256":"ab","heart_rate_bpm":null,"intervals_ms":{"pr":150},
-		"quality":{"V1":{"confidence":0.5},"V2":{"confidence":0.7}},"transition":"V4"}`))
-	if err != nil || sha != "ab" || !math.IsNaN(f.HeartRateBPM) || f.MedianLeadConfidence != 0.6 || f.Transition != "V4" ||
-		f.PRMS != 150 || !math.IsNaN(f.QTMS) {
-		t.Errorf("got %q %+v %v", sha, f, err)
-	}
-	b, err := json.Marshal(f)
-	if err != nil || !strings.Contains(string(b), `"heart_rate_bpm":null`) {
-		t.Errorf("NaN marshals as %s, %v", b, err)
-	}
-	// A page traced but not measured says so in the summary's error cell.
-	_, f, _ = ParseDocument([]byte(`{"image_sha256":"ab","measure_error":"axis: no beats found"}`))
-	if row := (Result{File: "x", Status: StatusOK, Findings: &f}).Row(); row.Error != "not measured: axis: no beats found" {
-		t.Errorf("row error %q", row.Error)
-	}
-}
-
 func TestHashMatchesSha256sum(t *testing.T) {
 	t.Parallel()
 	p := filepath.Join(t.TempDir(), "abc")
@@ -611,16 +382,5 @@ func TestHashMatchesSha256sum(t *testing.T) {
 	// SHA-256("abc") from FIPS 180-2, Appendix B.1.
 	if err != nil || got != "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad" {
 		t.Errorf("hash %s, %v", got, err)
-	}
-}
-
-// A page's JSON document holds each interval beside its 90 % interval
-// (pr, pr_ci90: [lo, hi]) and a top-level verdict; both are read.
-func TestParseDocumentIntervalsAndVerdict(t *testing.T) {
-	t.Parallel()
-	doc := `{"image_sha256":"ab","heart_rate_bpm":70,"verdict":"care","intervals_ms":{"pr":160,"pr_ci90":[150,170],"qrs":90,"qrs_ci90":[null,null]},"axis":{"qrs_deg":45,"qrs_deg_ci90":[40,50]}}`
-	sha, f, err := ParseDocument([]byte(doc))
-	if err != nil || sha != "ab" || f.PRMS != 160 || f.QRSMS != 90 || f.QRSAxisDeg != 45 || f.Verdict != "care" {
-		t.Fatalf("sha %q findings %+v, %v", sha, f, err)
 	}
 }

@@ -28,6 +28,7 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	}
 	k := workScale(b)
 	wk := makeWork(src, k)
+	wk.trace = opt.Trace
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -49,8 +50,8 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 			if ok && (g.perspTerms > 0.01 || g.rmsMM > 0.05) {
 				g = secondPass(wk, g)
 			}
-			if dbgGrid != nil {
-				dbgGrid("angle %.3f°: grid found %v, rms %.3f mm on %d tiles, perspective %.4f", e.theta*180/math.Pi, ok, g.rmsMM, g.tiles, g.perspTerms)
+			if wk.trace != nil {
+				wk.trace("angle %.3f°: grid found %v, rms %.3f mm on %d tiles, perspective %.4f", e.theta*180/math.Pi, ok, g.rmsMM, g.tiles, g.perspTerms)
 			}
 			if ok && (!found || g.quality() > gm.quality()) {
 				gm, found = g, true
@@ -76,8 +77,8 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 		if q, ok := sheetQuad(wk); ok {
 			if M, W, H, ok := sheetFrame(q, wk); ok {
 				g2 := remeasure(wk, gm, M, W, H)
-				if dbgGrid != nil {
-					dbgGrid("sheet frame: rms %.3f → %.3f mm", gm.rmsMM, g2.rmsMM)
+				if wk.trace != nil {
+					wk.trace("sheet frame: rms %.3f → %.3f mm", gm.rmsMM, g2.rmsMM)
 				}
 				gm = g2
 			}
@@ -96,8 +97,8 @@ func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 			theta = 0
 		}
 	}
-	if dbgGrid != nil {
-		dbgGrid("no grid: theta %.3f° coherence %.2f", theta*180/math.Pi, coh)
+	if wk.trace != nil {
+		wk.trace("no grid: theta %.3f° coherence %.2f", theta*180/math.Pi, coh)
 	}
 	return looked(pg)(withoutGrid(ctx, pg, wk, theta, opt))
 }
@@ -126,8 +127,8 @@ func sheetGrid(wk *work) (gridModel, bool) {
 		return gridModel{}, false
 	}
 	g, ok := measureFlat(wk, M, W, H)
-	if dbgGrid != nil {
-		dbgGrid("sheet grid: %d×%d flat, grid found %v, rms %.3f mm on %d tiles", W, H, ok, g.rmsMM, g.tiles)
+	if wk.trace != nil {
+		wk.trace("sheet grid: %d×%d flat, grid found %v, rms %.3f mm on %d tiles", W, H, ok, g.rmsMM, g.tiles)
 	}
 	if !ok {
 		return gridModel{}, false
@@ -145,7 +146,7 @@ func measureFlat(wk *work, M mat3, W, H int) (gridModel, bool) {
 	if err1 != nil || err2 != nil {
 		return gridModel{}, false
 	}
-	g, ok := measureGrid(&work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax}, 0)
+	g, ok := measureGrid(&work{w: W, h: H, k: wk.k, dmin: dmin, dmax: dmax, trace: wk.trace}, 0)
 	if !ok {
 		return g, false
 	}
@@ -226,8 +227,8 @@ func remeasure(wk *work, gm gridModel, M mat3, W, H int) gridModel {
 	poorFirst := gm.rmsMM > 0.15 && g2.rmsMM < 0.05
 	fivefold := func(r float64) bool { return (r > 4 && r < 6) || (r > 1.0/6 && r < 0.25) }
 	agree := func(r float64) bool { return math.Abs(r-1) <= 0.15 || (poorFirst && !fivefold(r)) }
-	if dbgGrid != nil {
-		dbgGrid("remeasured: rms %.3f → %.3f mm, scale ratio %.3f × %.3f", gm.rmsMM, g2.rmsMM, rx, ry)
+	if wk.trace != nil {
+		wk.trace("remeasured: rms %.3f → %.3f mm, scale ratio %.3f × %.3f", gm.rmsMM, g2.rmsMM, rx, ry)
 	}
 	if !agree(rx) || !agree(ry) {
 		return gm
@@ -344,18 +345,19 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 	if gr.Dx()*gr.Dy() < W*Hh/4 {
 		gr = image.Rect(0, 0, W, Hh) // too little grid to judge by
 	}
-	if dbgGrid != nil {
-		dbgGrid("turn: rect %d×%d paper box %v grid %v ink threshold %d", W, Hh, paperBox, gr, inkThreshold(ink, gr))
+	if wk.trace != nil {
+		wk.trace("turn: rect %d×%d paper box %v grid %v ink threshold %d", W, Hh, paperBox, gr, inkThreshold(ink, gr))
 	}
 	// When the grid covers only part of the sheet the crop may hold too
 	// few rows: both views must agree before a page is turned.
 	thr := inkThreshold(ink, gr)
 	pool := poolInk(ink, s, thr)
+	pool.trace = wk.trace
 	bs := pool.bs
 	q, turnConf := pool.decide(image.Rect(gr.Min.X/bs, gr.Min.Y/bs, gr.Max.X/bs, gr.Max.Y/bs))
 	if qf, _ := pool.decide(image.Rect(0, 0, pool.w, pool.h)); qf != q {
-		if dbgGrid != nil {
-			dbgGrid("turn: %d inside the grid, %d over the whole page", q, qf)
+		if wk.trace != nil {
+			wk.trace("turn: %d inside the grid, %d over the whole page", q, qf)
 		}
 		switch {
 		case q == 0 || qf == 0 || q&1 != qf&1:
@@ -382,8 +384,8 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		// tall complexes line up their QRS from row to row and ink whole
 		// columns, so the pulses may overrule the ink's direction.
 		side, other := count(q), count(4-q)
-		if dbgGrid != nil {
-			dbgGrid("turn: %d pulses upright, %d after turning %d, %d the other way", up, side, q, other)
+		if wk.trace != nil {
+			wk.trace("turn: %d pulses upright, %d after turning %d, %d the other way", up, side, q, other)
 		}
 		if other >= 2 && other > side {
 			q, side = 4-q, other
@@ -397,8 +399,8 @@ func fromGrid(ctx context.Context, pg *Page, wk *work, gm gridModel, opt Options
 		// Upright by the ink's direction, not clearly, and no upright
 		// pulse: a page on its side shows its pulses after the turn.
 		s1, s3 := count(1), count(3)
-		if dbgGrid != nil {
-			dbgGrid("turn: no upright pulse; %d after one turn, %d after three", s1, s3)
+		if wk.trace != nil {
+			wk.trace("turn: no upright pulse; %d after one turn, %d after three", s1, s3)
 		}
 		if max(s1, s3) >= 2 && s1 != s3 {
 			q, turnConf = 1, 0.4
@@ -618,8 +620,8 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		aniso = 1
 	}
 	if t, ok := profileAngle(wk, aniso, 10); ok {
-		if dbgGrid != nil {
-			dbgGrid("no grid: profile angle %.3f° (spectrum %.3f°)", t*180/math.Pi, theta*180/math.Pi)
+		if wk.trace != nil {
+			wk.trace("no grid: profile angle %.3f° (spectrum %.3f°)", t*180/math.Pi, theta*180/math.Pi)
 		}
 		theta = t
 	}
@@ -695,8 +697,8 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		}
 		ps = consistentPulses(ps, g0, 10*pulseMV)
 	}
-	if dbgGrid != nil {
-		dbgGrid("no grid: bilevel %v border %v pages %v (rect %d×%d, aniso %.2f) pulses %d guess %.3f", bilevel, paperBorder, pages, Wr, Hr, aniso, len(ps), guess)
+	if wk.trace != nil {
+		wk.trace("no grid: bilevel %v border %v pages %v (rect %d×%d, aniso %.2f) pulses %d guess %.3f", bilevel, paperBorder, pages, Wr, Hr, aniso, len(ps), guess)
 	}
 	if len(ps) == 0 && !bilevel && !paperBorder && !opt.ForceUser {
 		// A photographed sheet whose outline shows: flattened, its pulses
@@ -728,8 +730,8 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		hErr := math.Max(0.012, 0.7*math.Max(1, aniso)/h/n)
 		wErr := math.Max(0.012, 0.7/w/n)
 		fit = fuseScale(h, w, hErr, wErr, pages, 0.01, guess, opt)
-		if dbgGrid != nil {
-			dbgGrid("pulse h %.2f w %.2f (±%.3f ±%.3f): %+v", h, w, hErr, wErr, fit)
+		if wk.trace != nil {
+			wk.trace("pulse h %.2f w %.2f (±%.3f ±%.3f): %+v", h, w, hErr, wErr, fit)
 		}
 		if fit.paper < 0 && len(pages) > 0 && bilevel {
 			// A fax whose "pulse" the sheet's size cannot explain at any
@@ -794,8 +796,8 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 				r, ok = fromSheetOnly(pg, wk, q, opt)
 			}
 			if ok {
-				if dbgGrid != nil {
-					dbgGrid("sheet %v: %s", q, r.Warnings[0])
+				if wk.trace != nil {
+					wk.trace("sheet %v: %s", q, r.Warnings[0])
 				}
 				return r, ctx.Err()
 			}

@@ -26,6 +26,7 @@ type gridScan struct {
 	ts         int
 	nu, nv     int
 	tiles      []tileProj
+	trace      func(format string, a ...any) // the work's (Options.Trace)
 }
 
 // inkCut returns the dmax level above which a pixel is taken as ink and
@@ -67,7 +68,7 @@ func scanTiles(wk *work, theta float64, ts int, cut float32) *gridScan {
 	vmin, vmax := minMax(vs)
 	nu := int((umax-umin)/float64(ts)) + 1
 	nv := int((vmax-vmin)/float64(ts)) + 1
-	g := &gridScan{c: c, s: s, umin: umin, vmin: vmin, ts: ts, nu: nu, nv: nv, tiles: make([]tileProj, nu*nv)}
+	g := &gridScan{c: c, s: s, umin: umin, vmin: vmin, ts: ts, nu: nu, nv: nv, tiles: make([]tileProj, nu*nv), trace: wk.trace}
 	for i := range g.tiles {
 		g.tiles[i].iu, g.tiles[i].iv = i%nu, i/nu
 		g.tiles[i].pu = make([]float32, ts+2)
@@ -277,12 +278,12 @@ func analyzeAxis(g *gridScan, useU bool) axisFit {
 		}
 		return r
 	}
-	if dbgGrid != nil {
+	if g.trace != nil {
 		var ps []float64
 		for i := 1; i < 5; i++ {
 			ps = append(ps, at(fp*float64(i)/5))
 		}
-		dbgGrid("peak f %.4f prom %.1f; fifths %.1f", fp, bestP, ps)
+		g.trace("peak f %.4f prom %.1f; fifths %.1f", fp, bestP, ps)
 	}
 	m := 1
 	// ECG paper repeats every 5 mm (heavier lines or dots every fifth,

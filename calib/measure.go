@@ -126,8 +126,8 @@ func measureGrid(wk *work, theta float64) (gridModel, bool) {
 	gm, ok := fitAxes(wk, g, au, av, ts, nil, [2]bool{})
 	if seed != nil {
 		gs, oks := fitAxes(wk, g, au, av, ts, seed, [2]bool{au.oneMM, av.oneMM})
-		if dbgGrid != nil {
-			dbgGrid("unwrapped: ok %v scale off %.4f rms %.3f; seeded: ok %v scale off %.4f rms %.3f", ok, gm.scaleErr, gm.rmsMM, oks, gs.scaleErr, gs.rmsMM)
+		if wk.trace != nil {
+			wk.trace("unwrapped: ok %v scale off %.4f rms %.3f; seeded: ok %v scale off %.4f rms %.3f", ok, gm.scaleErr, gm.rmsMM, oks, gs.scaleErr, gs.rmsMM)
 		}
 		if oks && (!ok || gs.scaleErr < gm.scaleErr) {
 			gm, ok = gs, true
@@ -178,8 +178,8 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 		// the texture of a plain sheet through a camera (JPEG, resampling,
 		// noise) rather than a grid, which shows its harmonics and covers
 		// the page.
-		if dbgGrid != nil {
-			dbgGrid("no harmonics and few tiles: not a grid")
+		if wk.trace != nil {
+			wk.trace("no harmonics and few tiles: not a grid")
 		}
 		return gridModel{}, false
 	}
@@ -284,14 +284,14 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 		}
 	}
 	if math.IsInf(bestScore, 1) || bestScore >= 10 {
-		if dbgGrid != nil {
-			dbgGrid("axes disagree: F %.4f %.4f m %d %d", au.F, av.F, au.m, av.m)
+		if wk.trace != nil {
+			wk.trace("axes disagree: F %.4f %.4f m %d %d", au.F, av.F, au.m, av.m)
 		}
 		return gridModel{}, false
 	}
 	au.unit, av.unit = bu, bv
 
-	if dbgGrid != nil {
+	if wk.trace != nil {
 		cu, cv := 0, 0
 		for i := range mu {
 			if mu[i].ok {
@@ -301,7 +301,7 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 				cv++
 			}
 		}
-		dbgGrid("tiles %d ok u %d v %d; F %.5f %.5f m %d %d units %v %v harm %v %v", len(g.tiles), cu, cv, au.F, av.F, au.m, av.m, au.unit, av.unit, au.harm, av.harm)
+		wk.trace("tiles %d ok u %d v %d; F %.5f %.5f m %d %d units %v %v harm %v %v", len(g.tiles), cu, cv, au.F, av.F, au.m, av.m, au.unit, av.unit, au.harm, av.harm)
 	}
 	// Observations from the tiles; with a model G the whole periods of
 	// each tile are re-chosen from G's prediction (undoing unwrap slips).
@@ -362,8 +362,8 @@ func fitAxes(wk *work, g *gridScan, au, av axisFit, ts int, seed *mat3, seedAxis
 					kept = append(kept, o)
 				}
 			}
-			if dbgGrid != nil {
-				dbgGrid("robust pass %d: %d obs, median %.3f, lim %.3f, kept %d", pass, len(os), median(res), lim, len(kept))
+			if wk.trace != nil {
+				wk.trace("robust pass %d: %d obs, median %.3f, lim %.3f, kept %d", pass, len(os), median(res), lim, len(kept))
 			}
 			if len(kept) == len(os) {
 				break
@@ -470,9 +470,6 @@ func jacobian(h mat3, X, Y float64) (ex, ey [2]float64) {
 	ey = [2]float64{(x1 - x0) / (2 * d), (y1 - y0) / (2 * d)}
 	return
 }
-
-// dbgGrid, when set by a test, receives a line about each grid search.
-var dbgGrid func(format string, a ...any)
 
 // fewObs says the observations cannot pin the perspective terms: under
 // 24 in all, or under 10 on either axis.

@@ -33,6 +33,10 @@ type Options struct {
 	// otherwise). A pulse that disagrees is reported in Warnings.
 	StatedGainMMPerMV float64
 	StatedSpeedMMPerS float64
+	// Trace, when set, is told each step of the grid search, one line a
+	// call (a format and its arguments, as fmt.Printf takes them), for a
+	// person looking into how a page was read; nil in normal use.
+	Trace func(format string, a ...any) `json:"-"`
 }
 
 // Pulse is a calibration pulse found on the rectified page.

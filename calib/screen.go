@@ -42,7 +42,10 @@ const (
 // side; a few tens of milliseconds) and tells whether it holds an ECG.
 // It is a screen, not a reading: it says yes to anything with a grid or
 // trace-like strokes, and no to pages of text, rules and boxes.
-func Screen(pg *Page) Screening {
+func Screen(pg *Page) Screening { return screen(pg, nil) }
+
+// screen is Screen telling trace (when set) what it measured.
+func screen(pg *Page, trace func(format string, a ...any)) Screening {
 	if pg == nil || pg.Image == nil {
 		return Screening{Why: "no picture"}
 	}
@@ -52,6 +55,7 @@ func Screen(pg *Page) Screening {
 	}
 	k := max(1, int(math.Round(float64(max(b.Dx(), b.Dy()))/screenLong)))
 	wk := makeWork(pg.Image, k)
+	wk.trace = trace
 	long := float64(max(wk.w, wk.h))
 	mm := long / sheetLongMM
 	var s Screening
@@ -69,8 +73,8 @@ func Screen(pg *Page) Screening {
 	down := traceWidth(t, wk.h, wk.w, mm, long)
 	s.TraceWidth = math.Max(across, down)
 	px, py := gridPeriod(wk.dmin, wk.w, wk.h, mm)
-	if dbgGrid != nil {
-		dbgGrid("screen: periods %.2f × %.2f work px (k %d), trace width %.2f", px, py, k, s.TraceWidth)
+	if wk.trace != nil {
+		wk.trace("screen: periods %.2f × %.2f work px (k %d), trace width %.2f", px, py, k, s.TraceWidth)
 	}
 	if px > 0 && py > 0 {
 		r := px / py

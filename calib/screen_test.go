@@ -43,9 +43,7 @@ func TestScreenFindsECGPages(t *testing.T) {
 		s := Screen(&Page{Image: p.Image})
 		slowest = max(slowest, time.Since(t0))
 		if !s.ECG {
-			dbgGrid = func(f string, a ...any) { t.Logf(f, a...) }
-			Screen(&Page{Image: p.Image})
-			dbgGrid = nil
+			screen(&Page{Image: p.Image}, t.Logf)
 			missed++
 			t.Logf("MISSED case %d (%s, %s, grid %d): screened out: %s (trace width %.2f)", i, sc.Condition, sc.Style.Layout, sc.Style.Grid, s.Why, s.TraceWidth)
 		} else {

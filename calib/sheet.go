@@ -34,8 +34,8 @@ func sheetQuad(wk *work) (q [4][2]float64, ok bool) {
 	// maximum over a few pixels erases them (and grows the sheet by as
 	// much on every side, taken off its outline below).
 	bri = maxFilter(bri, w, h, sheetClose)
-	if dbgGrid != nil {
-		dbgGrid("sheet: otsu %d separation %.2f", thr, sep)
+	if wk.trace != nil {
+		wk.trace("sheet: otsu %d separation %.2f", thr, sep)
 	}
 	if sep < 0.5 {
 		return q, false // no two clear populations
@@ -77,8 +77,8 @@ func sheetQuad(wk *work) (q [4][2]float64, ok bool) {
 		}
 	}
 	if n < w*h/6 || n > w*h*9/10 {
-		if dbgGrid != nil {
-			dbgGrid("sheet: region %d of %d px (seed %d)", n, w*h, seed)
+		if wk.trace != nil {
+			wk.trace("sheet: region %d of %d px (seed %d)", n, w*h, seed)
 		}
 		return q, false
 	}
@@ -114,8 +114,8 @@ func sheetQuad(wk *work) (q [4][2]float64, ok bool) {
 			xlo, xhi = min(xlo, x), max(xhi, x)
 		}
 	}
-	if dbgGrid != nil {
-		dbgGrid("sheet: region %d of %d px, box x %d–%d y %d–%d", n, w*h, xlo, xhi, ylo, yhi)
+	if wk.trace != nil {
+		wk.trace("sheet: region %d of %d px, box x %d–%d y %d–%d", n, w*h, xlo, xhi, ylo, yhi)
 	}
 	// A sheet cut by the picture's edge has no outline there.
 	if ylo <= 1 || xlo <= 1 || yhi >= h-2 || xhi >= w-2 {
@@ -184,8 +184,8 @@ func sheetQuad(wk *work) (q [4][2]float64, ok bool) {
 			span += right[y] - left[y] + 1
 		}
 	}
-	if dbgGrid != nil {
-		dbgGrid("sheet: corners %.1f, region over quadrilateral %.4f", q, float64(span)/quadArea(q))
+	if wk.trace != nil {
+		wk.trace("sheet: corners %.1f, region over quadrilateral %.4f", q, float64(span)/quadArea(q))
 	}
 	if a := quadArea(q); a <= 0 || math.Abs(float64(span)/a-1) > 0.03 {
 		return q, false
@@ -393,10 +393,10 @@ func fromSheet(pg *Page, wk *work, quad [4][2]float64, M mat3, ps []Pulse, gain,
 	if !ok {
 		return nil, false
 	}
-	if dbgGrid != nil {
-		dbgGrid("sheet: pulses say %.1f × %.1f mm (heights %.4g widths %.4g)", Wmm, Hmm, hs, ws)
+	if wk.trace != nil {
+		wk.trace("sheet: pulses say %.1f × %.1f mm (heights %.4g widths %.4g)", Wmm, Hmm, hs, ws)
 	}
-	fl, ok := flattenSheet(pg, Qi, Wmm, Hmm)
+	fl, ok := flattenSheet(pg, Qi, Wmm, Hmm, wk.trace)
 	if !ok {
 		return nil, false
 	}
@@ -410,11 +410,11 @@ func fromSheet(pg *Page, wk *work, quad [4][2]float64, M mat3, ps []Pulse, gain,
 		}
 		w2 := fl.Wmm * spd * pulseS / median(ws)
 		h2 := fl.Hmm * gain * pulseMV / median(hs)
-		if dbgGrid != nil {
-			dbgGrid("sheet: flat pulses say %.1f × %.1f mm", w2, h2)
+		if wk.trace != nil {
+			wk.trace("sheet: flat pulses say %.1f × %.1f mm", w2, h2)
 		}
 		if math.Abs(w2/fl.Wmm-1) < 0.1 && math.Abs(h2/fl.Hmm-1) < 0.1 {
-			if f2, ok := flattenSheet(pg, Qi, w2, h2); ok {
+			if f2, ok := flattenSheet(pg, Qi, w2, h2, wk.trace); ok {
 				fl = f2
 			}
 		}
@@ -449,7 +449,7 @@ type flatSheet struct {
 // flattenSheet resamples the sheet whose outline maps to the unit square
 // by Qi (unit square → image px) at w × h mm, snapped to a standard sheet
 // when one is near, and finds its pulses again.
-func flattenSheet(pg *Page, Qi mat3, w, h float64) (flatSheet, bool) {
+func flattenSheet(pg *Page, Qi mat3, w, h float64, trace func(format string, a ...any)) (flatSheet, bool) {
 	fl := flatSheet{Wmm: w, Hmm: h}
 	if sw, sh, ok := snapPaper(w, h); ok {
 		fl.Wmm, fl.Hmm, fl.paper = sw, sh, true
@@ -473,8 +473,8 @@ func flattenSheet(pg *Page, Qi mat3, w, h float64) (flatSheet, bool) {
 	for i := range ps {
 		ps[i].HeightMM /= s
 		ps[i].WidthMM /= s
-		if dbgGrid != nil {
-			dbgGrid("sheet: flat pulse %.3f × %.3f mm at %v", ps[i].HeightMM, ps[i].WidthMM, ps[i].Box)
+		if trace != nil {
+			trace("sheet: flat pulse %.3f × %.3f mm at %v", ps[i].HeightMM, ps[i].WidthMM, ps[i].Box)
 		}
 	}
 	fl.pulses = ps
@@ -535,7 +535,7 @@ func fromSheetOnly(pg *Page, wk *work, quad [4][2]float64, opt Options) (*Result
 	if best > 0.15 {
 		return nil, false // no sheet of a standard size seen at a moderate slant
 	}
-	fl, ok := flattenSheet(pg, Qi, W0, H0)
+	fl, ok := flattenSheet(pg, Qi, W0, H0, wk.trace)
 	if !ok {
 		return nil, false
 	}
@@ -551,15 +551,15 @@ func fromSheetOnly(pg *Page, wk *work, quad [4][2]float64, opt Options) (*Result
 		sp, okS := snap(median(ws)/pulseS, stdSpeeds, 0.12)
 		if okG && okS {
 			w2, h2 := fl.Wmm*sp*pulseS/median(ws), fl.Hmm*g*pulseMV/median(hs)
-			if dbgGrid != nil {
-				dbgGrid("sheet only: aspect %.3f, %v × %v mm; pulses say %.4g mm/mV %.4g mm/s, %.1f × %.1f mm", aspect, W0, H0, g, sp, w2, h2)
+			if wk.trace != nil {
+				wk.trace("sheet only: aspect %.3f, %v × %v mm; pulses say %.4g mm/mV %.4g mm/s, %.1f × %.1f mm", aspect, W0, H0, g, sp, w2, h2)
 			}
 			// The pulses may only refine the sheet guessed from its
 			// outline (A4 or Letter, the outline's aspect a little off
 			// under perspective); a reading far from it is no pulse.
 			near := func(r float64) bool { return r > 0.88 && r < 1.14 }
 			if near(w2/W0) && near(h2/H0) {
-				if f2, ok := flattenSheet(pg, Qi, w2, h2); ok {
+				if f2, ok := flattenSheet(pg, Qi, w2, h2, wk.trace); ok {
 					res := sheetResult(f2, max(len(hs), len(f2.pulses)), opt)
 					res.Warnings = append([]string{fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s, and the perspective from the sheet's outline (%.1f × %.1f mm)", g, sp, f2.Wmm, f2.Hmm)}, res.Warnings...)
 					return res, true

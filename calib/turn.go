@@ -9,9 +9,10 @@ import (
 
 // pooledInk marks the blocks of bs×bs ink pixels that hold strong ink.
 type pooledInk struct {
-	on   []bool
-	w, h int
-	bs   int
+	on    []bool
+	w, h  int
+	bs    int
+	trace func(format string, a ...any) // Options.Trace
 }
 
 // poolInk pools the ink map to about 4 px/mm; a block is on when it holds
@@ -112,8 +113,8 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 		return 0, 0
 	}
 	axisConf := math.Abs(sh-sv) / (sh + sv)
-	if dbgGrid != nil {
-		dbgGrid("turn: rows %.3f cols %.3f w %d h %d", sh, sv, w, h)
+	if p.trace != nil {
+		p.trace("turn: rows %.3f cols %.3f w %d h %d", sh, sv, w, h)
 	}
 	// Turning is rare: ask for clear evidence before doing it.
 	if sv < 1.4*sh {
@@ -122,8 +123,8 @@ func (p *pooledInk) decide(r image.Rectangle) (int, float64) {
 			r[j] = int(rows[j])
 		}
 		sk, bands := riseScore(r, w)
-		if dbgGrid != nil {
-			dbgGrid("turn: rise %.4f over %d bands", sk, bands)
+		if p.trace != nil {
+			p.trace("turn: rise %.4f over %d bands", sk, bands)
 		}
 		conf := math.Min(1, 3*axisConf) * math.Min(1, math.Abs(sk)*30)
 		if sk <= 0.03 {

@@ -13,6 +13,8 @@ type work struct {
 	k    int       // source px per work px along each axis
 	dmin []float32 // 255 - min(R,G,B): grid lines of any colour and the ink
 	dmax []float32 // 255 - max(R,G,B): mostly the ink (coloured grids vanish)
+	// trace, when set, is told each step of the grid search (Options.Trace).
+	trace func(format string, a ...any)
 }
 
 // workScale picks the integer reduction so the long side is about 1800 px:

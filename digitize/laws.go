@@ -2,6 +2,7 @@ package digitize
 
 import (
 	"math"
+	"sort"
 
 	"tracelift/record"
 )
@@ -323,4 +324,59 @@ func reconcile(rec *record.Record, wins []window) *record.Record {
 		}
 	}
 	return out
+}
+
+// windowsOf returns the column windows of simultaneous panels.
+func windowsOf(panels []Panel) []window {
+	seen := map[int]window{}
+	for _, p := range panels {
+		if p.Rhythm {
+			continue
+		}
+		if _, ok := seen[p.Col]; !ok {
+			seen[p.Col] = window{col: p.Col, t0: p.T0S, t1: p.T1S}
+		}
+	}
+	var out []window
+	for _, w := range seen {
+		out = append(out, w)
+	}
+	if len(out) == 0 { // strips only: one window over the first strip
+		for _, p := range panels {
+			out = append(out, window{col: 0, t0: p.T0S, t1: p.T1S})
+			break
+		}
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].col < out[j].col })
+	return out
+}
+
+// lawScore is the limb leads' relative disagreement with the laws:
+// residual energy over signal energy, summed over the windows.
+func lawScore(rec *record.Record, wins []window) float64 {
+	var er, es float64
+	for _, w := range wins {
+		ls := gatherLimbs(rec, w)
+		if len(ls.names) < 3 || ls.samples() < 10 {
+			continue
+		}
+		all := make([]int, len(ls.names))
+		for k := range all {
+			all[k] = k
+		}
+		e := ls.residualEnergy(all)
+		if math.IsNaN(e) {
+			continue
+		}
+		er += e
+		for _, y := range ls.y {
+			for _, v := range y {
+				es += v * v
+			}
+		}
+	}
+	if es == 0 {
+		return 0
+	}
+	return er / es
 }

@@ -66,11 +66,23 @@ func NewSuiteCase(seed int64, i int, conds []string, real *record.Record) SuiteC
 
 // Printout renders and degrades the case.
 func (c SuiteCase) Printout() (*Printout, error) {
-	po, err := Render(c.Record, c.Style)
+	_, po, err := c.Printouts()
+	return po, err
+}
+
+// Printouts renders the case and degrades it, and returns both: the
+// clean render is the grid the truth's Panels, Pulses and PageToImage
+// are given on (see Unwarp).
+func (c SuiteCase) Printouts() (clean, degraded *Printout, err error) {
+	clean, err = Render(c.Record, c.Style)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	return Degrade(po, c.Degradation)
+	degraded, err = Degrade(clean, c.Degradation)
+	if err != nil {
+		return nil, nil, err
+	}
+	return clean, degraded, nil
 }
 
 // File encodes the case's printout as a file would arrive: a JPEG

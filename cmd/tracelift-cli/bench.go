@@ -57,6 +57,7 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "a real 12-lead WFDB record to render in every fourth case (\"\" for none)")
 	dpi := fs.Float64("dpi", 0, "render every case at this dpi (default: vary, 150–600)")
 	outside := fs.String("outside", "", "instead of rendering, score the printouts of another renderer in this folder (outside*.json truth beside each picture)")
+	truthCalib := fs.Bool("truth-calib", false, "calibrate from the renderer's truth instead of calib.Detect, to score the tracer alone")
 	fs.Usage = usageFunc(fs, stderr,
 		"usage: tracelift-cli bench [options]",
 	)
@@ -64,6 +65,9 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 		return code
 	}
 	if *outside != "" {
+		if *truthCalib {
+			return usageError(stderr, "bench", "--truth-calib scores the rendered suite; the outside printouts are read as any picture")
+		}
 		return benchOutside(*outside, stdout, stderr)
 	}
 	var condList []string
@@ -89,10 +93,13 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 			real = r
 		}
 	}
+	if *truthCalib {
+		fmt.Fprintln(stdout, "calibration: from the renderer's truth (scale, gain, speed, pulses, the page flattened through its page-to-image map, calib's ink map of it without the grid's positions); calib.Detect is not run, so the calib columns show no error")
+	}
 	var cases []benchCase
 	start := time.Now()
 	for i := 0; i < *n; i++ {
-		c := runBenchCase(i, *seed, condList, real, *dpi)
+		c := runBenchCase(i, *seed, condList, real, *dpi, *truthCalib)
 		cond := c.Condition
 		cases = append(cases, c)
 		status := "ok"
@@ -112,7 +119,10 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	return 0
 }
 
-func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi float64) benchCase {
+// runBenchCase renders case i of the suite, reads it as digitize reads a
+// file (or, with truthCalib, traces it on the renderer's own calibration:
+// see readWithTruth) and scores it against the truth.
+func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi float64, truthCalib bool) benchCase {
 	sc := samples.NewSuiteCase(seed, i, conds, real)
 	c := benchCase{N: i, Condition: sc.Condition, Source: sc.Source}
 	c.AxisErr, c.HRErr, c.QRSErr, c.QTErr = math.NaN(), math.NaN(), math.NaN(), math.NaN()
@@ -121,7 +131,7 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 		sc.Style.DPI = dpi
 	}
 	c.Layout, c.DPI = string(sc.Style.Layout), sc.Style.DPI
-	po, err := sc.Printout()
+	clean, po, err := sc.Printouts()
 	if err != nil {
 		c.Err = err.Error()
 		return c
@@ -132,20 +142,12 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 		c.Err = err.Error()
 		return c
 	}
-	// Read as digitize reads a file: a document of several pages (a fax
-	// with a cover sheet) is searched for its ECG page.
-	dir, err := os.MkdirTemp("", "tracelift-bench-")
-	if err != nil {
-		c.Err = err.Error()
-		return c
+	var o *pipeline.Outcome
+	if truthCalib {
+		o, err = readWithTruth(clean, po, name, data)
+	} else {
+		o, err = readBenchFile(name, data)
 	}
-	defer os.RemoveAll(dir)
-	path := filepath.Join(dir, name)
-	if err := os.WriteFile(path, data, 0o600); err != nil {
-		c.Err = err.Error()
-		return c
-	}
-	o, err := pipeline.Process(context.Background(), path, pipeline.Options{FindPage: true})
 	if o != nil {
 		c.DecodeMS = ms(o.Timings.Load)
 		c.CalibMS, c.DigitizeMS, c.MeasureMS = ms(o.Timings.Calib), ms(o.Timings.Digitize), ms(o.Timings.Measure)
@@ -199,6 +201,22 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 }
 
 type axisTruth struct{ qrs, hr, qrsMS, qtMS float64 }
+
+// readBenchFile reads a case's file as digitize reads a file: a document
+// of several pages (a fax with a cover sheet) is searched for its ECG
+// page.
+func readBenchFile(name string, data []byte) (*pipeline.Outcome, error) {
+	dir, err := os.MkdirTemp("", "tracelift-bench-")
+	if err != nil {
+		return nil, err
+	}
+	defer os.RemoveAll(dir)
+	path := filepath.Join(dir, name)
+	if err := os.WriteFile(path, data, 0o600); err != nil {
+		return nil, err
+	}
+	return pipeline.Process(context.Background(), path, pipeline.Options{FindPage: true})
+}
 
 func printBenchTable(w io.Writer, cases []benchCase, conds []string) {
 	fmt.Fprintln(w, "condition   cases fail  scale err %  (med/p95)  rot err° (med/max)  gain ok  speed ok  SNR dB (med/p10)  missing  axis err° (med/p95)  HR err  QRS err  QT err  ms/page (calib+trace, med)")

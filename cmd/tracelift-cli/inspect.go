@@ -49,9 +49,10 @@ func cmdInspect(args []string, stdout, stderr io.Writer) int {
 	caseSpec := fs.String("case", "", "render case SEED:N of the bench suite instead of reading a picture")
 	conds := fs.String("conditions", strings.Join(samples.AllConditions, ","), "with --case: the bench's condition list")
 	ptb := fs.String("ptb", "../shared/data/ptb-s0010_re/s0010_re.hea", "with --case: the real record the suite renders in every fourth case")
+	gridLog := fs.Bool("grid-log", false, "also report calib's grid search step by step (angles tried, tiles, fits, turns, pulses)")
 	fs.Usage = usageFunc(fs, stderr,
 		"usage: tracelift-cli inspect IMAGE -o DIR [reading options as for digitize]",
-		"       tracelift-cli inspect --case SEED:N -o DIR [--conditions LIST]",
+		"       tracelift-cli inspect --case SEED:N -o DIR [--conditions LIST] [--grid-log]",
 		"Writes DIR/<stem>-page.png (the flattened page with the panels and traced lines drawn on it),",
 		"DIR/<stem>-ink.png (the ink counted as trace) and DIR/<stem>-inspect.txt (the numbers).",
 	)
@@ -130,9 +131,20 @@ func cmdInspect(args []string, stdout, stderr io.Writer) int {
 	} else {
 		path = pos[0]
 	}
-	o, err := pipeline.Process(ctx, path, c.options())
+	opt := c.options()
+	var glog bytes.Buffer
+	if *gridLog {
+		opt.Calib.Trace = func(format string, a ...any) {
+			fmt.Fprintf(&glog, "  "+format+"\n", a...)
+		}
+	}
+	o, err := pipeline.Process(ctx, path, opt)
 	var txt bytes.Buffer
 	inspectReport(&txt, o, err, truth)
+	if *gridLog {
+		fmt.Fprintln(&txt, "grid search (calib, step by step)")
+		txt.Write(glog.Bytes())
+	}
 	stem := pipeline.Stem(path)
 	src := ledger.FileSource(path, 0)
 	if truth != nil {

@@ -13,7 +13,9 @@ import (
 // inspect on a bench case writes the rendered picture, the drawn reading,
 // the ink map and the numbers, and scores each lead against what the
 // renderer drew: on the clean case 0 of seed 1 (3x4+1 at 200 dpi) every
-// lead scores well (the bench reads it at 29.9 dB median). Run again into
+// lead scores well (the bench reads it at 29.9 dB median), and with
+// --grid-log the report follows calib's grid search to the grid the
+// renderer drew. Run again into
 // the same folder it replaces its own files; a file of the user's of the
 // same name is refused and left as it was.
 func TestInspectBenchCase(t *testing.T) {
@@ -22,7 +24,7 @@ func TestInspectBenchCase(t *testing.T) {
 	}
 	dir := t.TempDir()
 	var out, errb bytes.Buffer
-	args := []string{"inspect", "--case", "1:0", "--ptb", "../../../shared/data/ptb-s0010_re/s0010_re.hea", "-o", dir}
+	args := []string{"inspect", "--case", "1:0", "--ptb", "../../../shared/data/ptb-s0010_re/s0010_re.hea", "--grid-log", "-o", dir}
 	if code := run(args, &out, &errb); code != 0 {
 		t.Fatalf("exit %d: %s", code, errb.String())
 	}
@@ -32,7 +34,7 @@ func TestInspectBenchCase(t *testing.T) {
 		}
 	}
 	txt := out.String()
-	for _, want := range []string{"truth ", "calib ", "layout     3x4+1", "verdict    "} {
+	for _, want := range []string{"truth ", "calib ", "layout     3x4+1", "verdict    ", "grid search (calib, step by step)\n", ": grid found true, rms "} {
 		if !strings.Contains(txt, want) {
 			t.Errorf("report lacks %q:\n%s", want, txt)
 		}

@@ -214,6 +214,7 @@ func TestBadOptionValues(t *testing.T) {
 		{"batch", dir, "-o", out, "--shard", "1/2000000000"},
 		{"bench", "--conditions", "bogus"},
 		{"bench", "--cases", "-5"},
+		{"bench", "--truth-calib", "--outside", dir},
 	} {
 		code, _, stderr := cli(t, 30*time.Second, args...)
 		noCrash(t, stderr)

@@ -1,0 +1,141 @@
+package digitize
+
+import (
+	"math"
+
+	"tracelift/calib"
+)
+
+// pulseEndFall returns the first column right of any calibration pulse
+// at the left of a row starting at x0 around baseline base: a pair of
+// vertical strokes at least 0.6 mV tall, 100–300 ms apart, within the
+// first stretch of the row (common practice: a 1 mV, 200 ms square
+// pulse), and the last column of the pulse's falling stroke. It returns
+// x0 and −1 when none is found.
+func pulseEndFall(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64) (int, int) {
+	if x, fall := pulseEndFallAt(g, x0, x1, base, pitch, pxPerMM, speed, gain, 64); fall >= 0 {
+		return x, fall
+	}
+	// A pulse drawn with a thinner line than the trace keeps less of its
+	// ink through the blur: look again with strokes counted from a fifth
+	// of the trace's usual strength (the median over the row of the
+	// column maximum).
+	core := medianColMax(g, x0, x1, max(0, int(base-0.3*pitch)), min(g.h, int(base+0.3*pitch)))
+	if core < 0 {
+		return x0, -1
+	}
+	on := uint8(min(64, max(20, core/5)))
+	if on >= 64 {
+		return x0, -1
+	}
+	return pulseEndFallAt(g, x0, x1, base, pitch, pxPerMM, speed, gain, on)
+}
+
+func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64, on uint8) (int, int) {
+	tall := 0.6 * gain * pxPerMM
+	ya, yb := max(0, int(base-0.9*pitch)), min(g.h, int(base+0.4*pitch))
+	// The pulse's flat top may sit outside the band the row's span was
+	// found in, so look from a pulse's width left of x0 too.
+	from := max(0, x0-int((0.3*speed+3)*pxPerMM))
+	lim := min(x1, x0+int((0.35*speed+6)*pxPerMM))
+	var strokes []int
+	for x := from; x < lim; x++ {
+		// Longest vertical stretch of ink, bridging gaps of up to 3 px
+		// (where a removed grid line crossed the stroke).
+		start, last, best := -1, -1, 0
+		for y := ya; y < yb; y++ {
+			if g.pix[y*g.w+x] < on {
+				continue
+			}
+			if start < 0 || y-last > 4 {
+				start = y
+			}
+			last = y
+			best = max(best, last-start+1)
+		}
+		// A stroke filling the whole band is a grid line left by line
+		// removal, not a pulse's edge.
+		if float64(best) >= tall && best < (yb-ya)*9/10 {
+			if n := len(strokes); n == 0 || x-strokes[n-1] > 2 {
+				strokes = append(strokes, x)
+			} else {
+				strokes[n-1] = x // keep the stroke's right edge
+			}
+		}
+	}
+	// A pulse is a box: between its rise and its fall the ink runs flat
+	// along the top, at least half a pulse's height above the baseline.
+	// Two strokes of a QRS complex the same distance apart have no such
+	// line between them. (The strokes' own tops say little: a pulse's
+	// sides may stand on grid lines.)
+	flatTop := func(a, b int) bool {
+		n := b - a - 3
+		if n <= 0 {
+			return false
+		}
+		slack := max(2, int(0.2*pxPerMM))
+		for y := ya; y <= int(base-0.5*tall); y++ {
+			inked := 0
+			for x := a + 2; x <= b-2; x++ {
+				for yy := max(0, y-slack); yy <= min(g.h-1, y+slack); yy++ {
+					if g.pix[yy*g.w+x] >= on {
+						inked++
+						break
+					}
+				}
+			}
+			if inked*10 >= n*7 {
+				return true
+			}
+		}
+		return false
+	}
+	for i := 0; i+1 < len(strokes); i++ {
+		d := float64(strokes[i+1]-strokes[i]) / (pxPerMM * speed)
+		if d >= 0.1 && d <= 0.3 && flatTop(strokes[i], strokes[i+1]) {
+			// Skip the flat lead-out after the fall to the first gap.
+			x := strokes[i+1] + 1
+			for x < x1 && x < strokes[i+1]+int(4*pxPerMM) {
+				inked := false
+				for y := max(0, int(base-0.15*pitch)); y < min(g.h, int(base+0.15*pitch)); y++ {
+					if g.pix[y*g.w+x] >= 64 {
+						inked = true
+						break
+					}
+				}
+				if !inked {
+					break
+				}
+				x++
+			}
+			inkedAt := func(x int) bool {
+				for y := ya; y < yb; y++ {
+					if g.pix[y*g.w+x] >= 64 {
+						return true
+					}
+				}
+				return false
+			}
+			// Over the gap to the trace: the first of three inked columns
+			// in a row (a leftover grid line is narrower).
+			for x+2 < x1 && !(inkedAt(x) && inkedAt(x+1) && inkedAt(x+2)) {
+				x++
+			}
+			return max(x, x0), strokes[i+1]
+		}
+	}
+	return x0, -1
+}
+
+// calibPulseEnd returns the last column of a pulse calib found standing
+// on the baseline base (its foot within a fifth of the pitch) left of
+// the middle of a row that ends at x1, false when there is none.
+func calibPulseEnd(ps []calib.Pulse, base, pitch float64, x1 int) (int, bool) {
+	for _, p := range ps {
+		b := p.Box
+		if math.Abs(b[3]-base) <= 0.2*pitch && b[1] < base && b[2] < float64(x1)/2 {
+			return int(math.Floor(b[2])), true
+		}
+	}
+	return 0, false
+}
