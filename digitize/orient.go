@@ -48,7 +48,7 @@ func squarePulse(g *gray, x0 int, base, pitch, pxPerMM, speed float64) (ok bool,
 	maxH := 0.9 * pitch
 	from := max(0, x0-int(5*pxPerMM))
 	lim := min(g.w, x0+int((0.35*speed+6)*pxPerMM))
-	type stroke struct{ x, top int }
+	type stroke struct{ x, top, bot int }
 	var st []stroke
 	for x := from; x < lim; x++ {
 		// The lowest inked pixel near the baseline.
@@ -88,7 +88,7 @@ func squarePulse(g *gray, x0 int, base, pitch, pxPerMM, speed float64) (ok bool,
 			st[n-1].top = min(st[n-1].top, top)
 			continue
 		}
-		st = append(st, stroke{x, top})
+		st = append(st, stroke{x, top, bot})
 	}
 	for i := range st {
 		for j := i + 1; j < len(st); j++ {
@@ -114,7 +114,7 @@ func squarePulse(g *gray, x0 int, base, pitch, pxPerMM, speed float64) (ok bool,
 					}
 				}
 			}
-			if n > 0 && k*10 >= n*7 {
+			if n > 0 && k*10 >= n*7 && openFoot(g, st[i].x, st[j].x, (st[i].bot+st[j].bot)/2, 1, on) {
 				bot := base
 				return true, bot - float64(ty)
 			}

@@ -92,7 +92,7 @@ func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float
 	}
 	for i := 0; i+1 < len(strokes); i++ {
 		d := float64(strokes[i+1]-strokes[i]) / (pxPerMM * speed)
-		if d >= 0.1 && d <= 0.3 && flatTop(strokes[i], strokes[i+1]) {
+		if d >= 0.1 && d <= 0.3 && flatTop(strokes[i], strokes[i+1]) && openFoot(g, strokes[i], strokes[i+1], int(math.Round(base)), 1, on) {
 			// Skip the flat lead-out after the fall to the first gap.
 			x := strokes[i+1] + 1
 			for x < x1 && x < strokes[i+1]+int(4*pxPerMM) {
@@ -125,6 +125,27 @@ func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float
 		}
 	}
 	return x0, -1
+}
+
+// openFoot reports whether the columns between a pulse's strokes at
+// columns a and b stay clear of ink in rows y±slack in at least half of
+// them: a pulse rises from the baseline and falls back to it with
+// nothing running along the baseline between its strokes, while a
+// lead's name printed on the baseline ("II" with its serifs, whose
+// stems and joined top pass for a pulse's) has the trace running
+// beneath it.
+func openFoot(g *gray, a, b, y, slack int, on uint8) bool {
+	n, f := 0, 0
+	for x := a + 2; x < b-1; x++ {
+		n++
+		for yy := max(0, y-slack); yy <= min(g.h-1, y+slack); yy++ {
+			if g.pix[yy*g.w+x] >= on {
+				f++
+				break
+			}
+		}
+	}
+	return 2*f < n
 }
 
 // calibPulseEnd returns the last column of a pulse calib found standing

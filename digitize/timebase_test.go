@@ -330,3 +330,35 @@ func TestTimeZeroJoinedPulseFast(t *testing.T) {
 		t.Errorf("median |time shift| %.0f ms over the leads, want ≤ 4 ms", 1000*d)
 	}
 }
+
+// Lead names printed on the baseline at each panel's start ("II" with
+// its serifs: two stems joined across the top) on a page with no
+// calibration pulse are no pulses: the page keeps its gain, and its rows
+// their time 0. Before, "II" read as a 5 mm pulse halved every amplitude
+// (our bench's seed 1, case 74, a phone photo in a shadow).
+func TestNamesOnBaselineAreNoPulse(t *testing.T) {
+	t.Parallel()
+	c := samples.NewSuiteCase(1, 74, samples.AllConditions, nil)
+	if c.Style.Pulses || c.Style.LabelPlace != samples.LabelInside || c.Style.GainMMPerMV != 10 {
+		t.Fatalf("case 74 no longer prints its names on the baseline without a pulse: %+v", c.Style)
+	}
+	p, err := c.Printout()
+	if err != nil {
+		t.Fatal(err)
+	}
+	cal, err := calib.Detect(contextBG(), &calib.Page{Image: p.Image}, calib.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	res := runOn(t, cal, Options{})
+	if cal.GainMMPerMV != 10 {
+		t.Errorf("gain read %g mm/mV, printed at 10", cal.GainMMPerMV)
+	}
+	var shifts []float64
+	for _, a := range scoreLeads(p.Truth.Signals, res.Record) {
+		shifts = append(shifts, math.Abs(a.ShiftS))
+	}
+	if d := stats.Median(shifts); d > 0.012 {
+		t.Errorf("median |time shift| %.0f ms over the leads, want ≤ 12 ms", 1000*d)
+	}
+}
