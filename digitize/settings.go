@@ -413,12 +413,32 @@ func stripLabel(g *gray, base float64, x0 int, pxPerMM float64) string {
 	return readStripLabel(&gray{w: g.w, h: g.h, pix: g.pix}, base, x0, pxPerMM)
 }
 
+// readStripLabel looks for the name above the strip's start, then below
+// it (clear of the trace's downward waves: from 1 mm below the baseline).
+// A name in the margin before the strip is not read: a monospaced "III"
+// there, its serifs touching, read as "I", and a wrong name is worse than
+// none.
 func readStripLabel(g *gray, base float64, x0 int, pxPerMM float64) string {
-	ya, yb := int(base-25*pxPerMM), int(base-1*pxPerMM)
-	xa, xb := x0-int(8*pxPerMM), x0+int(30*pxPerMM)
+	b := func(mm float64) int { return int(base + mm*pxPerMM) }
+	left, right := x0-int(8*pxPerMM), x0+int(30*pxPerMM)
+	for _, w := range [][4]int{
+		{b(-25), b(-1), left, right},
+		{b(1), b(25), left, right},
+	} {
+		if name := readLabelIn(g, w[0], w[1], w[2], w[3], pxPerMM); name != "" {
+			return name
+		}
+	}
+	return ""
+}
+
+// readLabelIn reads a lead's name among the glyphs wholly within rows
+// [ya, yb) and columns [xa, xb].
+func readLabelIn(g *gray, ya, yb, xa, xb int, pxPerMM float64) string {
 	var near []glyph
 	for _, gl := range glyphs(g, ya, yb, pxPerMM, 96) {
-		if gl.x0 >= xa && gl.x1 <= xb && float64(gl.h()) >= 1.2*pxPerMM {
+		// A glyph the window cuts is no whole letter.
+		if gl.x0 >= xa && gl.x1 <= xb && gl.y0 > max(0, ya) && gl.y1 < min(g.h, yb)-1 && float64(gl.h()) >= 1.2*pxPerMM {
 			near = append(near, gl)
 		}
 	}

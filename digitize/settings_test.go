@@ -59,9 +59,13 @@ func TestPrintedSettings(t *testing.T) {
 // failed reading names nothing rather than a wrong lead.
 func TestStripLabel(t *testing.T) {
 	right, total := 0, 0
+	// The name above the strip or below it (both places carts print it,
+	// common practice).
+	places := []samples.LabelPlace{samples.LabelAbove, samples.LabelBelow}
 	for font := 0; font < samples.NumFonts; font++ {
 		for k, lead := range []string{"II", "V1", "V5", "I", "III", "V2"} {
 			st := samples.DefaultStyle()
+			st.LabelPlace = places[(font+k)%len(places)]
 			st.Layout = samples.Layout1x1
 			st.RhythmLeads = []string{lead}
 			st.Font = font
@@ -80,9 +84,9 @@ func TestStripLabel(t *testing.T) {
 			case lead:
 				right++
 			case "":
-				t.Logf("font %d %s: not read", font, lead)
+				t.Logf("font %d %s (place %d): not read", font, lead, st.LabelPlace)
 			default:
-				t.Errorf("font %d %s: read as %s", font, lead, got)
+				t.Errorf("font %d %s (place %d): read as %s", font, lead, st.LabelPlace, got)
 			}
 		}
 	}
