@@ -748,6 +748,9 @@ func withoutGrid(ctx context.Context, pg *Page, wk *work, theta float64, opt Opt
 		if fit.paper >= 0 {
 			res.Confidence = math.Min(0.75, res.Confidence+0.15)
 			how = "its height and width and the page's size"
+			if fit.widthOff {
+				how = "its height and the page's size; its width is no 200 ms pulse's"
+			}
 		}
 		res.Warnings = append(res.Warnings, fmt.Sprintf("no grid found: the scale comes from the calibration pulse, read as %.4g mm/mV at %.4g mm/s (the standard settings that best explain %s)", fit.gain, fit.spd, how))
 		if !bilevel && !paperBorder {

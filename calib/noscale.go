@@ -105,6 +105,7 @@ type scaleFit struct {
 	paper     int     // index into the page prior's candidates used, -1 for none
 	margin    float64 // log-likelihood lead of the best hypothesis over the runner-up
 	relErr    float64 // expected relative error of s (1 σ)
+	widthOff  bool    // the pulse's width was taken as no 200 ms pulse's, so it did not count
 }
 
 // fuseScale reads the scale from calibration pulses without a grid. Each
@@ -140,39 +141,55 @@ func fuseScale(h, w, hErr, wErr float64, pages []float64, pageErr, guess float64
 	for i := range pages {
 		pidx = append(pidx, i)
 	}
+	// The pulse lasts the common 200 ms, or it is one of the narrower
+	// steps some carts draw (100–160 ms, from memory): then its width
+	// says nothing of the scale, and its height and the sheet decide
+	// (only where the sheet fills the picture).
+	widthSays := []bool{true, false}
+	wp := []float64{0.9, 0.1}
 	for i, g := range gains {
 		for j, v := range speeds {
 			for _, pi := range pidx {
-				os := []obs{{math.Log(h / (g * pulseMV)), hErr}, {math.Log(w / (pulseS * v)), wErr}}
-				lp := math.Log(gp[i] * sp[j])
-				if pi >= 0 {
-					os = append(os, obs{math.Log(pages[pi]), pageErr})
-					// A paper size other than the best-fitting one is less
-					// likely.
-					lp += math.Log(0.8 / float64(1+pi))
-				} else if len(pages) > 0 {
-					// The paper fills the picture but is not the sheet the
-					// trace was printed on (a cropped or reduced copy):
-					// possible, unlikely.
-					lp += math.Log(0.05)
+				for wi, ws := range widthSays {
+					if !ws && pi < 0 {
+						// Without the sheet, the height alone would read the
+						// scale: too weak a witness.
+						continue
+					}
+					os := []obs{{math.Log(h / (g * pulseMV)), hErr}}
+					if ws {
+						os = append(os, obs{math.Log(w / (pulseS * v)), wErr})
+					}
+					lp := math.Log(gp[i] * sp[j] * wp[wi])
+					if pi >= 0 {
+						os = append(os, obs{math.Log(pages[pi]), pageErr})
+						// A paper size other than the best-fitting one is less
+						// likely.
+						lp += math.Log(0.8 / float64(1+pi))
+					} else if len(pages) > 0 {
+						// The paper fills the picture but is not the sheet the
+						// trace was printed on (a cropped or reduced copy):
+						// possible, unlikely.
+						lp += math.Log(0.05)
+					}
+					var sw, swv float64
+					for _, o := range os {
+						wt := 1 / (o.sig * o.sig)
+						sw += wt
+						swv += wt * o.v
+					}
+					m := swv / sw
+					L := lp
+					for _, o := range os {
+						d := (o.v - m) / o.sig
+						L -= d * d / 2
+					}
+					// The loose page-size guess (an A4 page across the picture
+					// within a factor of about 1.3).
+					dg := math.Log(math.Exp(m)/guess) / 0.3
+					L -= dg * dg / 2
+					hs = append(hs, hyp{L, scaleFit{s: math.Exp(m), gain: g, spd: v, paper: pi, relErr: 1 / math.Sqrt(sw), widthOff: !ws}})
 				}
-				var sw, swv float64
-				for _, o := range os {
-					wt := 1 / (o.sig * o.sig)
-					sw += wt
-					swv += wt * o.v
-				}
-				m := swv / sw
-				L := lp
-				for _, o := range os {
-					d := (o.v - m) / o.sig
-					L -= d * d / 2
-				}
-				// The loose page-size guess (an A4 page across the picture
-				// within a factor of about 1.3).
-				dg := math.Log(math.Exp(m)/guess) / 0.3
-				L -= dg * dg / 2
-				hs = append(hs, hyp{L, scaleFit{s: math.Exp(m), gain: g, spd: v, paper: pi, relErr: 1 / math.Sqrt(sw)}})
 			}
 		}
 	}

@@ -140,3 +140,25 @@ func TestPulseGainPrefersStandardWidth(t *testing.T) {
 		t.Error("settings taken as assumed")
 	}
 }
+
+// A clean scan of plain paper whose pulses are 100 ms wide (some carts
+// draw a shorter step; from memory): read as 200 ms pulses, their 1 mV
+// height says 20 mm/mV at half the scale. The sheet (A4, 297 × 210 mm,
+// ISO 216) filling the scan agrees with 10 mm/mV at the true scale, and
+// the width, no 200 ms pulse's, is then not counted.
+func TestNarrowPulseScaleFromSheet(t *testing.T) {
+	rec := dipole.Generate(dipole.Params{Seed: 6})
+	st := samples.DefaultStyle()
+	st.Grid, st.PulseMS, st.DPI, st.Layout = samples.GridNone, 100, 400, samples.Layout6x2
+	p, err := samples.Render(rec, st)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := Detect(context.Background(), &Page{Image: p.Image}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tr := p.Truth; res.Source != "pulse" || math.Abs(res.PxPerMM/tr.PxPerMMX-1) > 0.01 || res.GainMMPerMV != 10 {
+		t.Errorf("source %q px/mm %.3f at %g mm/mV, truth %.3f at 10; warnings %q", res.Source, res.PxPerMM, res.GainMMPerMV, tr.PxPerMMX, res.Warnings)
+	}
+}
