@@ -1,12 +1,9 @@
 package calib
 
 import (
-	"bytes"
 	"fmt"
 	"image"
 	"image/color"
-	"image/png"
-	"os"
 	"path/filepath"
 	"testing"
 	"time"
@@ -86,10 +83,6 @@ func TestScreenFindsECGPages(t *testing.T) {
 			}
 		}
 	}
-	if os.Getenv("TRACELIFT_SCREEN_DRAW") != "" {
-		b, _ := encodePNGFile(samples.CoverSheet(210, 297, 200, 1))
-		os.WriteFile("/tmp/cover.png", b, 0o644)
-	}
 }
 
 func turnQuarter(src image.Image) image.Image {
@@ -101,10 +94,4 @@ func turnQuarter(src image.Image) image.Image {
 		}
 	}
 	return out
-}
-
-func encodePNGFile(img image.Image) ([]byte, error) {
-	var b bytes.Buffer
-	err := png.Encode(&b, img)
-	return b.Bytes(), err
 }

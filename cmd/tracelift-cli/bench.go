@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"encoding/csv"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -16,6 +17,7 @@ import (
 	"time"
 
 	"tracelift/axis"
+	"tracelift/calib"
 	"tracelift/pipeline"
 	"tracelift/record"
 	"tracelift/record/wfdb"
@@ -46,6 +48,7 @@ type benchCase struct {
 	QRSErr, QTErr        float64
 	CalibMS, DigitizeMS  float64
 	MeasureMS, DecodeMS  float64
+	Calib                calibCase // for --calib-table
 }
 
 func cmdBench(args []string, stdout, stderr io.Writer) int {
@@ -58,11 +61,15 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 	dpi := fs.Float64("dpi", 0, "render every case at this dpi (default: vary, 150–600)")
 	outside := fs.String("outside", "", "instead of rendering, score the printouts of another renderer in this folder (outside*.json truth beside each picture)")
 	truthCalib := fs.Bool("truth-calib", false, "calibrate from the renderer's truth instead of calib.Detect, to score the tracer alone")
+	calibTable := fs.Bool("calib-table", false, "also print calib alone per condition: scale error where calib measured it, rotation, gain, speed, time and where the scale came from")
 	fs.Usage = usageFunc(fs, stderr,
 		"usage: tracelift-cli bench [options]",
 	)
 	if _, code, ok := parseCommand(fs, args, stderr); !ok {
 		return code
+	}
+	if *calibTable && (*truthCalib || *outside != "") {
+		return usageError(stderr, "bench", "--calib-table scores calib.Detect on the rendered suite; leave out --truth-calib and --outside")
 	}
 	if *outside != "" {
 		if *truthCalib {
@@ -109,6 +116,9 @@ func cmdBench(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "case %3d %-9s %-7s %-6s %3.0f dpi  SNR med %5.1f dB  %s\n", i, cond, c.Source, c.Layout, c.DPI, median(finite(c.SNR)), status)
 	}
 	printBenchTable(stdout, cases, condList)
+	if *calibTable {
+		printCalibTable(stdout, cases, condList)
+	}
 	fmt.Fprintf(stdout, "\n%d cases in %.1f s; peak resident memory %s\n", len(cases), time.Since(start).Seconds(), peakRSS())
 	if *csvOut != "" {
 		if err := writeBenchCSV(*csvOut, cases); err != nil {
@@ -160,7 +170,13 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 		c.RotErrDeg = math.Abs(angleDiff(o.Calib.RotationDeg+90*float64(o.Calib.Turned), tr.RotationDeg))
 		c.GainOK = math.Abs(o.Calib.GainMMPerMV-tr.GainMMPerMV) < 0.02*tr.GainMMPerMV
 		c.SpeedOK = math.Abs(o.Calib.SpeedMMPerS-tr.SpeedMMPerS) < 0.02*tr.SpeedMMPerS
+		c.Calib.Source = o.Calib.Source
+		tx, ty, trot := truthAt(tr, o.Calib.ScaleAt[0], o.Calib.ScaleAt[1])
+		c.Calib.LocalErr = [2]float64{math.Abs(o.Calib.PxPerMMX/tx - 1), math.Abs(o.Calib.PxPerMMY/ty - 1)}
+		c.Calib.LocalRotErr = math.Abs(angleDiff(o.Calib.RotationDeg+90*float64(o.Calib.Turned), trot))
 	}
+	c.Calib.HasPulse = sc.Style.Pulses
+	c.Calib.NoScale = errors.Is(err, calib.ErrNoScale)
 	var est *record.Record
 	if err != nil {
 		c.Err = err.Error()

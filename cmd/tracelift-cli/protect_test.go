@@ -215,6 +215,8 @@ func TestBadOptionValues(t *testing.T) {
 		{"bench", "--conditions", "bogus"},
 		{"bench", "--cases", "-5"},
 		{"bench", "--truth-calib", "--outside", dir},
+		{"bench", "--calib-table", "--truth-calib"},
+		{"bench", "--calib-table", "--outside", dir},
 	} {
 		code, _, stderr := cli(t, 30*time.Second, args...)
 		noCrash(t, stderr)
