@@ -35,23 +35,7 @@ func (c *Controller) compareDialog() {
 		dialog.ShowInformation("Compare with earlier tracing", "Open a tracing and let it be measured first; the earlier one is then set beside it.", c.win)
 		return
 	}
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err != nil {
-			dialog.ShowError(err, c.win)
-			return
-		}
-		if r == nil {
-			return
-		}
-		path := r.URI().Path()
-		r.Close()
-		c.CompareWith(path)
-	}, c.win)
-	var filter []string
-	for _, e := range earlierExts {
-		filter = append(filter, e, strings.ToUpper(e))
-	}
-	d.SetFilter(storage.NewExtensionFileFilter(filter))
+	d := c.fileDialog(earlierExts, c.CompareWith)
 	d.SetTitleText("Choose the earlier tracing (picture, record file or tracelift JSON)")
 	if p := c.m.Source().Path; p != "" {
 		if u, err := storage.ListerForURI(storage.NewFileURI(filepath.Dir(p))); err == nil {

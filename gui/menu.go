@@ -115,19 +115,7 @@ func (c *Controller) key(k fyne.KeyName) {
 }
 
 func (c *Controller) openDialog() {
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err != nil {
-			dialog.ShowError(err, c.win)
-			return
-		}
-		if r == nil {
-			return
-		}
-		path := r.URI().Path()
-		r.Close()
-		c.OpenPath(path)
-	}, c.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".png", ".jpg", ".jpeg", ".tif", ".tiff", ".pdf", ".PNG", ".JPG", ".JPEG", ".TIF", ".TIFF", ".PDF"}))
+	d := c.fileDialog([]string{".png", ".jpg", ".jpeg", ".tif", ".tiff", ".pdf"}, c.OpenPath)
 	d.Resize(fyne.NewSize(900, 600))
 	d.Show()
 }
@@ -309,4 +297,28 @@ func (c *Controller) print() {
 		return
 	}
 	c.export(dir, []string{"pdf"}, true)
+}
+
+// fileDialog is a file chooser over files of the given extensions (in
+// either case) that hands the chosen path to then; cancelling does
+// nothing, and a failure to open is shown.
+func (c *Controller) fileDialog(exts []string, then func(path string)) *dialog.FileDialog {
+	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
+		if err != nil {
+			dialog.ShowError(err, c.win)
+			return
+		}
+		if r == nil {
+			return
+		}
+		path := r.URI().Path()
+		r.Close()
+		then(path)
+	}, c.win)
+	var filter []string
+	for _, e := range exts {
+		filter = append(filter, e, strings.ToUpper(e))
+	}
+	d.SetFilter(storage.NewExtensionFileFilter(filter))
+	return d
 }
