@@ -14,6 +14,26 @@ const maxRectPxPerMM = 12 // cap of the rectified scale (speed); ~300 dpi
 // the calibration pulses, and returns the page rectified at an isotropic
 // scale with its ink map. See Result for the fields.
 func Detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
+	res, err := detect(ctx, pg, opt)
+	if err == nil && res != nil && res.GainFrom == "" {
+		res.GainFrom = gainFrom(res.Pulses, opt)
+	}
+	return res, err
+}
+
+// gainFrom says where settleSettings' gain came from: a pulse of a
+// standard height, the caller's word, or nothing.
+func gainFrom(ps []Pulse, opt Options) string {
+	if _, _, _, ok := pulseGain(ps); ok && len(ps) > 0 {
+		return GainPulse
+	}
+	if opt.StatedGainMMPerMV > 0 {
+		return GainStated
+	}
+	return GainAssumed
+}
+
+func detect(ctx context.Context, pg *Page, opt Options) (*Result, error) {
 	if pg == nil || pg.Image == nil {
 		return nil, fmt.Errorf("calib: no page given: %w", ErrFormat)
 	}

@@ -472,7 +472,7 @@ func (r *Result) TakePrinted(speed, gain float64, pulseAssumed bool) {
 	}
 	if gain > 0 && gain != r.GainMMPerMV && r.GainMMPerMV == 10 && pulseAssumed {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("no calibration pulse; the page's text reads %g mm/mV, which is used (check it)", gain))
-		r.GainMMPerMV = gain
+		r.GainMMPerMV, r.GainFrom = gain, GainPrinted
 	}
 	if !(speed > 0) || r.SpeedFrom == SpeedStated {
 		return

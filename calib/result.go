@@ -61,6 +61,7 @@ type Result struct {
 
 	GainMMPerMV float64
 	SpeedMMPerS float64
+	GainFrom    string  // where the gain came from: GainPulse, GainRowPulses, GainPrinted, GainStated or GainAssumed
 	SpeedFrom   string  // where the speed came from: SpeedPulse, SpeedPrinted, SpeedStated or SpeedAssumed ("" where calib did not settle it)
 	Source      string  // "grid", "pulse", "user", "file" (no grid or pulse; the file's stated dpi) or "page" (a fax with no grid or pulse; the sheet's size): where the scale came from
 	Confidence  float64 // 0..1

@@ -3,6 +3,7 @@ package digitize
 import (
 	"context"
 	"testing"
+	"tracelift/calib"
 
 	"tracelift/samples"
 )
@@ -35,7 +36,8 @@ func BenchmarkDeskew300dpi(b *testing.B) {
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		cal.Rectified, cal.Ink = rect, ink
-		deskew(cal, 0.0087, 1700, 1200)
+		c := cal.Clone()
+		c.Rectified, c.Ink = rect, ink
+		c.Apply(calib.Adjustment{Kind: calib.AdjustStraighten, Shear: 0.0087, Center: [2]float64{1700, 1200}})
 	}
 }

@@ -91,8 +91,16 @@ type Result struct {
 	// match what the page shows ("" when it does, or when the layout was
 	// found): the page shows more rows than the layout reads, or the
 	// limb leads fit another layout of as many rows far better. The
-	// same words are in cal.Warnings.
+	// same words are in Warnings.
 	Misfit string
+	// Calib is the calibration the page was traced on: Run's input with
+	// Adjustments carried out (by calib.Result.Apply), in order.
+	Calib       *calib.Result
+	Adjustments []calib.Adjustment
+	// Warnings says what the tracing found doubtful on the page, beside
+	// the calibration's own (Calib.Warnings): a layout given by hand that
+	// misfits, a strip's label not read.
+	Warnings []string
 }
 
 // Expected failures.
@@ -118,16 +126,19 @@ func (e forcedLayoutError) Unwrap() error { return ErrLayout }
 
 // Run finds the layout, traces every panel and assembles the signals.
 //
-// Run may correct cal in place, and then says so in cal.Warnings: when
-// the calibration pulses lead the rows from the right, the page is upside
-// down and Run turns cal's images half a turn (updating Turned,
-// RectToImage and Pulses); when calib's scale is not from a confident grid
-// and the traces span within 1 % of a standard 10 s page, the
-// scale is taken from the span (PxPerMM, PxPerMMX, PxPerMMY); when the
-// rows show the page still turned by 0.1–1.5° (their time origins drift
-// down the page), the images are turned straight (Rectified, Ink,
-// RectToImage, Pulses, RotationDeg). Everything
-// derived later from cal (Signals, overlays) then agrees with the traces.
+// Run never changes cal. What the traces show of the page's geometry and
+// settings that the paper alone did not, it proposes as calib
+// Adjustments, carried out by calib (Result.Apply) on Run's own copy of
+// cal, which it traces on and returns as Result.Calib, with the
+// adjustments in Result.Adjustments: when the calibration pulses lead
+// the rows from the right, the page is upside down and is turned half a
+// turn; when the rows show the page still turned by 0.1–1.5° (their
+// time origins drift down the page), it is turned straight; when
+// calib's scale is not from a confident grid and the traces span within
+// 1 % of a standard 10 s page, the scale is taken from the span; the
+// pulses at the row starts and the page's printed settings may give the
+// gain and speed. Everything derived later from the tracing (Signals,
+// overlays) is to use Result.Calib.
 func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if cal == nil || (cal.Ink == nil && cal.Rectified == nil) {
 		return nil, ErrInput
@@ -153,6 +164,16 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	default:
 		return nil, fmt.Errorf("digitize: unknown lead order %q (want standard or cabrera)", opt.LeadOrder)
 	}
+	// The tracer works on its own copy of the calibration; what the
+	// traces show of the page's geometry and settings is applied to it
+	// by calib (Result.Apply) and returned as Result.Adjustments.
+	cal = cal.Clone()
+	var adjusted []calib.Adjustment
+	adjust := func(a calib.Adjustment) {
+		if cal.Apply(a) {
+			adjusted = append(adjusted, a)
+		}
+	}
 	ink := cal.Ink
 	if ink == nil {
 		ink = InkFromRGB(cal.Rectified)
@@ -172,7 +193,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	// A page left upside down shows its calibration pulses at the right.
 	left, right := pulseSides(g, rows, rowPitch(rows, g, p), cal)
 	if right >= 2 && right > left {
-		turnResultHalf(cal)
+		adjust(calib.Adjustment{Kind: calib.AdjustHalfTurn})
 		g = turnedGray(g)
 		rows = findRows(g, p, cal.GainMMPerMV)
 		if len(rows) == 0 {
@@ -194,15 +215,14 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	pitch := rowPitch(rows, g, p)
 	gn := pulseGain(g, rows, pitch, cal)
 	if gn > 0 && gn != cal.GainMMPerMV {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the calibration pulses at the row starts show %g mm/mV (not %g); that gain is used", gn, cal.GainMMPerMV))
-		cal.GainMMPerMV = gn
+		adjust(calib.Adjustment{Kind: calib.AdjustRowPulseGain, GainMMPerMV: gn})
 	} else if gn == 0 && cal.Source != "user" && !isStandardGain(cal.GainMMPerMV) {
 		// calib read something as a pulse that no standard setting
 		// explains, and the row starts show none: the common 10 mm/mV.
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: %.3g mm/mV is not a standard gain and no calibration pulse leads the rows; 10 mm/mV is assumed", cal.GainMMPerMV))
-		cal.GainMMPerMV = 10
+		adjust(calib.Adjustment{Kind: calib.AdjustGainAssumed})
 	}
-	readSettings(g, rows, pitch, cal, gn == 0 && cal.SettingsAssumed())
+	speed, gain := printedSettings(g, rows, pitch, cal.PxPerMM)
+	adjust(calib.Adjustment{Kind: calib.AdjustPrinted, SpeedMMPerS: speed, GainMMPerMV: gain, PulseAssumed: gn == 0 && cal.SettingsAssumed()})
 	misfit := ""
 	if opt.Layout != "" {
 		// The rows an automatic reading would take; more than the layout
@@ -233,10 +253,9 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	if deg := math.Abs(math.Atan(pg.shear)) * 180 / math.Pi; pg.shearFitted && deg >= minDeskewDeg && deg <= maxDeskewDeg && zeroOrigin(cal) {
 		// Turn the page straight and find the rows again; keep the turn
 		// only when the same rows come back.
-		saved := *cal
-		saved.Pulses = append([]calib.Pulse(nil), cal.Pulses...)
-		saved.Warnings = append([]string(nil), cal.Warnings...)
-		deskew(cal, pg.shear, pg.x0f+pg.span/2, meanBase(rows))
+		saved, savedN := cal, len(adjusted)
+		cal = cal.Clone()
+		adjust(calib.Adjustment{Kind: calib.AdjustStraighten, Shear: pg.shear, Center: [2]float64{pg.x0f + pg.span/2, meanBase(rows)}})
 		ink2 := cal.Ink
 		if ink2 == nil {
 			ink2 = InkFromRGB(cal.Rectified)
@@ -256,11 +275,11 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		if len(rows2) == len(rows) && math.Abs(pg2.span-pg.span) <= math.Max(3, 0.005*pg.span) {
 			g, rows, pg = g2, rows2, pg2
 		} else {
-			*cal = saved
+			cal, adjusted = saved, adjusted[:savedN]
 		}
 	}
 	if k, spanS, want := spanScale(pg.span, cal); k != 1 {
-		rescale(cal, k, spanS, want)
+		adjust(calib.Adjustment{Kind: calib.AdjustSpanScale, Factor: k, SpanS: spanS, WantS: want})
 		pg.pxPerMM, pg.pxPerS = cal.PxPerMM, cal.PxPerMM*cal.SpeedMMPerS
 	}
 	// A layout given by hand is read as given; the other layouts of as
@@ -316,8 +335,9 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 			misfit = fmt.Sprintf("the limb leads fit Einthoven's and Goldberger's laws far better read as %s than as the chosen %s: the page is probably printed in %s, and read as %s its leads are named wrongly", alt, opt.Layout, alt, opt.Layout)
 		}
 	}
+	var warns []string
 	if misfit != "" {
-		cal.Warnings = append(cal.Warnings, "digitize: "+misfit)
+		warns = append(warns, "digitize: "+misfit)
 	}
 	// The layout is chosen on the segments' own traces; the chosen one
 	// is then assembled again with the traces across segment boundaries
@@ -335,13 +355,14 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		// it stays the layout's usual II.
 		switch name := stripLabel(g, rows[0].base, rows[0].x0, p); {
 		case name == "":
-			cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the strip's label could not be read; it is taken as %s (check it, or name it by hand)", bestPanels[0].Lead))
+			warns = append(warns, fmt.Sprintf("digitize: the strip's label could not be read; it is taken as %s (check it, or name it by hand)", bestPanels[0].Lead))
 		case name != bestPanels[0].Lead:
-			cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the strip's label reads %s; check it", name))
+			warns = append(warns, fmt.Sprintf("digitize: the strip's label reads %s; check it", name))
 			bestPanels[0].Lead, bestTraces[0].Lead = name, name
 		}
 	}
-	res := &Result{Layout: h.layout, Cabrera: h.cabrera, Panels: bestPanels, Traces: bestTraces, TimeZero: pg.t0From, Misfit: misfit}
+	res := &Result{Layout: h.layout, Cabrera: h.cabrera, Panels: bestPanels, Traces: bestTraces, TimeZero: pg.t0From, Misfit: misfit,
+		Calib: cal, Adjustments: adjusted, Warnings: warns}
 	res.Record = Signals(cal, res.Panels, res.Traces, opt.RateHz)
 	res.Record.Provenance.Layout = h.layout
 	wins := windowsOf(res.Panels)

@@ -144,8 +144,8 @@ func TestForcedLayoutMisfitSaysSo(t *testing.T) {
 				t.Errorf("forced %s: %q lacks %q", c.layout, res.Misfit, w)
 			}
 		}
-		if strings.Contains(res.Misfit, "digitize") || !strings.Contains(strings.Join(cal.Warnings, "\n"), res.Misfit) {
-			t.Errorf("forced %s: note %q, warnings %q", c.layout, res.Misfit, cal.Warnings)
+		if strings.Contains(res.Misfit, "digitize") || !strings.Contains(strings.Join(res.Warnings, "\n"), res.Misfit) {
+			t.Errorf("forced %s: note %q, warnings %q", c.layout, res.Misfit, res.Warnings)
 		}
 	}
 }

@@ -1,8 +1,6 @@
 package digitize
 
 import (
-	"fmt"
-	"image"
 	"math"
 	"sort"
 
@@ -141,57 +139,6 @@ func reversed(p []uint8) []uint8 {
 	return out
 }
 
-// turnResultHalf turns calib's rectified page and ink map half a turn
-// and updates the quarter-turn count, the map back to the source image
-// and the pulse boxes to match.
-func turnResultHalf(cal *calib.Result) {
-	var w, h float64
-	if cal.Rectified != nil {
-		b := cal.Rectified.Bounds()
-		w, h = float64(b.Dx()), float64(b.Dy())
-		out := image.NewNRGBA(image.Rect(0, 0, b.Dx(), b.Dy()))
-		for y := 0; y < b.Dy(); y++ {
-			src := cal.Rectified.Pix[y*cal.Rectified.Stride : y*cal.Rectified.Stride+4*b.Dx()]
-			dst := out.Pix[(b.Dy()-1-y)*out.Stride:]
-			for x := 0; x < b.Dx(); x++ {
-				copy(dst[4*(b.Dx()-1-x):4*(b.Dx()-x)], src[4*x:4*x+4])
-			}
-		}
-		cal.Rectified = out
-	}
-	if cal.Ink != nil {
-		b := cal.Ink.Bounds()
-		w, h = float64(b.Dx()), float64(b.Dy())
-		out := image.NewGray(image.Rect(0, 0, b.Dx(), b.Dy()))
-		for y := 0; y < b.Dy(); y++ {
-			src := cal.Ink.Pix[y*cal.Ink.Stride : y*cal.Ink.Stride+b.Dx()]
-			dst := out.Pix[(b.Dy()-1-y)*out.Stride:]
-			for x := 0; x < b.Dx(); x++ {
-				dst[b.Dx()-1-x] = src[x]
-			}
-		}
-		cal.Ink = out
-	}
-	cal.Turned = (cal.Turned + 2) % 4
-	// New rectified (x', y') is old (w − x', h − y'): RectToImage·F with
-	// F = [[−1 0 w] [0 −1 h] [0 0 1]].
-	m := cal.RectToImage
-	if m != ([9]float64{}) {
-		var o [9]float64
-		for r := 0; r < 3; r++ {
-			o[3*r+0] = -m[3*r+0]
-			o[3*r+1] = -m[3*r+1]
-			o[3*r+2] = m[3*r+0]*w + m[3*r+1]*h + m[3*r+2]
-		}
-		cal.RectToImage = o
-	}
-	for i, p := range cal.Pulses {
-		b := p.Box
-		cal.Pulses[i].Box = [4]float64{w - b[2], h - b[3], w - b[0], h - b[1]}
-	}
-	cal.Warnings = append(cal.Warnings, "digitize: the calibration pulses sat at the right end of the rows; the page was turned half a turn")
-}
-
 // Trace spans worth snapping to, s: a 10 s page (common practice for a
 // 12-lead printout at 25 mm/s). At 50 mm/s a page holds whatever fits.
 var pageSpansS = []float64{10}
@@ -229,16 +176,6 @@ func spanScale(spanPx float64, cal *calib.Result) (k, spanS, want float64) {
 		}
 	}
 	return 1, spanS, 0
-}
-
-// rescale applies a scale correction k to calib's result.
-func rescale(cal *calib.Result, k, spanS, want float64) {
-	old := cal.PxPerMM
-	cal.PxPerMM *= k
-	cal.PxPerMMX *= k
-	cal.PxPerMMY *= k
-	cal.Warnings = append(cal.Warnings, fmt.Sprintf("digitize: the traces span %.2f s at %.3f px/mm; the scale is taken as %.3f px/mm so that they span the standard %.0f s",
-		spanS, old, cal.PxPerMM, want))
 }
 
 // Standard gains, mm/mV (common practice: 10, with 5 and 20 the usual

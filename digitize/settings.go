@@ -3,8 +3,6 @@ package digitize
 import (
 	"math"
 	"sort"
-
-	"tracelift/calib"
 )
 
 // Reading the printed settings. A page without calibration pulses
@@ -319,14 +317,6 @@ func printedSettings(g *gray, rows []rowInfo, pitch, pxPerMM float64) (speed, ga
 		}
 	}
 	return speed, gain
-}
-
-// readSettings reads the speed and gain printed on the page and hands
-// them to calib, whose rule (calib.Result.TakePrinted) decides what is
-// used; pulseAssumed says that no calibration pulse gave the gain.
-func readSettings(g *gray, rows []rowInfo, pitch float64, cal *calib.Result, pulseAssumed bool) {
-	speed, gain := printedSettings(g, rows, pitch, cal.PxPerMM)
-	cal.TakePrinted(speed, gain, pulseAssumed)
 }
 
 // Reading a single strip's lead name. A page holding one strip names

@@ -110,11 +110,11 @@ func TestStripLabelUnreadWarns(t *testing.T) {
 		t.Fatalf("panels %+v", res.Panels)
 	}
 	warned := false
-	for _, w := range cal.Warnings {
+	for _, w := range res.Warnings {
 		warned = warned || strings.Contains(w, "label could not be read")
 	}
 	if !warned {
-		t.Errorf("no warning that the label went unread: %q", cal.Warnings)
+		t.Errorf("no warning that the label went unread: %q", res.Warnings)
 	}
 }
 
@@ -151,7 +151,7 @@ func TestPrintedSpeedOverPulseWidth(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			runOn(t, cal, Options{})
+			cal = runOn(t, cal, Options{}).Calib
 			if cal.SpeedMMPerS != c.want || cal.SpeedFrom != c.from {
 				t.Errorf("read %g mm/s from %q, want %g from %q (warnings %q)", cal.SpeedMMPerS, cal.SpeedFrom, c.want, c.from, cal.Warnings)
 			}

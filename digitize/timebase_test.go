@@ -55,12 +55,18 @@ func TestResidualTurnStraightened(t *testing.T) {
 	// Turn the page about its centre: the new page shows the old at
 	// (x − s·(y−yc), y + s·(x−xc)), s = tan(deg).
 	s := math.Tan(deg * math.Pi / 180)
-	m := [9]float64{1, -s, s * h / 2, s, 1, -s * w / 2, 0, 0, 1}
-	cal.Rectified = warpNRGBA(p.Image, m)
+	// That is calib's straightening by −s about the centre.
+	turn := &calib.Result{Rectified: p.Image}
+	turn.Apply(calib.Adjustment{Kind: calib.AdjustStraighten, Shear: -s, Center: [2]float64{w / 2, h / 2}})
+	cal.Rectified = turn.Rectified
 	cal.Ink = InkFromRGB(cal.Rectified)
 	cal.RectToImage = [9]float64{1, 0, 0, 0, 1, 0, 0, 0, 1}
 	cal.Pulses = nil
 	res := runOn(t, cal, Options{})
+	if cal.RotationDeg != 0 {
+		t.Errorf("Run changed its input's rotation to %.3f°", cal.RotationDeg)
+	}
+	cal = res.Calib
 	if math.Abs(cal.RotationDeg-deg) > 0.05 {
 		t.Errorf("residual turn found %.3f°, applied %.1f°", cal.RotationDeg, deg)
 	}

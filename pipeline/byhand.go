@@ -1,9 +1,6 @@
 package pipeline
 
 import (
-	"fmt"
-	"math"
-
 	"tracelift/calib"
 	"tracelift/digitize"
 )
@@ -17,32 +14,26 @@ type ByHand struct {
 	SpeedMMPerS float64
 }
 
-// apply puts the hand-given settings into cal and derives the signals of
-// dr again with them: a gain scales every amplitude, a speed the time
-// axis of every panel (time 0 stays at the earliest panel's left edge).
-// A warning in cal says what was replaced.
+// apply has calib put the hand-given settings into cal (an
+// calib.AdjustByHand, said in cal's warnings and recorded in the record's
+// provenance) and derives the signals of dr again with them: a gain
+// scales every amplitude, a speed the time axis of every panel (time 0
+// stays at the earliest panel's left edge).
 func (h ByHand) apply(cal *calib.Result, dr *digitize.Result, rateHz float64) {
-	changed := false
-	if g := h.GainMMPerMV; g > 0 && !math.IsInf(g, 0) && g != cal.GainMMPerMV {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("gain %g mm/mV given by hand is used (the page showed %g mm/mV)", g, cal.GainMMPerMV))
-		cal.GainMMPerMV = g
-		changed = true
+	gain, speed := cal.GainMMPerMV, cal.SpeedMMPerS
+	a := calib.Adjustment{Kind: calib.AdjustByHand, GainMMPerMV: h.GainMMPerMV, SpeedMMPerS: h.SpeedMMPerS}
+	if !cal.Apply(a) {
+		return
 	}
-	if v := h.SpeedMMPerS; v > 0 && !math.IsInf(v, 0) {
-		cal.SpeedFrom = calib.SpeedStated // the user's word, not an assumption
+	dr.Adjustments = append(dr.Adjustments, a)
+	if gain == cal.GainMMPerMV && speed == cal.SpeedMMPerS {
+		return
 	}
-	if v := h.SpeedMMPerS; v > 0 && !math.IsInf(v, 0) && v != cal.SpeedMMPerS {
-		cal.Warnings = append(cal.Warnings, fmt.Sprintf("speed %g mm/s given by hand is used (the page showed %g mm/s)", v, cal.SpeedMMPerS))
-		k := cal.SpeedMMPerS / v
+	if k := speed / cal.SpeedMMPerS; k != 1 {
 		for i := range dr.Panels {
 			dr.Panels[i].T0S *= k
 			dr.Panels[i].T1S *= k
 		}
-		cal.SpeedMMPerS = v
-		changed = true
-	}
-	if !changed {
-		return
 	}
 	rec := digitize.Signals(cal, dr.Panels, dr.Traces, rateHz)
 	rec.Name = dr.Record.Name

@@ -101,6 +101,7 @@ func ProcessPage(ctx context.Context, pg *calib.Page, opt Options) (*Outcome, er
 	t = time.Now()
 	dr, err := digitize.Run(ctx, cal, opt.Digitize)
 	if err == nil {
+		cal = Adopt(o, dr)
 		opt.ByHand.apply(cal, dr, opt.Digitize.RateHz)
 	}
 	o.Timings.Digitize = time.Since(t)
@@ -181,6 +182,22 @@ func PictureFacts(cal *calib.Result, dr *digitize.Result) axis.Picture {
 	return p
 }
 
+// Adopt makes the calibration the page was traced on the outcome's:
+// calib's result with the tracing's adjustments carried out
+// (digitize.Result.Calib), with the tracing's warnings after calib's
+// own, where every reader of the outcome (summary, JSON, PDF, app)
+// finds them.
+func Adopt(o *Outcome, dr *digitize.Result) *calib.Result {
+	cal := dr.Calib
+	if cal == nil {
+		cal = o.Calib
+	}
+	cal.Warnings = append(cal.Warnings, dr.Warnings...)
+	dr.Calib = cal
+	o.Calib = cal
+	return cal
+}
+
 // FillProvenance records in rec where it came from: the image, its scale and
 // settings, the layout, this software.
 func FillProvenance(rec *record.Record, pg *calib.Page, cal *calib.Result, dr *digitize.Result) {
@@ -193,5 +210,11 @@ func FillProvenance(rec *record.Record, pg *calib.Page, cal *calib.Result, dr *d
 	p.SpeedMMPerS = cal.SpeedMMPerS
 	p.Layout = dr.Layout
 	p.ScaleSource = cal.Source
+	p.GainFrom = cal.GainFrom
+	p.SpeedFrom = cal.SpeedFrom
+	p.Adjusted = nil
+	for _, a := range dr.Adjustments {
+		p.Adjusted = append(p.Adjusted, a.Kind)
+	}
 	p.Software = Software
 }

@@ -18,6 +18,7 @@ type CalibrationJSON struct {
 	PxPerMMY    float64       `json:"px_per_mm_y"`
 	GainMMPerMV float64       `json:"gain_mm_per_mv"`
 	SpeedMMPerS float64       `json:"speed_mm_per_s"`
+	GainFrom    string        `json:"gain_from,omitempty"`  // pulse, row_pulses, printed, stated or assumed (calib.Result.GainFrom)
 	SpeedFrom   string        `json:"speed_from,omitempty"` // pulse, printed, stated or assumed (calib.Result.SpeedFrom)
 	RotationDeg float64       `json:"rotation_deg"`
 	Turned      int           `json:"quarter_turns"`
@@ -25,6 +26,9 @@ type CalibrationJSON struct {
 	Confidence  float64       `json:"confidence"`
 	Pulses      []calib.Pulse `json:"pulses,omitempty"`
 	Warnings    []string      `json:"warnings,omitempty"`
+	// Adjustments are the corrections made once the traces were found,
+	// in order (digitize.Result.Adjustments).
+	Adjustments []calib.Adjustment `json:"adjustments,omitempty"`
 }
 
 // LayoutJSON is the "layout" object of the JSON output.
@@ -79,13 +83,14 @@ func (o *Outcome) Document() Document {
 	if c := o.Calib; c != nil {
 		d.Calibration = CalibrationJSON{
 			PxPerMMX: c.PxPerMMX, PxPerMMY: c.PxPerMMY,
-			GainMMPerMV: c.GainMMPerMV, SpeedMMPerS: c.SpeedMMPerS, SpeedFrom: c.SpeedFrom,
+			GainMMPerMV: c.GainMMPerMV, SpeedMMPerS: c.SpeedMMPerS, GainFrom: c.GainFrom, SpeedFrom: c.SpeedFrom,
 			RotationDeg: c.RotationDeg, Turned: c.Turned,
 			Source: c.Source, Confidence: c.Confidence,
 			Pulses: c.Pulses, Warnings: c.Warnings,
 		}
 	}
 	if dr := o.Digitized; dr != nil {
+		d.Calibration.Adjustments = dr.Adjustments
 		d.Layout = LayoutJSON{Name: dr.Layout, Cabrera: dr.Cabrera, Panels: dr.Panels, TimeZero: dr.TimeZero}
 		d.Quality = dr.Quality
 		d.LeadLaws = dr.Laws

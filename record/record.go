@@ -104,7 +104,14 @@ type Provenance struct {
 	SpeedMMPerS float64 `json:"speed_mm_per_s,omitempty"`
 	Layout      string  `json:"layout,omitempty"`
 	ScaleSource string  `json:"scale_source,omitempty"` // grid, pulse, user, file
-	Software    string  `json:"software,omitempty"`
+	GainFrom    string  `json:"gain_from,omitempty"`    // pulse, row_pulses, printed, stated, assumed
+	SpeedFrom   string  `json:"speed_from,omitempty"`   // pulse, printed, stated, assumed
+	// Adjusted lists, in order, the corrections of the page's geometry
+	// and settings made once its traces were found (half_turn,
+	// straighten, span_scale, row_pulse_gain, gain_assumed,
+	// printed_settings, by_hand).
+	Adjusted []string `json:"adjusted,omitempty"`
+	Software string   `json:"software,omitempty"`
 }
 
 // Point is a point of a freehand correction, in tracing time and mV.

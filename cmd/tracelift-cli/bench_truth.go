@@ -49,6 +49,7 @@ func readWithTruth(clean, po *samples.Printout, name string, data []byte) (*pipe
 		return o, err
 	}
 	o.Digitized = dr
+	pipeline.Adopt(o, dr)
 	pipeline.FillProvenance(dr.Record, o.Page, o.Calib, dr)
 	o.Remeasure(axis.Options{})
 	return o, nil
