@@ -32,7 +32,7 @@ func BenchmarkRun300dpi(b *testing.B) {
 func BenchmarkDeskew300dpi(b *testing.B) {
 	p := render(b, dipoleRecord(1), samples.DefaultStyle())
 	cal := truthCal(p)
-	rect, ink := cal.Rectified, InkFromRGB(cal.Rectified)
+	rect, ink := cal.Rectified, calib.InkOf(cal.Rectified, cal.PxPerMM)
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {

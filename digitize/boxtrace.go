@@ -30,7 +30,7 @@ func NewBoxTracer(cal *calib.Result) (*BoxTracer, error) {
 	}
 	ink := cal.Ink
 	if ink == nil {
-		ink = InkFromRGB(cal.Rectified)
+		ink = calib.InkOf(cal.Rectified, cal.PxPerMM)
 	}
 	return &BoxTracer{g: prepare(ink, cal.PxPerMM), pxPerMM: cal.PxPerMM}, nil
 }

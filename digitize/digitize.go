@@ -176,7 +176,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 	}
 	ink := cal.Ink
 	if ink == nil {
-		ink = InkFromRGB(cal.Rectified)
+		ink = calib.InkOf(cal.Rectified, cal.PxPerMM)
 	}
 	if ink.Bounds().Dx() < 16 || ink.Bounds().Dy() < 16 {
 		return nil, ErrNoTrace
@@ -258,7 +258,7 @@ func Run(ctx context.Context, cal *calib.Result, opt Options) (*Result, error) {
 		adjust(calib.Adjustment{Kind: calib.AdjustStraighten, Shear: pg.shear, Center: [2]float64{pg.x0f + pg.span/2, meanBase(rows)}})
 		ink2 := cal.Ink
 		if ink2 == nil {
-			ink2 = InkFromRGB(cal.Rectified)
+			ink2 = calib.InkOf(cal.Rectified, cal.PxPerMM)
 		}
 		g2 := prepare(ink2, p)
 		rows2 := findRows(g2, p, cal.GainMMPerMV)

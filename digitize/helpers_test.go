@@ -26,7 +26,7 @@ func truthCal(p *samples.Printout) *calib.Result {
 		Source:      "truth",
 		Confidence:  1,
 	}
-	c.Ink = InkFromRGB(p.Image)
+	c.Ink = calib.InkOf(p.Image, c.PxPerMM)
 	for _, b := range p.Truth.Pulses {
 		c.Pulses = append(c.Pulses, calib.Pulse{Box: b, HeightMM: (b[3] - b[1]) / c.PxPerMM, WidthMM: (b[2] - b[0]) / c.PxPerMM})
 	}

@@ -59,7 +59,7 @@ func TestResidualTurnStraightened(t *testing.T) {
 	turn := &calib.Result{Rectified: p.Image}
 	turn.Apply(calib.Adjustment{Kind: calib.AdjustStraighten, Shear: -s, Center: [2]float64{w / 2, h / 2}})
 	cal.Rectified = turn.Rectified
-	cal.Ink = InkFromRGB(cal.Rectified)
+	cal.Ink = calib.InkOf(cal.Rectified, cal.PxPerMM)
 	cal.RectToImage = [9]float64{1, 0, 0, 0, 1, 0, 0, 0, 1}
 	cal.Pulses = nil
 	res := runOn(t, cal, Options{})
