@@ -82,6 +82,28 @@ func TestPulseUprightAndLeaning(t *testing.T) {
 	}
 }
 
+// An upright pulse whose sides' columns end a few rows apart (a fax's
+// ragged strokes, a corner) is still found when the sides stand
+// upright: their lean, fitted on runs of nearly the same rows, is noise
+// (a fax's 20 mm pulse read −1.06 and +1.35 px a row and was lost).
+func TestPulseRaggedUprightSides(t *testing.T) {
+	const s, th = 8.0, 5
+	g := image.NewGray(image.Rect(0, 0, 400, 200))
+	drawPulse(g, 100, 150, s, 0, th, 255)
+	top := 150 - 80 - th/2
+	for k := 0; k < th; k++ {
+		// The rising side's columns start lower left to right, the
+		// falling side's lower right to left: the sides "lean" apart.
+		for y := top; y < top+(3*k)/2; y++ {
+			g.Pix[y*g.Stride+100+k] = 0
+			g.Pix[y*g.Stride+140+th-1-k] = 0
+		}
+	}
+	if ps := findPulses(g, s, s, 128, false); len(ps) != 1 {
+		t.Errorf("%d pulses, want 1", len(ps))
+	}
+}
+
 // The ink level that counts as a trace follows the traces' own strength:
 // half way to full strength when they reach it, half their level when a
 // pale pen never does, never under what grid lines leave.

@@ -1,6 +1,7 @@
 package digitize
 
 import (
+	"image"
 	"math"
 	"sort"
 
@@ -31,91 +32,31 @@ func pulseSides(g *gray, rows []rowInfo, pitch float64, cal *calib.Result) (left
 }
 
 // squarePulse reports whether a calibration pulse stands at the start of
-// a row beginning near column x0 with baseline base: two vertical strokes
-// rising from the baseline (and not reaching below it, unlike a grid
-// line left over on a fax), 100–300 ms apart (common practice: a 200 ms
-// pulse; some machines draw it narrower), of equal height of at least
-// 2.5 mm (a 1 mV pulse at 5 mm/mV or more), joined by a flat top.
+// a row beginning near column x0 with baseline base, and its height in
+// px: calib's pulse detector (calib.PulsesIn: two upright sides of equal
+// extent joined by a flat top, empty inside, the trace leaving along the
+// baseline) over the row's first stretch, for a pulse whose foot is on
+// the baseline, 100–300 ms wide (common practice: a 200 ms pulse; some
+// machines draw it narrower) and at least 2.5 mm tall (a 1 mV pulse at
+// 5 mm/mV or more) but lower than the row pitch.
 func squarePulse(g *gray, x0 int, base, pitch, pxPerMM, speed float64) (ok bool, heightPx float64) {
-	const on = 64
-	ink := func(x, y int) bool { return x >= 0 && y >= 0 && x < g.w && y < g.h && g.pix[y*g.w+x] >= on }
-	yb := int(base)
-	tol := int(math.Ceil(0.6 * pxPerMM))
-	below := int(math.Ceil(1.5 * pxPerMM))
-	minH := 2.5 * pxPerMM
-	maxH := 0.9 * pitch
+	tol := math.Ceil(0.6 * pxPerMM)
 	from := max(0, x0-int(5*pxPerMM))
 	lim := min(g.w, x0+int((0.35*speed+6)*pxPerMM))
-	type stroke struct{ x, top, bot int }
-	var st []stroke
-	for x := from; x < lim; x++ {
-		// The lowest inked pixel near the baseline.
-		bot := -1
-		for y := yb + tol; y >= yb-tol; y-- {
-			if ink(x, y) {
-				bot = y
-				break
-			}
-		}
-		if bot < 0 {
+	r := image.Rect(from, max(0, int(base-0.9*pitch)-2), lim, min(g.h, int(base+tol+1.5*pxPerMM)))
+	// On the tracer's map first; where its blur and line removal broke
+	// a pulse's sides (a fax's), on the ink as calib mapped it.
+	for _, pix := range [][]uint8{g.pix, g.raw} {
+		if pix == nil {
 			continue
 		}
-		// Nothing a little below it.
-		clear := true
-		for y := bot + 3; y <= bot+below; y++ {
-			if ink(x, y) || ink(x, y+below) {
-				clear = false
-				break
-			}
-		}
-		if !clear {
-			continue
-		}
-		top, last := bot, bot
-		for y := bot - 1; y >= max(0, bot-int(maxH)); y-- {
-			if ink(x, y) {
-				top, last = y, y
-			} else if last-y > 3 {
-				break
-			}
-		}
-		if float64(bot-top) < minH {
-			continue
-		}
-		if n := len(st); n > 0 && x-st[n-1].x <= 2 {
-			st[n-1].top = min(st[n-1].top, top)
-			continue
-		}
-		st = append(st, stroke{x, top, bot})
-	}
-	for i := range st {
-		for j := i + 1; j < len(st); j++ {
-			d := float64(st[j].x-st[i].x) / (pxPerMM * speed)
-			if d < 0.1 {
+		im := &image.Gray{Pix: pix, Stride: g.w, Rect: image.Rect(0, 0, g.w, g.h)}
+		for _, p := range calib.PulsesIn(im, r, pxPerMM, 64) {
+			d := p.WidthMM / speed
+			if d < 0.08 || d > 0.3 || math.Abs(p.Box[3]-base) > tol || p.HeightMM < 2.5 || p.HeightMM*pxPerMM > 0.9*pitch {
 				continue
 			}
-			if d > 0.3 {
-				break
-			}
-			if math.Abs(float64(st[i].top-st[j].top)) > 0.6*pxPerMM {
-				continue
-			}
-			// The flat top: inked (within a couple of px) across.
-			ty := (st[i].top + st[j].top) / 2
-			n, k := 0, 0
-			for x := st[i].x + 2; x < st[j].x-1; x++ {
-				n++
-				for y := ty - 3; y <= ty+3; y++ {
-					if ink(x, y) {
-						k++
-						break
-					}
-				}
-			}
-			if n > 0 && k*10 >= n*7 && openFoot(g, st[i].x, st[j].x, (st[i].bot+st[j].bot)/2, 1, on) {
-				bot := base
-				return true, bot - float64(ty)
-			}
+			return true, p.HeightMM * pxPerMM
 		}
 	}
 	return false, 0
