@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"sort"
+
+	"gonum.org/v1/gonum/stat"
 )
 
 // Screening is a quick look at one page of a document: does it hold an
@@ -407,19 +409,10 @@ func lineResidual(x, y []float64) float64 {
 	if n < 3 {
 		return 0
 	}
-	var sx, sy, sxx, sxy float64
-	for i := range x {
-		sx += x[i]
-		sy += y[i]
-		sxx += x[i] * x[i]
-		sxy += x[i] * y[i]
+	a, b := stat.LinearRegression(x, y, nil, false)
+	if math.IsNaN(b) || math.IsInf(b, 0) {
+		return 0 // all x alike
 	}
-	d := n*sxx - sx*sx
-	if d == 0 {
-		return 0
-	}
-	b := (n*sxy - sx*sy) / d
-	a := (sy - b*sx) / n
 	var ss float64
 	for i := range x {
 		e := y[i] - a - b*x[i]

@@ -3,6 +3,8 @@ package calib
 import (
 	"math"
 	"sort"
+
+	"gonum.org/v1/gonum/stat"
 )
 
 // A photographed sheet with no grid still shows its perspective: its
@@ -232,23 +234,24 @@ type line struct{ a, b float64 }
 // shadow, a dog-ear, a crease's dent in the outline).
 func fitLine(ts, vs []float64) (line, bool) {
 	fit := func(keep []bool) (line, bool) {
-		var n, st, sv, stt, stv float64
-		for i := range ts {
-			if keep != nil && !keep[i] {
-				continue
+		t, v := ts, vs
+		if keep != nil {
+			t, v = nil, nil
+			for i := range ts {
+				if keep[i] {
+					t = append(t, ts[i])
+					v = append(v, vs[i])
+				}
 			}
-			n++
-			st += ts[i]
-			sv += vs[i]
-			stt += ts[i] * ts[i]
-			stv += ts[i] * vs[i]
 		}
-		d := n*stt - st*st
-		if n < 20 || d == 0 {
+		if len(t) < 20 {
 			return line{}, false
 		}
-		a := (n*stv - st*sv) / d
-		return line{a, (sv - a*st) / n}, true
+		b, a := stat.LinearRegression(t, v, nil, false)
+		if math.IsNaN(a) || math.IsInf(a, 0) || math.IsNaN(b) {
+			return line{}, false // all t alike
+		}
+		return line{a, b}, true
 	}
 	l, ok := fit(nil)
 	if !ok {
