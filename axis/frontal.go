@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/mat"
+
 	"tracelift/record"
 )
 
@@ -54,30 +56,35 @@ func projections(net map[string]float64) map[string]float64 {
 // It returns the vector and the 2×n map M = (AᵀA)⁻¹Aᵀ in lead order for
 // uncertainty propagation; ok is false with fewer than two leads.
 func lsqFit(proj map[string]float64) (x, y float64, m map[string][2]float64, ok bool) {
-	var a11, a12, a22, b1, b2 float64
-	for l, v := range proj {
-		th := hexaxial[l] * math.Pi / 180
-		c, s := math.Cos(th), math.Sin(th)
-		a11 += c * c
-		a12 += c * s
-		a22 += s * s
-		b1 += c * v
-		b2 += s * v
-	}
-	det := a11*a22 - a12*a12
-	if len(proj) < 2 || math.Abs(det) < 1e-9 {
+	if len(proj) < 2 {
 		return 0, 0, nil, false
 	}
-	i11, i12, i22 := a22/det, -a12/det, a11/det
-	x = i11*b1 + i12*b2
-	y = i12*b1 + i22*b2
-	m = map[string][2]float64{}
+	leads := make([]string, 0, len(proj))
 	for l := range proj {
-		th := hexaxial[l] * math.Pi / 180
-		c, s := math.Cos(th), math.Sin(th)
-		m[l] = [2]float64{i11*c + i12*s, i12*c + i22*s}
+		leads = append(leads, l)
 	}
-	return x, y, m, true
+	A := mat.NewDense(len(leads), 2, nil)
+	b := mat.NewVecDense(len(leads), nil)
+	for r, l := range leads {
+		th := hexaxial[l] * math.Pi / 180
+		A.Set(r, 0, math.Cos(th))
+		A.Set(r, 1, math.Sin(th))
+		b.SetVec(r, proj[l])
+	}
+	// M = (AᵀA)⁻¹Aᵀ, and the vector M·b.
+	var ata, inv, M mat.Dense
+	ata.Mul(A.T(), A)
+	if err := inv.Inverse(&ata); err != nil {
+		return 0, 0, nil, false
+	}
+	M.Mul(&inv, A.T())
+	var v mat.VecDense
+	v.MulVec(&M, b)
+	m = make(map[string][2]float64, len(leads))
+	for r, l := range leads {
+		m[l] = [2]float64{M.At(0, r), M.At(1, r)}
+	}
+	return v.AtVec(0), v.AtVec(1), m, true
 }
 
 // lsqAngleSD propagates independent per-lead errors sd (in the units of

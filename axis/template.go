@@ -111,17 +111,10 @@ func segment(dst []float64, y []float64, s *record.Signal, t float64, w window) 
 	}
 	miss := 0
 	q := int(0.080 * tplHz)
+	ys := record.Signal{StartS: s.StartS, RateHz: s.RateHz, MV: y}
 	for k := range w.n {
 		tk := t + float64(k-w.r0)/tplHz
-		x := (tk - s.StartS) * s.RateHz
-		i := int(math.Floor(x))
-		v := math.NaN()
-		if i >= 0 && i+1 < len(y) {
-			f := x - float64(i)
-			v = y[i]*(1-f) + y[i+1]*f
-		} else if i == len(y)-1 && x == float64(i) {
-			v = y[i]
-		}
+		v := ys.AtIndex((tk - s.StartS) * s.RateHz)
 		if math.IsNaN(v) {
 			miss++
 			if k >= w.r0-q && k <= w.r0+q {

@@ -1,6 +1,10 @@
 package calib
 
-import "math"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
 
 // obs says that at work pixel (x, y) the paper coordinate along one axis
 // (0 = X, 1 = Y) is val mm.
@@ -74,6 +78,22 @@ func fitInverse(os []obs, affine bool) (mat3, bool) {
 	if nx < 3 || ny < 3 || nx+ny < n+1 {
 		return mat3{}, false
 	}
+	return fitHomography(os, affine)
+}
+
+// fitHomography is calib's one homography fit: G from observations of
+// one paper coordinate each (val along axis at (x, y), weight w), by
+// weighted linear least squares (gonum's QR) on coordinates centred and
+// scaled to unit mean spread. Four corners with both coordinates each
+// determine it exactly (quadToSquare). affine drops the perspective terms.
+func fitHomography(os []obs, affine bool) (mat3, bool) {
+	n := 8
+	if affine {
+		n = 6
+	}
+	if len(os) < n {
+		return mat3{}, false
+	}
 	var mx, my, sw float64
 	var mv [2]float64
 	var cv [2]float64
@@ -83,6 +103,9 @@ func fitInverse(os []obs, affine bool) (mat3, bool) {
 		sw += o.w
 		mv[o.axis] += o.w * o.val
 		cv[o.axis] += o.w
+	}
+	if sw <= 0 || cv[0] <= 0 || cv[1] <= 0 {
+		return mat3{}, false
 	}
 	mx, my = mx/sw, my/sw
 	mv[0], mv[1] = mv[0]/cv[0], mv[1]/cv[1]
@@ -95,35 +118,53 @@ func fitInverse(os []obs, affine bool) (mat3, bool) {
 	if sp == 0 || sP == 0 {
 		return mat3{}, false
 	}
-	var A [8][8]float64
-	var rhs [8]float64
-	for _, o := range os {
+	// One row per observation, scaled by √w: the weighted problem as an
+	// ordinary one.
+	A := mat.NewDense(len(os), n, nil)
+	b := mat.NewVecDense(len(os), nil)
+	for r, o := range os {
 		x, y := (o.x-mx)/sp, (o.y-my)/sp
 		v := (o.val - mv[o.axis]) / sP
+		sq := math.Sqrt(o.w)
 		var row [8]float64
 		if o.axis == 0 {
 			row = [8]float64{x, y, 1, 0, 0, 0, -v * x, -v * y}
 		} else {
 			row = [8]float64{0, 0, 0, x, y, 1, -v * x, -v * y}
 		}
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				A[i][j] += o.w * row[i] * row[j]
-			}
-			rhs[i] += o.w * row[i] * v
+		for j := 0; j < n; j++ {
+			A.Set(r, j, sq*row[j])
 		}
+		b.SetVec(r, sq*v)
 	}
-	sol, ok := solve(A, rhs, n)
+	sol, ok := leastSquares(A, b)
 	if !ok {
 		return mat3{}, false
 	}
-	gn := mat3{sol[0], sol[1], sol[2], sol[3], sol[4], sol[5], sol[6], sol[7], 1}
-	if affine {
-		gn[6], gn[7] = 0, 0
+	var gn mat3
+	for j := 0; j < n; j++ {
+		gn[j] = sol.AtVec(j)
 	}
+	gn[8] = 1
 	tin := mat3{1 / sp, 0, -mx / sp, 0, 1 / sp, -my / sp, 0, 0, 1}
 	tout := mat3{sP, 0, mv[0], 0, sP, mv[1], 0, 0, 1}
 	return tout.mul(gn).mul(tin), true
+}
+
+// leastSquares solves min |A·x − b| (gonum's QR; A square is solved
+// exactly, by LU); ok is false when A is singular or near it (gonum's
+// Condition error, a condition number over mat.ConditionTolerance).
+func leastSquares(A *mat.Dense, b *mat.VecDense) (*mat.VecDense, bool) {
+	var x mat.VecDense
+	if err := x.SolveVec(A, b); err != nil {
+		return nil, false
+	}
+	for i := 0; i < x.Len(); i++ {
+		if v := x.AtVec(i); math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, false
+		}
+	}
+	return &x, true
 }
 
 // obsResidual is |G(x, y) − val| along the observation's axis, in mm.
@@ -133,37 +174,4 @@ func obsResidual(g mat3, o obs) float64 {
 		return math.Abs(X - o.val)
 	}
 	return math.Abs(Y - o.val)
-}
-
-// solve does Gaussian elimination with partial pivoting on the n×n head.
-func solve(A [8][8]float64, b [8]float64, n int) ([8]float64, bool) {
-	for col := 0; col < n; col++ {
-		p := col
-		for r := col + 1; r < n; r++ {
-			if math.Abs(A[r][col]) > math.Abs(A[p][col]) {
-				p = r
-			}
-		}
-		if math.Abs(A[p][col]) < 1e-12 {
-			return b, false
-		}
-		A[p], A[col] = A[col], A[p]
-		b[p], b[col] = b[col], b[p]
-		for r := col + 1; r < n; r++ {
-			f := A[r][col] / A[col][col]
-			for k := col; k < n; k++ {
-				A[r][k] -= f * A[col][k]
-			}
-			b[r] -= f * b[col]
-		}
-	}
-	var x [8]float64
-	for r := n - 1; r >= 0; r-- {
-		s := b[r]
-		for k := r + 1; k < n; k++ {
-			s -= A[r][k] * x[k]
-		}
-		x[r] = s / A[r][r]
-	}
-	return x, true
 }

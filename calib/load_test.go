@@ -102,6 +102,9 @@ func TestDecodeFormats(t *testing.T) {
 	}
 }
 
+// cutScan drops the last third of a JPEG, end marker included.
+func cutScan(jpg []byte) []byte { return jpg[:len(jpg)*2/3] }
+
 // Exif orientation 6 means the stored picture must be turned 90°
 // clockwise to be shown upright; 3 means 180° (Exif 2.3, tag 274).
 func TestJPEGExifOrientation(t *testing.T) {
@@ -317,6 +320,8 @@ func TestDecodeBadInput(t *testing.T) {
 		{"truncated png", good[:len(good)/2], ErrFormat},
 		{"random bytes", noise, ErrFormat},
 		{"truncated jpeg", encJPEG(t, tinyImage(12, 8))[:40], ErrFormat},
+		// Cut inside the scan (a decoder may fill the rest with grey).
+		{"jpeg cut in its scan", cutScan(encJPEG(t, tinyImage(120, 80))), ErrFormat},
 		{"truncated tiff", encTIFF(t, tinyImage(12, 8))[:20], ErrFormat},
 		{"tiff loop", []byte("II*\x00\x08\x00\x00\x00\x00\x00\x08\x00\x00\x00"), ErrFormat},
 		{"pdf junk", []byte("%PDF-1.4 junk junk junk"), ErrFormat},

@@ -7,27 +7,17 @@ import (
 )
 
 // quadToSquare is the homography taking the corners q (image px) to the
-// unit square's (0,0), (1,0), (1,1), (0,1).
+// unit square's (0,0), (1,0), (1,1), (0,1): fitHomography on the eight
+// coordinates the corners fix.
 func quadToSquare(q [4][2]float64) (mat3, bool) {
-	// The square to the quadrilateral in closed form, then inverted.
-	x0, y0 := q[0][0], q[0][1]
-	x1, y1 := q[1][0], q[1][1]
-	x2, y2 := q[2][0], q[2][1]
-	x3, y3 := q[3][0], q[3][1]
-	dx1, dx2, dx3 := x1-x2, x3-x2, x0-x1+x2-x3
-	dy1, dy2, dy3 := y1-y2, y3-y2, y0-y1+y2-y3
-	den := dx1*dy2 - dx2*dy1
-	if den == 0 {
-		return mat3{}, false
+	sq := [4][2]float64{{0, 0}, {1, 0}, {1, 1}, {0, 1}}
+	os := make([]obs, 0, 8)
+	for i, c := range q {
+		for ax := 0; ax < 2; ax++ {
+			os = append(os, obs{x: c[0], y: c[1], val: sq[i][ax], axis: ax, w: 1})
+		}
 	}
-	g := (dx3*dy2 - dx2*dy3) / den
-	hh := (dx1*dy3 - dx3*dy1) / den
-	S := mat3{
-		x1 - x0 + g*x1, x3 - x0 + hh*x3, x0,
-		y1 - y0 + g*y1, y3 - y0 + hh*y3, y0,
-		g, hh, 1,
-	}
-	return S.inv()
+	return fitHomography(os, false)
 }
 
 // fromSheet calibrates a photographed sheet with no grid from its outline

@@ -2,8 +2,12 @@ package digitize
 
 import (
 	"image"
+	"image/color"
 	"math"
+	"runtime"
 	"sort"
+
+	"gocv.io/x/gocv"
 )
 
 // percentileHist returns the smallest value v with at least q·n samples
@@ -106,43 +110,40 @@ func segments(a, b, seg int) []int {
 	return out
 }
 
-// boxBlur returns a (2r+1)² box blur of g (edges clamped).
+// boxBlur returns a (2r+1)² box blur of g (edges clamped, rounded to
+// the nearest level): OpenCV's blur of the map padded by r replicated
+// pixels (gocv's Blur reflects at the border). On one core (taskset -c 0
+// go test -bench BoxBlur -run '^$' ./digitize/, a 3508×2480 map, r = 1)
+// it takes 17 ms where the running sums written out by hand
+// (boxBlurSums in the tests, the same output) took 49 ms.
 func boxBlur(g *gray, r int) *gray {
-	w, h := g.w, g.h
-	tmp := make([]uint16, w*h)
-	n := 2*r + 1
-	for y := 0; y < h; y++ {
-		row := g.pix[y*w : (y+1)*w]
-		o := tmp[y*w : (y+1)*w]
-		s := 0
-		for k := -r; k <= r; k++ {
-			s += int(row[clampI(k, 0, w-1)])
-		}
-		for x := 0; x < w; x++ {
-			o[x] = uint16(s)
-			s += int(row[clampI(x+r+1, 0, w-1)]) - int(row[clampI(x-r, 0, w-1)])
-		}
+	out := &gray{w: g.w, h: g.h, pix: make([]uint8, g.w*g.h)}
+	if len(out.pix) == 0 || len(g.pix) != len(out.pix) {
+		return out
 	}
-	out := &gray{w: w, h: h, pix: make([]uint8, w*h)}
-	acc := make([]int, w)
-	for k := -r; k <= r; k++ {
-		yy := clampI(k, 0, h-1)
-		for x := 0; x < w; x++ {
-			acc[x] += int(tmp[yy*w+x])
-		}
+	src, err := gocv.NewMatFromBytes(g.h, g.w, gocv.MatTypeCV8UC1, g.pix)
+	if err != nil {
+		return out // only for an empty map, excluded above
 	}
-	d := n * n
-	for y := 0; y < h; y++ {
-		o := out.pix[y*w : (y+1)*w]
-		for x := 0; x < w; x++ {
-			o[x] = uint8((acc[x] + d/2) / d)
-		}
-		ya, yb := clampI(y+r+1, 0, h-1), clampI(y-r, 0, h-1)
-		ra, rb := tmp[ya*w:(ya+1)*w], tmp[yb*w:(yb+1)*w]
-		for x := 0; x < w; x++ {
-			acc[x] += int(ra[x]) - int(rb[x])
-		}
+	defer src.Close()
+	pad := gocv.NewMat()
+	defer pad.Close()
+	gocv.CopyMakeBorder(src, &pad, r, r, r, r, gocv.BorderReplicate, color.RGBA{})
+	bl := gocv.NewMat()
+	defer bl.Close()
+	gocv.Blur(pad, &bl, image.Pt(2*r+1, 2*r+1))
+	in := bl.Region(image.Rect(r, r, r+g.w, r+g.h))
+	defer in.Close()
+	dst, err := gocv.NewMatFromBytes(g.h, g.w, gocv.MatTypeCV8UC1, out.pix)
+	if err != nil {
+		return out
 	}
+	defer dst.Close()
+	in.CopyTo(&dst)
+	if v, err := dst.DataPtrUint8(); err == nil && len(v) == len(out.pix) && &v[0] != &out.pix[0] {
+		copy(out.pix, v) // OpenCV chose its own buffer after all
+	}
+	runtime.KeepAlive(g.pix)
 	return out
 }
 

@@ -4,6 +4,8 @@ import (
 	"math"
 	"sort"
 
+	"gonum.org/v1/gonum/mat"
+
 	"tracelift/record"
 )
 
@@ -112,35 +114,51 @@ func (ls *limbSet) find(name string) int {
 	return -1
 }
 
-// fit2 solves the least-squares heart-vector (I, II) from the leads in use
-// at sample i; ok is false when they do not span two dimensions.
-func (ls *limbSet) fit2(use []int, i int) (a, b float64, ok bool) {
-	var s11, s12, s22, r1, r2 float64
-	for _, k := range use {
+// fit2 is the least-squares heart-vector (I, II) from the leads in use,
+// as a function of the sample: the 2×n map (AᵀA)⁻¹Aᵀ of the leads'
+// coefficients is the same at every sample, so gonum computes it once and
+// each sample is a weighted sum. ok is false when the leads do not span
+// two dimensions.
+func (ls *limbSet) fit2(use []int) (at func(i int) (a, b float64), ok bool) {
+	if len(use) < 2 {
+		return nil, false
+	}
+	A := mat.NewDense(len(use), 2, nil)
+	for r, k := range use {
 		c := limbCoef[ls.names[k]]
-		y := ls.y[k][i]
-		s11 += c[0] * c[0]
-		s12 += c[0] * c[1]
-		s22 += c[1] * c[1]
-		r1 += c[0] * y
-		r2 += c[1] * y
+		A.Set(r, 0, c[0])
+		A.Set(r, 1, c[1])
 	}
-	det := s11*s22 - s12*s12
-	if math.Abs(det) < 1e-9 {
-		return 0, 0, false
+	var ata, inv, M mat.Dense
+	ata.Mul(A.T(), A)
+	if err := inv.Inverse(&ata); err != nil {
+		return nil, false
 	}
-	return (s22*r1 - s12*r2) / det, (s11*r2 - s12*r1) / det, true
+	M.Mul(&inv, A.T())
+	wa, wb := mat.Row(nil, 0, &M), mat.Row(nil, 1, &M)
+	ys := make([][]float64, len(use))
+	for r, k := range use {
+		ys[r] = ls.y[k]
+	}
+	return func(i int) (a, b float64) {
+		for r, y := range ys {
+			a += wa[r] * y[i]
+			b += wb[r] * y[i]
+		}
+		return a, b
+	}, true
 }
 
 // residualEnergy is Σ over samples and leads in use of the squared
 // residual of their own least-squares fit.
 func (ls *limbSet) residualEnergy(use []int) float64 {
+	fit, ok := ls.fit2(use)
+	if !ok {
+		return math.NaN()
+	}
 	e := 0.0
 	for i := 0; i < ls.samples(); i++ {
-		a, b, ok := ls.fit2(use, i)
-		if !ok {
-			return math.NaN()
-		}
+		a, b := fit(i)
 		for _, k := range use {
 			c := limbCoef[ls.names[k]]
 			d := ls.y[k][i] - c[0]*a - c[1]*b
@@ -163,12 +181,13 @@ func (ls *limbSet) predictRMS(k int) float64 {
 		return math.NaN()
 	}
 	c := limbCoef[ls.names[k]]
+	fit, ok := ls.fit2(use)
+	if !ok {
+		return math.NaN()
+	}
 	e := 0.0
 	for i := 0; i < ls.samples(); i++ {
-		a, b, ok := ls.fit2(use, i)
-		if !ok {
-			return math.NaN()
-		}
+		a, b := fit(i)
 		d := ls.y[k][i] - c[0]*a - c[1]*b
 		e += d * d
 	}
@@ -308,17 +327,19 @@ func reconcile(rec *record.Record, wins []window) *record.Record {
 		for k, n := range ls.names {
 			sigs[k] = out.Lead(n)
 		}
+		fit, fine := ls.fit2(use)
+		if !fine {
+			continue
+		}
 		m := 0
 		for i, ok := range ls.mask {
 			if !ok {
 				continue
 			}
-			a, b, fine := ls.fit2(use, m)
-			if fine {
-				for k, n := range ls.names {
-					c := limbCoef[n]
-					sigs[k].MV[ls.start[k]+i] = c[0]*a + c[1]*b + ls.mean[k]
-				}
+			a, b := fit(m)
+			for k, n := range ls.names {
+				c := limbCoef[n]
+				sigs[k].MV[ls.start[k]+i] = c[0]*a + c[1]*b + ls.mean[k]
 			}
 			m++
 		}

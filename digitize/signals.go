@@ -71,16 +71,18 @@ func Signals(cal *calib.Result, panels []Panel, traces []Trace, rateHz float64) 
 		l.t0 = math.Min(l.t0, p.T0S)
 		l.t1 = math.Max(l.t1, p.T1S)
 		l.parts = append(l.parts, part{t0: p.T0S, t1: p.T1S, rhythm: p.Rhythm})
-		// Keep the trace's samples until the lead's window is known.
-		ts := make([]float64, len(tr.Y))
-		mv := make([]float64, len(tr.Y))
+		// The trace as a signal: one sample per column, column x at
+		// t = p.T0S + (x + 0.5 − p.Box[0]) / pxPerS.
+		sig := record.Signal{
+			RateHz: pxPerS,
+			StartS: p.T0S + (float64(tr.X0)+0.5-p.Box[0])/pxPerS,
+			MV:     make([]float64, len(tr.Y)),
+		}
 		for i, y := range tr.Y {
-			x := float64(tr.X0 + i)
-			ts[i] = p.T0S + (x+0.5-p.Box[0])/pxPerS
-			mv[i] = sign * (p.BaselineY - y) / pxPerMV
+			sig.MV[i] = sign * (p.BaselineY - y) / pxPerMV
 		}
 		pp := &l.parts[len(l.parts)-1]
-		pp.mv = resampleOnto(ts, mv, p.T0S, p.T1S, rateHz)
+		pp.mv = resampleOnto(&sig, p.T0S, p.T1S, rateHz)
 	}
 	for _, name := range order {
 		l := leads[name]
@@ -139,33 +141,30 @@ func Signals(cal *calib.Result, panels []Panel, traces []Trace, rateHz float64) 
 	return rec
 }
 
-// resampleOnto samples the polyline (ts, v) at t0 + k/rate for k in
-// [0, round((t1−t0)·rate)) by linear interpolation; NaN outside or next
-// to a NaN.
-func resampleOnto(ts, v []float64, t0, t1, rate float64) []float64 {
+// resampleOnto samples the trace s at t0 + k/rate for k in
+// [0, round((t1−t0)·rate)) by record's linear interpolation
+// (Signal.AtIndex), NaN next to a NaN; within half a column of either end
+// the end's value holds, and beyond that it is NaN.
+func resampleOnto(s *record.Signal, t0, t1, rate float64) []float64 {
 	n := int(math.Round((t1 - t0) * rate))
 	if n < 0 {
 		n = 0
 	}
 	out := make([]float64, n)
-	j := 0
+	last := float64(len(s.MV) - 1)
 	for k := range out {
-		t := t0 + float64(k)/rate
-		for j < len(ts)-2 && ts[j+1] < t {
-			j++
-		}
+		x := (t0 + float64(k)/rate - s.StartS) * s.RateHz
 		switch {
-		case len(ts) == 0:
+		case len(s.MV) == 0:
 			out[k] = math.NaN()
-		case len(ts) == 1 || t < ts[0]-0.5*(ts[min(1, len(ts)-1)]-ts[0]) || t > ts[len(ts)-1]+0.5*(ts[len(ts)-1]-ts[max(0, len(ts)-2)]):
+		case len(s.MV) == 1 || x < -0.5 || x > last+0.5:
 			out[k] = math.NaN()
-		case t <= ts[0]:
-			out[k] = v[0]
-		case t >= ts[len(ts)-1]:
-			out[k] = v[len(ts)-1]
+		case x <= 0:
+			out[k] = s.MV[0]
+		case x >= last:
+			out[k] = s.MV[len(s.MV)-1]
 		default:
-			f := (t - ts[j]) / (ts[j+1] - ts[j])
-			out[k] = v[j]*(1-f) + v[j+1]*f
+			out[k] = s.AtIndex(x)
 		}
 	}
 	return out

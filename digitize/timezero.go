@@ -1,6 +1,10 @@
 package digitize
 
-import "math"
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
 
 // timeBase fits x0(y) = a + b·(y − ym) and the span L to the rows' marks
 // and returns each row's first-sample position and L. Rows whose marks
@@ -67,25 +71,19 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L, 
 			continue
 		}
 		// Least squares over the unknowns a, L, b on the kept marks:
-		// start_i = a + b·d_i, end_i = a + L + b·d_i.
-		var A [3][3]float64
-		var v [3]float64
-		add := func(row [3]float64, obs float64) {
-			for p := 0; p < 3; p++ {
-				for q := 0; q < 3; q++ {
-					A[p][q] += row[p] * row[q]
-				}
-				v[p] += row[p] * obs
-			}
-		}
+		// start_i = a + b·d_i, end_i = a + L + b·d_i (gonum's QR).
+		var rowsA [][3]float64
+		var obsV []float64
 		nr := 0 // rows with a kept mark
 		for i, m := range marks {
 			d := rows[i].base - ym
 			if useS[i] {
-				add([3]float64{1, 0, d}, m.start)
+				rowsA = append(rowsA, [3]float64{1, 0, d})
+				obsV = append(obsV, m.start)
 			}
 			if useE[i] {
-				add([3]float64{1, 1, d}, m.end)
+				rowsA = append(rowsA, [3]float64{1, 1, d})
+				obsV = append(obsV, m.end)
 			}
 			if useS[i] || useE[i] {
 				nr++
@@ -94,10 +92,11 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L, 
 		fitB := nr >= 3
 		fitted = fitB
 		if !fitB {
-			// Hold b at zero: a weak prior row.
-			A[2][2] += 1e6
+			// Hold b at zero: a weak prior row, b·1000 = 0.
+			rowsA = append(rowsA, [3]float64{0, 0, 1000})
+			obsV = append(obsV, 0)
 		}
-		if sol, good := solve3(A, v); good {
+		if sol, good := lstsq3(rowsA, obsV); good {
 			a, L, b = sol[0], sol[1], sol[2]
 			if lim := math.Tan(1.5 * math.Pi / 180); math.Abs(b) > lim {
 				b = math.Copysign(lim, b)
@@ -130,37 +129,22 @@ func timeBase(rows []rowInfo, marks []rowMarks, tol float64) (x0s []float64, L, 
 	return x0s, L, b, fitted, L > 0
 }
 
-// solve3 solves A·x = v by Gaussian elimination with partial pivoting.
-func solve3(A [3][3]float64, v [3]float64) ([3]float64, bool) {
-	for c := 0; c < 3; c++ {
-		p := c
-		for r := c + 1; r < 3; r++ {
-			if math.Abs(A[r][c]) > math.Abs(A[p][c]) {
-				p = r
-			}
-		}
-		if math.Abs(A[p][c]) < 1e-12 {
-			return v, false
-		}
-		A[c], A[p] = A[p], A[c]
-		v[c], v[p] = v[p], v[c]
-		for r := c + 1; r < 3; r++ {
-			f := A[r][c] / A[c][c]
-			for q := c; q < 3; q++ {
-				A[r][q] -= f * A[c][q]
-			}
-			v[r] -= f * v[c]
-		}
+// lstsq3 solves the least-squares problem rows·x ≈ obs for three
+// unknowns (gonum's QR); ok is false with fewer than three rows or when
+// they do not fix the three.
+func lstsq3(rows [][3]float64, obs []float64) ([3]float64, bool) {
+	if len(rows) < 3 {
+		return [3]float64{}, false
 	}
-	var x [3]float64
-	for c := 2; c >= 0; c-- {
-		s := v[c]
-		for q := c + 1; q < 3; q++ {
-			s -= A[c][q] * x[q]
-		}
-		x[c] = s / A[c][c]
+	A := mat.NewDense(len(rows), 3, nil)
+	for i, r := range rows {
+		A.SetRow(i, r[:])
 	}
-	return x, true
+	var x mat.VecDense
+	if err := x.SolveVec(A, mat.NewVecDense(len(obs), obs)); err != nil {
+		return [3]float64{}, false
+	}
+	return [3]float64{x.AtVec(0), x.AtVec(1), x.AtVec(2)}, true
 }
 
 // How time 0 was found on a page.

@@ -8,7 +8,10 @@ import (
 
 // blitScaled draws src into dst with nearest-neighbour sampling: dst pixel
 // (x, y) shows src pixel (offX + x/k, offY + y/k). Rows are walked through
-// Pix directly.
+// Pix directly. Kept by hand: on one core (taskset -c 0 go test -bench
+// ViewBlit -run '^$' ./gui/, a 300-dpi page into a 1600×1000 view at half
+// size) it takes 6.3-7.4 ms a redraw, where imaging's Crop and Resize
+// (nearest neighbour) take 37 ms and two new images.
 func blitScaled(dst, src *image.NRGBA, offX, offY, k float64) {
 	w, h := dst.Rect.Dx(), dst.Rect.Dy()
 	sw, sh := src.Rect.Dx(), src.Rect.Dy()

@@ -88,16 +88,7 @@ func Compare(ref, est *Signal, t0, t1 float64) Accuracy {
 }
 
 func interp(s *Signal, t float64) float64 {
-	x := (t - s.StartS) * s.RateHz
-	if x < 0 || x > float64(len(s.MV)-1) {
-		return math.NaN()
-	}
-	j := int(x)
-	if j >= len(s.MV)-1 {
-		return s.MV[len(s.MV)-1]
-	}
-	f := x - float64(j)
-	return s.MV[j]*(1-f) + s.MV[j+1]*f
+	return s.AtIndex((t - s.StartS) * s.RateHz)
 }
 
 func score(r, e []float64) Accuracy {

@@ -84,3 +84,22 @@ func TestCompareStrictCountsBlanks(t *testing.T) {
 		t.Fatalf("shift %.4f s, SNR %.1f dB", a.ShiftS, a.SNRdB)
 	}
 }
+
+// AtIndex is linear interpolation between neighbouring samples (the
+// textbook rule, common practice): NaN outside the samples and next to a
+// gap, the last sample itself at its own index.
+func TestAtIndex(t *testing.T) {
+	s := &Signal{RateHz: 500, MV: []float64{0, 1, 4, math.NaN(), 2}}
+	for _, c := range []struct{ x, want float64 }{
+		{0, 0}, {0.5, 0.5}, {1.25, 1.75}, {2, 4}, {4, 2},
+	} {
+		if got := s.AtIndex(c.x); math.Abs(got-c.want) > 1e-12 {
+			t.Errorf("AtIndex(%g) = %g, want %g", c.x, got, c.want)
+		}
+	}
+	for _, x := range []float64{-0.01, 2.5, 3, 3.5, 4.01, math.NaN()} {
+		if got := s.AtIndex(x); !math.IsNaN(got) {
+			t.Errorf("AtIndex(%g) = %g, want NaN", x, got)
+		}
+	}
+}

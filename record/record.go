@@ -245,7 +245,8 @@ func (r *Record) Validate() error {
 }
 
 // Resample returns the signal resampled to rate hz by linear
-// interpolation on the same clock; gaps stay gaps.
+// interpolation on the same clock (AtIndex); gaps stay gaps, and past the
+// last sample (a finer rate's last half period) its value holds.
 func (s *Signal) Resample(hz float64) Signal {
 	if hz == s.RateHz || len(s.MV) == 0 {
 		return s.Clone()
@@ -255,16 +256,30 @@ func (s *Signal) Resample(hz float64) Signal {
 	out := Signal{Lead: s.Lead, RateHz: hz, StartS: s.StartS, MV: make([]float64, n)}
 	for i := range out.MV {
 		x := float64(i) * s.RateHz / hz
-		j := int(x)
-		f := x - float64(j)
-		switch {
-		case j >= len(s.MV)-1:
+		if x > float64(len(s.MV)-1) {
 			out.MV[i] = s.MV[len(s.MV)-1]
-		default:
-			out.MV[i] = s.MV[j]*(1-f) + s.MV[j+1]*f
+			continue
 		}
+		out.MV[i] = s.AtIndex(x)
 	}
 	return out
+}
+
+// AtIndex is the signal at the fractional sample index x (x = (t −
+// StartS)·RateHz) by linear interpolation between the two neighbouring
+// samples: the one resampling rule of the project's signals (Resample,
+// the accuracy scores, digitize's traces onto the record's grid, the
+// median beat's template). NaN outside [0, len−1] and next to a gap.
+func (s *Signal) AtIndex(x float64) float64 {
+	if !(x >= 0) || x > float64(len(s.MV)-1) {
+		return math.NaN()
+	}
+	j := int(x)
+	if j >= len(s.MV)-1 {
+		return s.MV[len(s.MV)-1]
+	}
+	f := x - float64(j)
+	return s.MV[j]*(1-f) + s.MV[j+1]*f
 }
 
 // Window cuts durS seconds of the named leads out of r, starting offS

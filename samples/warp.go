@@ -5,6 +5,8 @@ import (
 	"image"
 	"image/color"
 	"math"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 // jacobianOf returns the images of the unit x and y steps at (x, y)
@@ -62,39 +64,25 @@ func Invert(m [9]float64) ([9]float64, bool) {
 	return r, true
 }
 
-// quadHomography solves for the homography taking src[k] to dst[k].
+// quadHomography solves for the homography taking src[k] to dst[k]
+// (h8 = 1; the eight linear equations by gonum's LU).
 func quadHomography(src, dst [4][2]float64) ([9]float64, error) {
-	var a [8][9]float64
+	A := mat.NewDense(8, 8, nil)
+	b := mat.NewVecDense(8, nil)
 	for k := 0; k < 4; k++ {
 		x, y, u, v := src[k][0], src[k][1], dst[k][0], dst[k][1]
-		a[2*k] = [9]float64{x, y, 1, 0, 0, 0, -u * x, -u * y, u}
-		a[2*k+1] = [9]float64{0, 0, 0, x, y, 1, -v * x, -v * y, v}
+		A.SetRow(2*k, []float64{x, y, 1, 0, 0, 0, -u * x, -u * y})
+		A.SetRow(2*k+1, []float64{0, 0, 0, x, y, 1, -v * x, -v * y})
+		b.SetVec(2*k, u)
+		b.SetVec(2*k+1, v)
 	}
-	// Gaussian elimination with partial pivoting.
-	for c := 0; c < 8; c++ {
-		p := c
-		for r := c + 1; r < 8; r++ {
-			if math.Abs(a[r][c]) > math.Abs(a[p][c]) {
-				p = r
-			}
-		}
-		if math.Abs(a[p][c]) < 1e-12 {
-			return Identity, errors.New("degenerate page corners")
-		}
-		a[c], a[p] = a[p], a[c]
-		for r := 0; r < 8; r++ {
-			if r == c {
-				continue
-			}
-			f := a[r][c] / a[c][c]
-			for k := c; k < 9; k++ {
-				a[r][k] -= f * a[c][k]
-			}
-		}
+	var sol mat.VecDense
+	if err := sol.SolveVec(A, b); err != nil {
+		return Identity, errors.New("degenerate page corners")
 	}
 	var h [9]float64
 	for i := 0; i < 8; i++ {
-		h[i] = a[i][8] / a[i][i]
+		h[i] = sol.AtVec(i)
 	}
 	h[8] = 1
 	return h, nil
