@@ -142,30 +142,12 @@ func (r *Result) Apply(a Adjustment) bool {
 func (r *Result) turnHalf() {
 	var w, h float64
 	if r.Rectified != nil {
-		b := r.Rectified.Bounds()
-		w, h = float64(b.Dx()), float64(b.Dy())
-		out := image.NewNRGBA(image.Rect(0, 0, b.Dx(), b.Dy()))
-		for y := 0; y < b.Dy(); y++ {
-			src := r.Rectified.Pix[y*r.Rectified.Stride : y*r.Rectified.Stride+4*b.Dx()]
-			dst := out.Pix[(b.Dy()-1-y)*out.Stride:]
-			for x := 0; x < b.Dx(); x++ {
-				copy(dst[4*(b.Dx()-1-x):4*(b.Dx()-x)], src[4*x:4*x+4])
-			}
-		}
-		r.Rectified = out
+		w, h = float64(r.Rectified.Rect.Dx()), float64(r.Rectified.Rect.Dy())
+		r.Rectified = turnNRGBA(r.Rectified, 2)
 	}
 	if r.Ink != nil {
-		b := r.Ink.Bounds()
-		w, h = float64(b.Dx()), float64(b.Dy())
-		out := image.NewGray(image.Rect(0, 0, b.Dx(), b.Dy()))
-		for y := 0; y < b.Dy(); y++ {
-			src := r.Ink.Pix[y*r.Ink.Stride : y*r.Ink.Stride+b.Dx()]
-			dst := out.Pix[(b.Dy()-1-y)*out.Stride:]
-			for x := 0; x < b.Dx(); x++ {
-				dst[b.Dx()-1-x] = src[x]
-			}
-		}
-		r.Ink = out
+		w, h = float64(r.Ink.Rect.Dx()), float64(r.Ink.Rect.Dy())
+		r.Ink = turnGray(r.Ink, 2)
 	}
 	r.Turned = (r.Turned + 2) % 4
 	// New rectified (x', y') is old (w − x', h − y'): RectToImage·F with
