@@ -104,6 +104,47 @@ func TestPulseRaggedUprightSides(t *testing.T) {
 	}
 }
 
+// Where a tracer knows a pulse should stand (a row's first stretch), a
+// pulse is found whose side is broken over 1.5 mm (a fax that lost a
+// stretch of a faint line), whose top bar is broken over a fifth of its
+// length, and whose falling side runs on down to a trace joined to it on
+// a baseline 0.8 mm lower than the pulse's own; the page-wide search,
+// which may not take letters or boxes for pulses, does not take it.
+func TestPulseAtRowStartBrokenAndJoined(t *testing.T) {
+	const s, th = 6.0, 1
+	g := image.NewGray(image.Rect(0, 0, 300, 160))
+	drawPulse(g, 100, 120, s, 0, th, 255)
+	set := func(x, y int, v uint8) { g.Pix[y*g.Stride+x] = v }
+	for y := 80; y < 89; y++ { // the rising side broken
+		set(100, y, 0)
+	}
+	for x := 110; x < 116; x++ { // the top bar broken
+		set(x, 120-60, 0)
+	}
+	for x := 131; x <= 150; x++ { // the trace leaves on a lower baseline
+		set(x, 120, 0)
+	}
+	for y := 120; y <= 125; y++ {
+		set(130, y, 255)
+	}
+	for x := 130; x <= 170; x++ {
+		set(x, 125, 255)
+	}
+	r := image.Rect(60, 40, 200, 140)
+	if ps := PulsesIn(g, r, s, 128); len(ps) != 0 {
+		t.Errorf("page-wide rules took it: %+v", ps)
+	}
+	ps := PulsesAtRowStart(g, r, s, 128)
+	if len(ps) != 1 {
+		t.Fatalf("%d pulses at the row start, want 1", len(ps))
+	}
+	// 10 mm tall at 10 mm/mV, 5 mm wide (Kligfield et al. 2007), to a
+	// pixel of the feet's difference.
+	if p := ps[0]; math.Abs(p.HeightMM-10) > 0.8 || math.Abs(p.WidthMM-5) > 0.3 {
+		t.Errorf("pulse %.2f × %.2f mm, want 10 × 5", p.HeightMM, p.WidthMM)
+	}
+}
+
 // The ink level that counts as a trace follows the traces' own strength:
 // half way to full strength when they reach it, half their level when a
 // pale pen never does, never under what grid lines leave.

@@ -39,18 +39,19 @@ func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float
 	// found in, so look from a pulse's width left of x0 too.
 	from := max(0, x0-int((0.3*speed+3)*pxPerMM))
 	lim := min(x1, x0+int((0.35*speed+6)*pxPerMM))
-	// calib's pulse detector (calib.PulsesIn) over the row's first
-	// stretch, on the tracer's map and then on calib's ink where blur and
-	// line removal broke the pulse's sides; a pulse stands on the
-	// baseline with nothing running along it between its sides
-	// (openFoot: not a lead's name printed on the baseline).
+	// calib's pulse detector where a pulse is expected
+	// (calib.PulsesAtRowStart) over the row's first stretch, on the
+	// tracer's map and then on calib's ink where blur and line removal
+	// broke the pulse's sides; a pulse stands on the baseline with
+	// nothing running along it between its sides (openFoot: not a lead's
+	// name printed on the baseline).
 	r := image.Rect(from, ya, lim, yb)
 	for _, pix := range [][]uint8{g.pix, g.raw} {
 		if pix == nil {
 			continue
 		}
 		im := &image.Gray{Pix: pix, Stride: g.w, Rect: image.Rect(0, 0, g.w, g.h)}
-		for _, p := range calib.PulsesIn(im, r, pxPerMM, on) {
+		for _, p := range calib.PulsesAtRowStart(im, r, pxPerMM, on) {
 			d := p.WidthMM / speed
 			rise, fall := int(p.Box[0]), int(p.Box[2])
 			if d < 0.08 || d > 0.3 || p.HeightMM*pxPerMM < tall || math.Abs(p.Box[3]-base) > 0.2*pitch ||
@@ -58,107 +59,6 @@ func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float
 				continue
 			}
 			return leadOut(g, x0, x1, fall, base, pitch, pxPerMM, ya, yb), fall
-		}
-	}
-	return strokePulseEnd(g, x0, x1, base, pitch, pxPerMM, speed, gain, on)
-}
-
-// strokePulseEnd is the older walk over the row's first stretch for
-// pulses calib's detector does not accept: faint or broken tops (a
-// thermal page's), sides crossed by removed grid lines (bridged up to
-// 3 px). On seed 1 of our bench it finds pulses calib's
-// detector misses (without it cases 44, 59 and 97 drop 11-16 dB).
-func strokePulseEnd(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float64, on uint8) (int, int) {
-	tall := 0.6 * gain * pxPerMM
-	ya, yb := max(0, int(base-0.9*pitch)), min(g.h, int(base+0.4*pitch))
-	// The pulse's flat top may sit outside the band the row's span was
-	// found in, so look from a pulse's width left of x0 too.
-	from := max(0, x0-int((0.3*speed+3)*pxPerMM))
-	lim := min(x1, x0+int((0.35*speed+6)*pxPerMM))
-	var strokes []int
-	for x := from; x < lim; x++ {
-		// Longest vertical stretch of ink, bridging gaps of up to 3 px
-		// (where a removed grid line crossed the stroke).
-		start, last, best := -1, -1, 0
-		for y := ya; y < yb; y++ {
-			if g.pix[y*g.w+x] < on {
-				continue
-			}
-			if start < 0 || y-last > 4 {
-				start = y
-			}
-			last = y
-			best = max(best, last-start+1)
-		}
-		// A stroke filling the whole band is a grid line left by line
-		// removal, not a pulse's edge.
-		if float64(best) >= tall && best < (yb-ya)*9/10 {
-			if n := len(strokes); n == 0 || x-strokes[n-1] > 2 {
-				strokes = append(strokes, x)
-			} else {
-				strokes[n-1] = x // keep the stroke's right edge
-			}
-		}
-	}
-	// A pulse is a box: between its rise and its fall the ink runs flat
-	// along the top, at least half a pulse's height above the baseline.
-	// Two strokes of a QRS complex the same distance apart have no such
-	// line between them. (The strokes' own tops say little: a pulse's
-	// sides may stand on grid lines.)
-	flatTop := func(a, b int) bool {
-		n := b - a - 3
-		if n <= 0 {
-			return false
-		}
-		slack := max(2, int(0.2*pxPerMM))
-		for y := ya; y <= int(base-0.5*tall); y++ {
-			inked := 0
-			for x := a + 2; x <= b-2; x++ {
-				for yy := max(0, y-slack); yy <= min(g.h-1, y+slack); yy++ {
-					if g.pix[yy*g.w+x] >= on {
-						inked++
-						break
-					}
-				}
-			}
-			if inked*10 >= n*7 {
-				return true
-			}
-		}
-		return false
-	}
-	for i := 0; i+1 < len(strokes); i++ {
-		d := float64(strokes[i+1]-strokes[i]) / (pxPerMM * speed)
-		if d >= 0.1 && d <= 0.3 && flatTop(strokes[i], strokes[i+1]) && openFoot(g, strokes[i], strokes[i+1], int(math.Round(base)), 1, on) {
-			// Skip the flat lead-out after the fall to the first gap.
-			x := strokes[i+1] + 1
-			for x < x1 && x < strokes[i+1]+int(4*pxPerMM) {
-				inked := false
-				for y := max(0, int(base-0.15*pitch)); y < min(g.h, int(base+0.15*pitch)); y++ {
-					if g.pix[y*g.w+x] >= 64 {
-						inked = true
-						break
-					}
-				}
-				if !inked {
-					break
-				}
-				x++
-			}
-			inkedAt := func(x int) bool {
-				for y := ya; y < yb; y++ {
-					if g.pix[y*g.w+x] >= 64 {
-						return true
-					}
-				}
-				return false
-			}
-			// Over the gap to the trace: the first of three inked columns
-			// in a row (a leftover grid line is narrower).
-			for x+2 < x1 && !(inkedAt(x) && inkedAt(x+1) && inkedAt(x+2)) {
-				x++
-			}
-			return max(x, x0), strokes[i+1]
 		}
 	}
 	return x0, -1
