@@ -1,7 +1,9 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"errors"
 	"image"
 	"image/png"
 	"os"
@@ -37,9 +39,11 @@ func TestWindowSmoke(t *testing.T) {
 	shot := filepath.Join(dir, "window.png")
 	ctx, cancel := context.WithTimeout(context.Background(), 120*time.Second)
 	defer cancel()
-	cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1400x900x24", bin, "--screenshot", shot, "--quit-after", "60s")
-	cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"))
-	out, err := cmd.CombinedOutput()
+	out, err := underDisplay(func() *exec.Cmd {
+		cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1400x900x24", bin, "--screenshot", shot, "--quit-after", "60s")
+		cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"))
+		return cmd
+	})
 	if ctx.Err() != nil {
 		t.Fatalf("the app did not quit in time\n%s", out)
 	}
@@ -152,7 +156,7 @@ exit 0
 	cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1366x768x24", "sh", script, bin, img, counts)
 	cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"))
 	out, err := cmd.CombinedOutput()
-	if err != nil {
+	if err != nil && !xvfbCleanupFailed(err, out) { // the script's counts are written either way
 		t.Fatalf("%v\n%s", err, out)
 	}
 	got, _ := os.ReadFile(counts)
@@ -191,9 +195,11 @@ func TestWindowCompare(t *testing.T) {
 	run := func(earlier, shot string) (int, string) {
 		ctx, cancel := context.WithTimeout(context.Background(), 120*time.Second)
 		defer cancel()
-		cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1366x768x24", bin, "--compare-with", earlier, "--screenshot", shot, "--quit-after", "60s")
-		cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"), "TRACELIFT_NO_VIEWER=1")
-		out, err := cmd.CombinedOutput()
+		out, err := underDisplay(func() *exec.Cmd {
+			cmd := exec.CommandContext(ctx, xvfb, "-a", "-s", "-screen 0 1366x768x24", bin, "--compare-with", earlier, "--screenshot", shot, "--quit-after", "60s")
+			cmd.Env = append(os.Environ(), "LANG=en_US.UTF-8", "HOME="+dir, "XDG_CONFIG_HOME="+filepath.Join(dir, "config"), "TRACELIFT_NO_VIEWER=1")
+			return cmd
+		})
 		if ctx.Err() != nil {
 			t.Fatalf("the app did not quit in time\n%s", out)
 		}
@@ -231,4 +237,24 @@ func TestWindowCompare(t *testing.T) {
 	if code, out := run(notes, filepath.Join(dir, "failed.png")); code != 3 {
 		t.Errorf("exit %d with a text file as the earlier tracing, want 3\n%s", code, out)
 	}
+}
+
+// underDisplay runs the command newCmd makes (the app under xvfb-run) and
+// returns its output, running it once more when xvfb-run itself failed
+// after the app ended (xvfbCleanupFailed), which loses the app's exit
+// status.
+func underDisplay(newCmd func() *exec.Cmd) ([]byte, error) {
+	out, err := newCmd().CombinedOutput()
+	if xvfbCleanupFailed(err, out) {
+		out, err = newCmd().CombinedOutput()
+	}
+	return out, err
+}
+
+// xvfbCleanupFailed reports that xvfb-run could not remove its temporary
+// directory once the program under it had ended: its own exit status 5,
+// seen now and then under load, which says nothing of the program.
+func xvfbCleanupFailed(err error, out []byte) bool {
+	var ee *exec.ExitError
+	return errors.As(err, &ee) && ee.ExitCode() == 5 && bytes.Contains(out, []byte("problem while cleaning up temporary directory"))
 }
