@@ -211,64 +211,50 @@ func (r *Result) straighten(shear, xc, yc float64) {
 }
 
 // warpGrayAffine resamples g through the new → old affine map m,
-// bilinearly (8-bit weights); outside the old image reads as 0 (paper).
-// Hand-written rather than OpenCV's warpAffine so that a straightened
-// ink map keeps the exact values the tracer was tuned on.
+// bilinearly; outside the old image reads as 0 (paper).
 func warpGrayAffine(g *image.Gray, m [9]float64) *image.Gray {
-	b := g.Bounds()
-	w, h := b.Dx(), b.Dy()
-	out := image.NewGray(image.Rect(0, 0, w, h))
-	st := g.Stride
-	parallelRows(h, func(y int) {
-		dst := out.Pix[y*out.Stride : y*out.Stride+w]
-		fy := float64(y) + 0.5
-		sx := m[0]*0.5 + m[1]*fy + m[2] - 0.5
-		sy := m[3]*0.5 + m[4]*fy + m[5] - 0.5
-		for x := range dst {
-			px, py := sx+m[0]*float64(x), sy+m[3]*float64(x)
-			x0, y0 := int(math.Floor(px)), int(math.Floor(py))
-			if x0 < 0 || y0 < 0 || x0+1 >= w || y0+1 >= h {
-				continue
-			}
-			wx := int((px - float64(x0)) * 256)
-			wy := int((py - float64(y0)) * 256)
-			i := y0*st + x0
-			top := int(g.Pix[i])*(256-wx) + int(g.Pix[i+1])*wx
-			bot := int(g.Pix[i+st])*(256-wx) + int(g.Pix[i+st+1])*wx
-			dst[x] = uint8((top*(256-wy) + bot*wy + 32768) >> 16)
-		}
-	})
-	return out
+	w, h := g.Rect.Dx(), g.Rect.Dy()
+	return &image.Gray{Pix: warpBilinear(g.Pix, g.Stride, w, h, 1, 0, m), Stride: w, Rect: image.Rect(0, 0, w, h)}
 }
 
 // warpNRGBA is warpGrayAffine for a colour page; outside reads as white.
 func warpNRGBA(g *image.NRGBA, m [9]float64) *image.NRGBA {
-	b := g.Bounds()
-	w, h := b.Dx(), b.Dy()
-	out := image.NewNRGBA(image.Rect(0, 0, w, h))
-	st := g.Stride
+	w, h := g.Rect.Dx(), g.Rect.Dy()
+	return &image.NRGBA{Pix: warpBilinear(g.Pix, g.Stride, w, h, 4, 255, m), Stride: 4 * w, Rect: image.Rect(0, 0, w, h)}
+}
+
+// warpBilinear resamples a w × h plane of bpp bytes a pixel through the
+// new → old affine map m, with 8-bit bilinear weights; pixels whose
+// source falls outside read as fill. Hand-written rather than OpenCV's
+// warpAffine so that a straightened page keeps the exact values the
+// tracer was tuned on.
+func warpBilinear(src []uint8, st, w, h, bpp int, fill uint8, m [9]float64) []uint8 {
+	ost := bpp * w
+	out := make([]uint8, ost*h)
 	parallelRows(h, func(y int) {
-		dst := out.Pix[y*out.Stride : y*out.Stride+4*w]
+		dst := out[y*ost : (y+1)*ost]
 		fy := float64(y) + 0.5
 		sx := m[0]*0.5 + m[1]*fy + m[2] - 0.5
 		sy := m[3]*0.5 + m[4]*fy + m[5] - 0.5
 		for x := 0; x < w; x++ {
-			d := dst[4*x : 4*x+4 : 4*x+4]
+			d := dst[bpp*x : bpp*x+bpp : bpp*x+bpp]
 			px, py := sx+m[0]*float64(x), sy+m[3]*float64(x)
 			x0, y0 := int(math.Floor(px)), int(math.Floor(py))
 			if x0 < 0 || y0 < 0 || x0+1 >= w || y0+1 >= h {
-				d[0], d[1], d[2], d[3] = 255, 255, 255, 255
+				for c := range d {
+					d[c] = fill
+				}
 				continue
 			}
 			wx := int((px - float64(x0)) * 256)
 			wy := int((py - float64(y0)) * 256)
 			ax, ay := 256-wx, 256-wy
-			i := y0*st + 4*x0
-			p0 := g.Pix[i : i+8 : i+8]
-			p1 := g.Pix[i+st : i+st+8 : i+st+8]
-			for c := 0; c < 4; c++ {
-				top := int(p0[c])*ax + int(p0[4+c])*wx
-				bot := int(p1[c])*ax + int(p1[4+c])*wx
+			i := y0*st + bpp*x0
+			p0 := src[i : i+2*bpp : i+2*bpp]
+			p1 := src[i+st : i+st+2*bpp : i+st+2*bpp]
+			for c := range d {
+				top := int(p0[c])*ax + int(p0[bpp+c])*wx
+				bot := int(p1[c])*ax + int(p1[bpp+c])*wx
 				d[c] = uint8((top*ay + bot*wy + 32768) >> 16)
 			}
 		}

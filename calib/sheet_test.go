@@ -45,7 +45,7 @@ func TestSheetPhotoWithPulses(t *testing.T) {
 		if err != nil {
 			t.Fatalf("seed %d: %v", seed, err)
 		}
-		tx, ty, trot := truthAt(p.Truth, res.ScaleAt[0], res.ScaleAt[1])
+		tx, ty, trot := p.Truth.ScalesAt(res.ScaleAt[0], res.ScaleAt[1])
 		if res.Source != "pulse" || math.Abs(res.PxPerMMX/tx-1) > 0.015 || math.Abs(res.PxPerMMY/ty-1) > 0.015 {
 			t.Errorf("seed %d: source %q px/mm %.3f×%.3f, truth %.3f×%.3f (%q)", seed, res.Source, res.PxPerMMX, res.PxPerMMY, tx, ty, res.Warnings)
 		}
@@ -67,7 +67,7 @@ func TestSheetPhotoPageOnly(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	tx, ty, _ := truthAt(p.Truth, res.ScaleAt[0], res.ScaleAt[1])
+	tx, ty, _ := p.Truth.ScalesAt(res.ScaleAt[0], res.ScaleAt[1])
 	if res.Source != "page" || math.Abs(res.PxPerMMX/tx-1) > 0.015 || math.Abs(res.PxPerMMY/ty-1) > 0.015 {
 		t.Errorf("source %q px/mm %.3f×%.3f, truth %.3f×%.3f", res.Source, res.PxPerMMX, res.PxPerMMY, tx, ty)
 	}

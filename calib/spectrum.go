@@ -111,12 +111,19 @@ func powerSpectrum(p []float32, w []float64, n int, buf []complex128) []float64 
 	}
 	fft(buf)
 	out := make([]float64, n/2+1)
-	var tot float64
 	for i := range out {
 		out[i] = real(buf[i])*real(buf[i]) + imag(buf[i])*imag(buf[i])
-		if i > 0 {
-			tot += out[i]
-		}
+	}
+	unitACPower(out)
+	return out
+}
+
+// unitACPower scales a power spectrum to unit total power over its AC
+// bins (all but bin 0) and clears bin 0.
+func unitACPower(out []float64) {
+	var tot float64
+	for _, v := range out[1:] {
+		tot += v
 	}
 	if tot > 0 {
 		for i := range out {
@@ -124,7 +131,6 @@ func powerSpectrum(p []float32, w []float64, n int, buf []complex128) []float64 
 		}
 	}
 	out[0] = 0
-	return out
 }
 
 // gridAngle estimates the grid's orientation modulo 90° (radians, in

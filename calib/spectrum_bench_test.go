@@ -22,18 +22,7 @@ func powerSpectrumCV(p []float32, w []float64, n int, vals []float64) []float64 
 	if !dftPower(vals, 1, n, out, n/2+1) {
 		return out
 	}
-	var tot float64
-	for i := range out {
-		if i > 0 {
-			tot += out[i]
-		}
-	}
-	if tot > 0 {
-		for i := range out {
-			out[i] /= tot
-		}
-	}
-	out[0] = 0
+	unitACPower(out)
 	return out
 }
 

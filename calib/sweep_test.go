@@ -13,23 +13,6 @@ import (
 	"tracelift/samples"
 )
 
-// truthAt returns the rendered page's true scales (px/mm along the paper's
-// time and amplitude axes) and rotation at image point (x, y), from the
-// renderer's page-to-image homography.
-func truthAt(tr samples.Truth, x, y float64) (ppx, ppy, rot float64) {
-	inv, ok := mat3(tr.PageToImage).inv()
-	if !ok {
-		return tr.PxPerMMX, tr.PxPerMMY, tr.RotationDeg
-	}
-	cx, cy := inv.apply(x, y)
-	h := tr.CleanPxPerMM / 2
-	x0, y0 := samples.Apply(tr.PageToImage, cx-h, cy)
-	x1, y1 := samples.Apply(tr.PageToImage, cx+h, cy)
-	x2, y2 := samples.Apply(tr.PageToImage, cx, cy-h)
-	x3, y3 := samples.Apply(tr.PageToImage, cx, cy+h)
-	return math.Hypot(x1-x0, y1-y0), math.Hypot(x3-x2, y3-y2), -math.Atan2(y1-y0, x1-x0) * 180 / math.Pi
-}
-
 type sweepRow struct {
 	cond          string
 	errs          []float64 // relative px/mm errors, both axes pooled
@@ -74,7 +57,7 @@ func sweep(t *testing.T, n int, base int64) map[string]*sweepRow {
 				continue
 			}
 			r.sources[res.Source]++
-			tx, ty, trot := truthAt(rc.p.Truth, res.ScaleAt[0], res.ScaleAt[1])
+			tx, ty, trot := rc.p.Truth.ScalesAt(res.ScaleAt[0], res.ScaleAt[1])
 			ex, ey := math.Abs(res.PxPerMMX/tx-1), math.Abs(res.PxPerMMY/ty-1)
 			r.errs = append(r.errs, ex, ey)
 			r.rot = append(r.rot, math.Abs(res.RotationDeg-trot))

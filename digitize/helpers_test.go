@@ -2,6 +2,7 @@ package digitize
 
 import (
 	"context"
+	"image"
 	"math"
 	"testing"
 
@@ -31,6 +32,17 @@ func truthCal(p *samples.Printout) *calib.Result {
 		c.Pulses = append(c.Pulses, calib.Pulse{Box: b, HeightMM: (b[3] - b[1]) / c.PxPerMM, WidthMM: (b[2] - b[0]) / c.PxPerMM})
 	}
 	return c
+}
+
+// detect calibrates a picture as a page is read in use (calib.Detect),
+// failing the test when it cannot.
+func detect(t testing.TB, img *image.NRGBA) *calib.Result {
+	t.Helper()
+	cal, err := calib.Detect(context.Background(), &calib.Page{Image: img}, calib.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return cal
 }
 
 func render(t testing.TB, rec *record.Record, st samples.Style) *samples.Printout {

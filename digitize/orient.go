@@ -44,22 +44,31 @@ func squarePulse(g *gray, x0 int, base, pitch, pxPerMM, speed float64) (ok bool,
 	from := max(0, x0-int(5*pxPerMM))
 	lim := min(g.w, x0+int((0.35*speed+6)*pxPerMM))
 	r := image.Rect(from, max(0, int(base-0.9*pitch)-2), lim, min(g.h, int(base+tol+1.5*pxPerMM)))
-	// On the tracer's map first; where its blur and line removal broke
-	// a pulse's sides (a fax's), on the ink as calib mapped it.
+	p, ok := g.firstPulse(func(im *image.Gray) []calib.Pulse { return calib.PulsesIn(im, r, pxPerMM, 64) }, func(p calib.Pulse) bool {
+		d := p.WidthMM / speed
+		return d >= 0.08 && d <= 0.3 && math.Abs(p.Box[3]-base) <= tol && p.HeightMM >= 2.5 && p.HeightMM*pxPerMM <= 0.9*pitch
+	})
+	if !ok {
+		return false, 0
+	}
+	return true, p.HeightMM * pxPerMM
+}
+
+// firstPulse returns the first pulse find reports that keep accepts:
+// on the tracer's map first and, where its blur and line removal broke
+// a pulse's sides (a fax's), on the ink as calib mapped it (raw).
+func (g *gray) firstPulse(find func(*image.Gray) []calib.Pulse, keep func(calib.Pulse) bool) (calib.Pulse, bool) {
 	for _, pix := range [][]uint8{g.pix, g.raw} {
 		if pix == nil {
 			continue
 		}
-		im := &image.Gray{Pix: pix, Stride: g.w, Rect: image.Rect(0, 0, g.w, g.h)}
-		for _, p := range calib.PulsesIn(im, r, pxPerMM, 64) {
-			d := p.WidthMM / speed
-			if d < 0.08 || d > 0.3 || math.Abs(p.Box[3]-base) > tol || p.HeightMM < 2.5 || p.HeightMM*pxPerMM > 0.9*pitch {
-				continue
+		for _, p := range find(&image.Gray{Pix: pix, Stride: g.w, Rect: image.Rect(0, 0, g.w, g.h)}) {
+			if keep(p) {
+				return p, true
 			}
-			return true, p.HeightMM * pxPerMM
 		}
 	}
-	return false, 0
+	return calib.Pulse{}, false
 }
 
 // turnedGray returns g turned half a turn (its raw map too).

@@ -40,28 +40,21 @@ func pulseEndFallAt(g *gray, x0, x1 int, base, pitch, pxPerMM, speed, gain float
 	from := max(0, x0-int((0.3*speed+3)*pxPerMM))
 	lim := min(x1, x0+int((0.35*speed+6)*pxPerMM))
 	// calib's pulse detector where a pulse is expected
-	// (calib.PulsesAtRowStart) over the row's first stretch, on the
-	// tracer's map and then on calib's ink where blur and line removal
-	// broke the pulse's sides; a pulse stands on the baseline with
-	// nothing running along it between its sides (openFoot: not a lead's
-	// name printed on the baseline).
+	// (calib.PulsesAtRowStart) over the row's first stretch, on the maps
+	// firstPulse looks at; a pulse stands on the baseline with nothing
+	// running along it between its sides (openFoot: not a lead's name
+	// printed on the baseline).
 	r := image.Rect(from, ya, lim, yb)
-	for _, pix := range [][]uint8{g.pix, g.raw} {
-		if pix == nil {
-			continue
-		}
-		im := &image.Gray{Pix: pix, Stride: g.w, Rect: image.Rect(0, 0, g.w, g.h)}
-		for _, p := range calib.PulsesAtRowStart(im, r, pxPerMM, on) {
-			d := p.WidthMM / speed
-			rise, fall := int(p.Box[0]), int(p.Box[2])
-			if d < 0.08 || d > 0.3 || p.HeightMM*pxPerMM < tall || math.Abs(p.Box[3]-base) > 0.2*pitch ||
-				!openFoot(g, rise+2, fall-2, int(math.Round(base)), 1, on) {
-				continue
-			}
-			return leadOut(g, x0, x1, fall, base, pitch, pxPerMM, ya, yb), fall
-		}
+	p, ok := g.firstPulse(func(im *image.Gray) []calib.Pulse { return calib.PulsesAtRowStart(im, r, pxPerMM, on) }, func(p calib.Pulse) bool {
+		d := p.WidthMM / speed
+		return d >= 0.08 && d <= 0.3 && p.HeightMM*pxPerMM >= tall && math.Abs(p.Box[3]-base) <= 0.2*pitch &&
+			openFoot(g, int(p.Box[0])+2, int(p.Box[2])-2, int(math.Round(base)), 1, on)
+	})
+	if !ok {
+		return x0, -1
 	}
-	return x0, -1
+	fall := int(p.Box[2])
+	return leadOut(g, x0, x1, fall, base, pitch, pxPerMM, ya, yb), fall
 }
 
 // leadOut returns the first column of the trace right of a pulse whose

@@ -23,10 +23,7 @@ func TestGreyGridFadedTrace(t *testing.T) {
 	st.TraceColor = color.NRGBA{110, 110, 110, 255}
 	st.TraceWidthMM = 0.2
 	p := render(t, dipoleRecord(5), st)
-	cal, err := calib.Detect(context.Background(), &calib.Page{Image: p.Image}, calib.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cal := detect(t, p.Image)
 	res := runOn(t, cal, Options{})
 	acc := scoreLeads(p.Truth.Signals, res.Record)
 	for l, a := range acc {

@@ -147,10 +147,7 @@ func TestPrintedSpeedOverPulseWidth(t *testing.T) {
 				st.Header, st.Labels = "", false
 			}
 			p := render(t, dipoleRecord(5), st)
-			cal, err := calib.Detect(contextBG(), &calib.Page{Image: p.Image}, calib.Options{})
-			if err != nil {
-				t.Fatal(err)
-			}
+			cal := detect(t, p.Image)
 			cal = runOn(t, cal, Options{}).Calib
 			if cal.SpeedMMPerS != c.want || cal.SpeedFrom != c.from {
 				t.Errorf("read %g mm/s from %q, want %g from %q (warnings %q)", cal.SpeedMMPerS, cal.SpeedFrom, c.want, c.from, cal.Warnings)

@@ -320,10 +320,7 @@ func TestTimeZeroJoinedPulseFast(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cal, err := calib.Detect(contextBG(), &calib.Page{Image: p.Image}, calib.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cal := detect(t, p.Image)
 	res := runOn(t, cal, Options{})
 	if d := medianShift(t, p.Truth.Signals, res.Record); d > 0.004 {
 		t.Errorf("median |time shift| %.0f ms over the leads, want ≤ 4 ms", 1000*d)
@@ -345,10 +342,7 @@ func TestNamesOnBaselineAreNoPulse(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cal, err := calib.Detect(contextBG(), &calib.Page{Image: p.Image}, calib.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cal := detect(t, p.Image)
 	res := runOn(t, cal, Options{})
 	if cal.GainMMPerMV != 10 {
 		t.Errorf("gain read %g mm/mV, printed at 10", cal.GainMMPerMV)

@@ -202,3 +202,23 @@ func Unwarp(pic *image.NRGBA, t Truth, w, h int) *image.NRGBA {
 	})
 	return out
 }
+
+// ScalesAt returns the page's true scales (px/mm along the paper's time
+// and amplitude axes) and rotation (degrees, counter-clockwise) at image
+// point (x, y), from the page-to-image map: under perspective they change
+// across the page, and calib states them where it measured them. A page
+// bent off its plane (Bend) has no single map; its global truth is
+// returned.
+func (t Truth) ScalesAt(x, y float64) (pxPerMMX, pxPerMMY, rotDeg float64) {
+	inv, ok := Invert(t.PageToImage)
+	if !ok || t.Bend != nil || t.CleanPxPerMM <= 0 {
+		return t.PxPerMMX, t.PxPerMMY, t.RotationDeg
+	}
+	cx, cy := Apply(inv, x, y)
+	h := t.CleanPxPerMM / 2
+	x0, y0 := Apply(t.PageToImage, cx-h, cy)
+	x1, y1 := Apply(t.PageToImage, cx+h, cy)
+	x2, y2 := Apply(t.PageToImage, cx, cy-h)
+	x3, y3 := Apply(t.PageToImage, cx, cy+h)
+	return math.Hypot(x1-x0, y1-y0), math.Hypot(x3-x2, y3-y2), -math.Atan2(y1-y0, x1-x0) * 180 / math.Pi
+}

@@ -171,7 +171,7 @@ func runBenchCase(i int, seed int64, conds []string, real *record.Record, dpi fl
 		c.GainOK = math.Abs(o.Calib.GainMMPerMV-tr.GainMMPerMV) < 0.02*tr.GainMMPerMV
 		c.SpeedOK = math.Abs(o.Calib.SpeedMMPerS-tr.SpeedMMPerS) < 0.02*tr.SpeedMMPerS
 		c.Calib.Source = o.Calib.Source
-		tx, ty, trot := truthAt(tr, o.Calib.ScaleAt[0], o.Calib.ScaleAt[1])
+		tx, ty, trot := tr.ScalesAt(o.Calib.ScaleAt[0], o.Calib.ScaleAt[1])
 		c.Calib.LocalErr = [2]float64{math.Abs(o.Calib.PxPerMMX/tx - 1), math.Abs(o.Calib.PxPerMMY/ty - 1)}
 		c.Calib.LocalRotErr = math.Abs(angleDiff(o.Calib.RotationDeg+90*float64(o.Calib.Turned), trot))
 	}

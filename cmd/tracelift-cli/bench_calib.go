@@ -3,11 +3,8 @@ package main
 import (
 	"fmt"
 	"io"
-	"math"
 	"sort"
 	"strings"
-
-	"tracelift/samples"
 )
 
 // calibCase is what bench --calib-table keeps of calib's reading of a case
@@ -18,26 +15,6 @@ type calibCase struct {
 	NoScale     bool       // calib found no scale (calib.ErrNoScale)
 	LocalErr    [2]float64 // relative px/mm error along time and amplitude, against the truth at Result.ScaleAt
 	LocalRotErr float64    // degrees, against the truth's direction at Result.ScaleAt
-}
-
-// truthAt returns the rendered page's true scales (px/mm along the paper's
-// time and amplitude axes) and rotation at image point (x, y), from the
-// renderer's page-to-image map: under perspective they change across the
-// page, and calib states them where it measured them (Result.ScaleAt). A
-// page bent off its plane (Truth.Bend) has no single map; its global
-// truth is returned.
-func truthAt(tr samples.Truth, x, y float64) (ppx, ppy, rot float64) {
-	inv, ok := samples.Invert(tr.PageToImage)
-	if !ok || tr.Bend != nil || tr.CleanPxPerMM <= 0 {
-		return tr.PxPerMMX, tr.PxPerMMY, tr.RotationDeg
-	}
-	cx, cy := samples.Apply(inv, x, y)
-	h := tr.CleanPxPerMM / 2
-	x0, y0 := samples.Apply(tr.PageToImage, cx-h, cy)
-	x1, y1 := samples.Apply(tr.PageToImage, cx+h, cy)
-	x2, y2 := samples.Apply(tr.PageToImage, cx, cy-h)
-	x3, y3 := samples.Apply(tr.PageToImage, cx, cy+h)
-	return math.Hypot(x1-x0, y1-y0), math.Hypot(x3-x2, y3-y2), -math.Atan2(y1-y0, x1-x0) * 180 / math.Pi
 }
 
 // printCalibTable prints, per condition, calib alone: cases, pages calib
